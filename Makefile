@@ -1,0 +1,56 @@
+# Thin aliases over the go tool. See DEVELOPERS.md.
+GO          ?= go
+BIN         := $(CURDIR)/bin
+PROTOC_GEN_GO_VERSION      := v1.36.12
+PROTOC_GEN_GO_GRPC_VERSION := v1.6.0
+WEB         := cmd/fluxroom/web
+PROTOS      := proto/fluxroom/v1/messages.proto proto/fluxroom/v1/service.proto proto/fluxroom/record/v1/records.proto
+
+.PHONY: all build wasm test test-short bench generate verify-generate tools demo serve clean
+
+all: build
+
+## wasm: the dashboard, compiled to WebAssembly, plus its gzip copy, embedded by cmd/fluxroom.
+wasm:
+	GOOS=js GOARCH=wasm $(GO) build -trimpath -ldflags='-s -w' -o $(WEB)/app.wasm ./wasmclient/app
+	gzip -9 -k -f $(WEB)/app.wasm
+
+build: wasm
+	$(GO) build -o $(BIN)/fluxroom ./cmd/fluxroom
+
+## test: every test, including the headless-browser one, and the import rules.
+test: wasm
+	$(GO) vet ./...
+	$(GO) run ./internal/importcheck
+	$(GO) test -count=1 ./...
+
+test-short:
+	$(GO) test -short ./...
+
+bench:
+	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
+
+demo: build
+	$(BIN)/fluxroom demo
+
+serve: build
+	$(BIN)/fluxroom serve
+
+tools:
+	GOBIN=$(BIN) $(GO) install google.golang.org/protobuf/cmd/protoc-gen-go@$(PROTOC_GEN_GO_VERSION)
+	GOBIN=$(BIN) $(GO) install google.golang.org/grpc/cmd/protoc-gen-go-grpc@$(PROTOC_GEN_GO_GRPC_VERSION)
+
+## generate: protobuf Go code from proto/ (needs Debian's protobuf-compiler).
+generate: tools
+	PATH=$(BIN):$$PATH protoc -I proto \
+		--go_out=. --go_opt=module=example.com/fluxroom \
+		--go-grpc_out=. --go-grpc_opt=module=example.com/fluxroom \
+		$(PROTOS)
+
+## verify-generate: fails when the committed generated code is stale.
+verify-generate: generate
+	@git diff --exit-code -- proto/ || (echo "generated code is stale: run make generate and commit" >&2; exit 1)
+	@test -z "$$(git status --porcelain -- proto/)" || (git status --porcelain -- proto/; echo "generated code is not committed" >&2; exit 1)
+
+clean:
+	rm -rf $(BIN) $(WEB)/app.wasm $(WEB)/app.wasm.gz

@@ -1,0 +1,288 @@
+package domain
+
+import (
+	"fmt"
+	"math"
+	"regexp"
+	"sort"
+	"strings"
+	"time"
+	"unicode/utf8"
+)
+
+// Session is one lab section meeting in one room.
+type Session struct {
+	ID        uint64
+	Title     string
+	JoinCode  string
+	CreatedAt time.Time
+}
+
+// Bench is one station in the room with its equipment constants, as typed.
+type Bench struct {
+	ID         uint64
+	Label      string
+	Row        int
+	Column     int
+	Experiment string
+	Constants  map[string]Quantity
+}
+
+// Reading is one row of measurements from a bench, as typed.
+type Reading struct {
+	ID         string
+	Values     map[string]Quantity
+	ReceivedAt time.Time
+	Sequence   uint64
+}
+
+// QuantitySpec declares one bench constant or one reading value of an
+// experiment: its name on the wire, its dimension, and its limits.
+type QuantitySpec struct {
+	// Name is the key in Bench.Constants or Reading.Values.
+	Name string
+	// Label is what people see, with the symbol: "turns N".
+	Label string
+	Dim   Dimension
+	// Unit is the unit the dashboard offers first.
+	Unit string
+	// Default is the value used when the instructor sets none (constants
+	// only), in Unit.
+	Default float64
+	// DefaultRelU is the relative standard uncertainty used when none is
+	// given.
+	DefaultRelU float64
+	// Min and Max bound what is physically possible for this set-up, in SI;
+	// outside them the input is rejected as a typing mistake. NaN: no bound.
+	Min, Max float64
+	// MinExclusive makes Min itself invalid (lengths must be > 0).
+	MinExclusive bool
+	// Integer requires a whole number (turns).
+	Integer bool
+	// Hint explains Max to the person who typed past it.
+	Hint string
+}
+
+// Experiment is one kind of bench work: what the instructor sets, what the
+// students submit, and how the result is judged.
+type Experiment struct {
+	ID        string
+	Title     string
+	Constants []QuantitySpec
+	Values    []QuantitySpec
+	// MinReadings is how many readings the first verdict needs.
+	MinReadings int
+	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance) Assessment
+}
+
+// siReading is a reading converted to SI.
+type siReading struct {
+	values map[string]Measurement
+	at     time.Time
+}
+
+var experiments = map[string]*Experiment{}
+
+func register(e *Experiment) {
+	if _, dup := experiments[e.ID]; dup {
+		panic("domain: experiment registered twice: " + e.ID)
+	}
+	experiments[e.ID] = e
+}
+
+// LookupExperiment returns the experiment with the given id.
+func LookupExperiment(id string) (*Experiment, bool) {
+	e, ok := experiments[id]
+	return e, ok
+}
+
+// ExperimentIDs lists the registered experiments, sorted.
+func ExperimentIDs() []string {
+	ids := make([]string, 0, len(experiments))
+	for id := range experiments {
+		ids = append(ids, id)
+	}
+	sort.Strings(ids)
+	return ids
+}
+
+// DefaultConstants returns the experiment's constants at their defaults.
+func (e *Experiment) DefaultConstants() map[string]Quantity {
+	m := make(map[string]Quantity, len(e.Constants))
+	for _, s := range e.Constants {
+		m[s.Name] = Quantity{Value: s.Default, Unit: s.Unit}
+	}
+	return m
+}
+
+func (s QuantitySpec) check(field string, q Quantity, vs *violations) (Measurement, bool) {
+	m, err := ToSI(field, q, s.Dim)
+	if err != nil {
+		*vs = append(*vs, err.(*ValidationError).Violations...)
+		return Measurement{}, false
+	}
+	ok := true
+	if !math.IsNaN(s.Min) && (m.Value < s.Min || (s.MinExclusive && m.Value == s.Min)) {
+		cmp := "≥"
+		if s.MinExclusive {
+			cmp = ">"
+		}
+		vs.add(field+".value", "%s must be %s %g %s, got %g %s", s.Label, cmp, s.Min, siUnit(s.Dim), q.Value, q.Unit)
+		ok = false
+	}
+	if !math.IsNaN(s.Max) && m.Value > s.Max {
+		reason := fmt.Sprintf("%s must be ≤ %g %s, got %g %s", s.Label, s.Max, siUnit(s.Dim), q.Value, q.Unit)
+		if s.Hint != "" {
+			reason += " (" + s.Hint + ")"
+		}
+		vs.add(field+".value", "%s", reason)
+		ok = false
+	}
+	if s.Integer && m.Value != math.Trunc(m.Value) {
+		vs.add(field+".value", "%s must be a whole number, got %g", s.Label, q.Value)
+		ok = false
+	}
+	if m.Uncertainty == 0 {
+		m.Uncertainty = math.Abs(m.Value) * s.DefaultRelU
+	}
+	return m, ok
+}
+
+func siUnit(d Dimension) string {
+	switch d {
+	case Length:
+		return "m"
+	case Current:
+		return "A"
+	case Force:
+		return "N"
+	case MagneticField:
+		return "T"
+	case Voltage:
+		return "V"
+	case Mass:
+		return "kg"
+	case CoilConstant:
+		return "T/A"
+	case TurnDensity:
+		return "1/m"
+	}
+	return ""
+}
+
+var labelPattern = regexp.MustCompile(`^[\p{L}\p{N}][\p{L}\p{N} ._-]*$`)
+
+// Grid limits: a teaching lab is far smaller, so larger numbers are typing
+// mistakes // common practice.
+const (
+	MaxGridRows    = 20
+	MaxGridColumns = 20
+	maxLabelLen    = 24
+)
+
+// ValidateBench checks a bench as the instructor set it and returns it with
+// every missing constant filled in at its default. prefix is the bench's
+// field path in the request, such as "benches[3]".
+func ValidateBench(prefix string, b Bench) (Bench, error) {
+	var vs violations
+	if !utf8.ValidString(b.Label) || !labelPattern.MatchString(b.Label) || utf8.RuneCountInString(b.Label) > maxLabelLen {
+		vs.add(prefix+".label", "must be 1–%d letters, digits, spaces, '.', '_' or '-', starting with a letter or digit; got %q", maxLabelLen, b.Label)
+	}
+	if b.Row < 0 || b.Row >= MaxGridRows {
+		vs.add(prefix+".row", "must be 0–%d, got %d", MaxGridRows-1, b.Row)
+	}
+	if b.Column < 0 || b.Column >= MaxGridColumns {
+		vs.add(prefix+".column", "must be 0–%d, got %d", MaxGridColumns-1, b.Column)
+	}
+	e, ok := LookupExperiment(b.Experiment)
+	if !ok {
+		vs.add(prefix+".experiment", "unknown experiment %q; use one of %s", b.Experiment, strings.Join(ExperimentIDs(), ", "))
+		return b, vs.err()
+	}
+	out := b
+	out.Constants = e.DefaultConstants()
+	known := map[string]QuantitySpec{}
+	for _, s := range e.Constants {
+		known[s.Name] = s
+	}
+	for _, name := range sortedKeys(b.Constants) {
+		s, ok := known[name]
+		field := fmt.Sprintf("%s.constants[%q]", prefix, name)
+		if !ok {
+			vs.add(field, "experiment %s has no constant %q", e.ID, name)
+			continue
+		}
+		s.check(field, b.Constants[name], &vs)
+		out.Constants[name] = b.Constants[name]
+	}
+	return out, vs.err()
+}
+
+// ValidateReadingID checks a client-generated reading id.
+func ValidateReadingID(field, id string) error {
+	if id == "" || len(id) > 64 || !readingIDPattern.MatchString(id) {
+		return Invalid(field, "must be 1–64 characters of letters, digits, '-' or '_'; got %q", id)
+	}
+	return nil
+}
+
+var readingIDPattern = regexp.MustCompile(`^[A-Za-z0-9_-]+$`)
+
+// ValidateReading checks one reading's values for the bench's experiment.
+// prefix is the field path of the values map, such as "values".
+func ValidateReading(prefix string, b Bench, values map[string]Quantity) error {
+	e, ok := LookupExperiment(b.Experiment)
+	if !ok {
+		return Invalid("bench_id", "bench has unknown experiment %q", b.Experiment)
+	}
+	_, err := e.convertReading(prefix, values)
+	return err
+}
+
+func (e *Experiment) convertReading(prefix string, values map[string]Quantity) (map[string]Measurement, error) {
+	var vs violations
+	known := map[string]bool{}
+	out := make(map[string]Measurement, len(e.Values))
+	for _, s := range e.Values {
+		known[s.Name] = true
+		field := fmt.Sprintf("%s[%q]", prefix, s.Name)
+		q, ok := values[s.Name]
+		if !ok {
+			vs.add(field, "is missing: %s needs %s", e.Title, s.Label)
+			continue
+		}
+		if m, ok := s.check(field, q, &vs); ok {
+			out[s.Name] = m
+		}
+	}
+	for _, name := range sortedKeys(values) {
+		if !known[name] {
+			vs.add(fmt.Sprintf("%s[%q]", prefix, name), "experiment %s takes no value %q", e.ID, name)
+		}
+	}
+	return out, vs.err()
+}
+
+func (e *Experiment) convertConstants(c map[string]Quantity) (map[string]Measurement, error) {
+	var vs violations
+	out := make(map[string]Measurement, len(e.Constants))
+	for _, s := range e.Constants {
+		q, ok := c[s.Name]
+		if !ok {
+			q = Quantity{Value: s.Default, Unit: s.Unit}
+		}
+		if m, ok := s.check(fmt.Sprintf("constants[%q]", s.Name), q, &vs); ok {
+			out[s.Name] = m
+		}
+	}
+	return out, vs.err()
+}
+
+func sortedKeys[V any](m map[string]V) []string {
+	ks := make([]string, 0, len(m))
+	for k := range m {
+		ks = append(ks, k)
+	}
+	sort.Strings(ks)
+	return ks
+}

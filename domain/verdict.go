@@ -1,0 +1,162 @@
+package domain
+
+import (
+	"fmt"
+	"math"
+	"time"
+)
+
+// Verdict is the state of a bench's result. Values are append-only.
+type Verdict int
+
+// Verdicts.
+const (
+	VerdictUnspecified Verdict = iota
+	NeedData
+	Consistent
+	Check
+	Off
+)
+
+// Label is the verdict in the words the dashboard and exports use.
+func (v Verdict) Label() string {
+	switch v {
+	case NeedData:
+		return "need data"
+	case Consistent:
+		return "consistent"
+	case Check:
+		return "check"
+	case Off:
+		return "off"
+	}
+	return "unknown"
+}
+
+// Tolerance is a course's rule for turning a discrepancy into a verdict.
+//
+// A result is consistent when |z| ≤ ZConsistent or its percent difference is
+// within GoodPercent; off when |z| > ZOff and the percent difference exceeds
+// AcceptablePercent; otherwise check.
+type Tolerance struct {
+	ZConsistent       float64
+	ZOff              float64
+	GoodPercent       float64
+	AcceptablePercent float64
+}
+
+// DefaultTolerance is the profile used when a course sets none: agreement
+// within 2 combined standard uncertainties, and the 5 % / 10 % bands many
+// introductory courses use // common practice (PHYSICS.md §2).
+var DefaultTolerance = Tolerance{ZConsistent: 2, ZOff: 3, GoodPercent: 5, AcceptablePercent: 10}
+
+func (t Tolerance) verdict(z, pct float64) Verdict {
+	az, ap := math.Abs(z), math.Abs(pct)
+	switch {
+	case az <= t.ZConsistent || ap <= t.GoodPercent:
+		return Consistent
+	case az > t.ZOff && ap > t.AcceptablePercent:
+		return Off
+	}
+	return Check
+}
+
+// Diagnosis is a likely cause of a discrepancy, with the numbers behind it.
+type Diagnosis struct {
+	// Code is stable and append-only, "<experiment>.<cause>".
+	Code     string
+	Cause    string
+	Evidence string
+	Action   string
+	// Alternatives are codes that fit the numbers about as well.
+	Alternatives []string
+}
+
+// Diagnosis codes. Append-only: never rename or reuse one.
+const (
+	CodeSensorNotZeroed = "coil_force.sensor_not_zeroed"
+)
+
+// Assessment is the judged state of one bench.
+type Assessment struct {
+	Verdict   Verdict
+	Reason    string
+	Diagnoses []Diagnosis
+	// Measured and Predicted are the result and the theory value in SI.
+	Measured, Predicted Measurement
+	// ResultUnit is the SI unit of Measured and Predicted.
+	ResultUnit string
+	// Z is (measured - predicted) / combined standard uncertainty.
+	Z float64
+	// PercentDiff is 100·(measured/predicted - 1).
+	PercentDiff float64
+	// Fit is the line fitted to the readings, when there is one.
+	Fit *Fit
+	// FitX and FitY name the fitted values; their units are SI.
+	FitX, FitY      string
+	ReadingCount    int
+	LastReadingAt   time.Time
+	ExperimentTitle string
+}
+
+// Assess judges a bench from its readings. The bench must have passed
+// ValidateBench and each reading ValidateReading; anything else is reported
+// as a need-data verdict with the reason, never a panic.
+func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
+	e, ok := LookupExperiment(b.Experiment)
+	if !ok {
+		return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("unknown experiment %q", b.Experiment)}
+	}
+	c, err := e.convertConstants(b.Constants)
+	if err != nil {
+		return Assessment{Verdict: NeedData, Reason: "bench constants need fixing: " + err.Error(), ExperimentTitle: e.Title}
+	}
+	rs := make([]siReading, 0, len(readings))
+	var last time.Time
+	for _, r := range readings {
+		v, err := e.convertReading("values", r.Values)
+		if err != nil {
+			continue // rejected at submission; never stored
+		}
+		rs = append(rs, siReading{values: v, at: r.ReceivedAt})
+		if r.ReceivedAt.After(last) {
+			last = r.ReceivedAt
+		}
+	}
+	var a Assessment
+	if len(rs) < e.MinReadings {
+		a = Assessment{Verdict: NeedData, Reason: fmt.Sprintf("%d of %d readings needed for a first verdict", len(rs), e.MinReadings)}
+	} else {
+		a = e.assess(c, rs, tol)
+	}
+	a.ReadingCount = len(rs)
+	a.LastReadingAt = last
+	a.ExperimentTitle = e.Title
+	return a
+}
+
+// combine judges a measured value against a prediction.
+func combine(measured, predicted Measurement, tol Tolerance) (z, pct float64, v Verdict) {
+	u := math.Hypot(measured.Uncertainty, predicted.Uncertainty)
+	if u > 0 {
+		z = (measured.Value - predicted.Value) / u
+	} else if measured.Value != predicted.Value {
+		z = math.Inf(sign(measured.Value - predicted.Value))
+	}
+	if predicted.Value != 0 {
+		pct = 100 * (measured.Value/predicted.Value - 1)
+	}
+	return z, pct, tol.verdict(z, pct)
+}
+
+func sign(x float64) int {
+	if x < 0 {
+		return -1
+	}
+	return 1
+}
+
+// resolutionU is the standard uncertainty of a digital reading with
+// resolution res: a rectangular distribution of width res
+// [pub: JCGM 100:2008 (GUM) §4.3.7 and F.2.2.1].
+func resolutionU(res float64) float64 { return res / (2 * math.Sqrt(3)) }
