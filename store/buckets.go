@@ -1,0 +1,88 @@
+package store
+
+import (
+	"encoding/binary"
+	"fmt"
+)
+
+// SchemaVersion is the layout this build reads and writes. Bump it, and add
+// an upgrade step in upgrade, whenever a bucket or key layout changes.
+const SchemaVersion = 1
+
+// Buckets. Every one is created when the file is opened.
+var (
+	// bucketMeta holds keySchemaVersion → uint64 big-endian.
+	bucketMeta = []byte("meta")
+	// bucketSessions: sessionKey → recordpb.Session.
+	bucketSessions = []byte("sessions")
+	// bucketJoinCodes: join code (UTF-8) → session id (uint64 big-endian).
+	bucketJoinCodes = []byte("join_codes")
+	// bucketBenches: benchKey → recordpb.Bench.
+	bucketBenches = []byte("benches")
+	// bucketReadings: readingKey → recordpb.Reading. Append-only.
+	bucketReadings = []byte("readings")
+	// bucketReadingIDs: readingIDKey → reading sequence (uint64 big-endian).
+	bucketReadingIDs = []byte("reading_ids")
+
+	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketReadingIDs}
+
+	keySchemaVersion = []byte("schema_version")
+)
+
+func u64(v uint64) []byte {
+	b := make([]byte, 8)
+	binary.BigEndian.PutUint64(b, v)
+	return b
+}
+
+func decodeU64(b []byte) (uint64, error) {
+	if len(b) != 8 {
+		return 0, fmt.Errorf("store: corrupt uint64 of %d bytes", len(b))
+	}
+	return binary.BigEndian.Uint64(b), nil
+}
+
+// sessionKey is the session id, 8 bytes big-endian.
+func sessionKey(sessionID uint64) []byte { return u64(sessionID) }
+
+// benchKey is session id (bytes 0–7) | bench id (bytes 8–15), big-endian, so
+// one session's benches are contiguous.
+func benchKey(sessionID, benchID uint64) []byte {
+	k := make([]byte, 16)
+	binary.BigEndian.PutUint64(k[0:8], sessionID)
+	binary.BigEndian.PutUint64(k[8:16], benchID)
+	return k
+}
+
+func decodeBenchKey(k []byte) (sessionID, benchID uint64, err error) {
+	if len(k) != 16 {
+		return 0, 0, fmt.Errorf("store: corrupt bench key of %d bytes", len(k))
+	}
+	return binary.BigEndian.Uint64(k[0:8]), binary.BigEndian.Uint64(k[8:16]), nil
+}
+
+// readingKey is session id (0–7) | bench id (8–15) | sequence (16–23),
+// big-endian, so one bench's readings are contiguous and in arrival order.
+func readingKey(sessionID, benchID, seq uint64) []byte {
+	k := make([]byte, 24)
+	binary.BigEndian.PutUint64(k[0:8], sessionID)
+	binary.BigEndian.PutUint64(k[8:16], benchID)
+	binary.BigEndian.PutUint64(k[16:24], seq)
+	return k
+}
+
+func decodeReadingKey(k []byte) (sessionID, benchID, seq uint64, err error) {
+	if len(k) != 24 {
+		return 0, 0, 0, fmt.Errorf("store: corrupt reading key of %d bytes", len(k))
+	}
+	return binary.BigEndian.Uint64(k[0:8]), binary.BigEndian.Uint64(k[8:16]), binary.BigEndian.Uint64(k[16:24]), nil
+}
+
+// readingIDKey is session id (0–7) | bench id (8–15) | the client's reading id
+// (16–, at most 64 bytes, validated by the domain).
+func readingIDKey(sessionID, benchID uint64, readingID string) []byte {
+	k := make([]byte, 16, 16+len(readingID))
+	binary.BigEndian.PutUint64(k[0:8], sessionID)
+	binary.BigEndian.PutUint64(k[8:16], benchID)
+	return append(k, readingID...)
+}

@@ -1,0 +1,69 @@
+package store
+
+import (
+	"time"
+
+	"example.com/fluxroom/domain"
+	"example.com/fluxroom/proto/recordpb"
+)
+
+// Conversions between domain types and stored records. Times are stored as
+// Unix nanoseconds in UTC.
+
+func unixNano(t time.Time) int64 {
+	if t.IsZero() {
+		return 0
+	}
+	return t.UnixNano()
+}
+
+func fromUnixNano(n int64) time.Time {
+	if n == 0 {
+		return time.Time{}
+	}
+	return time.Unix(0, n).UTC()
+}
+
+func quantitiesRecord(m map[string]domain.Quantity) map[string]*recordpb.Quantity {
+	out := make(map[string]*recordpb.Quantity, len(m))
+	for k, q := range m {
+		out[k] = &recordpb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+	}
+	return out
+}
+
+func quantitiesFromRecord(m map[string]*recordpb.Quantity) map[string]domain.Quantity {
+	out := make(map[string]domain.Quantity, len(m))
+	for k, q := range m {
+		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
+	}
+	return out
+}
+
+func sessionRecord(s domain.Session) *recordpb.Session {
+	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt)}
+}
+
+func sessionFromRecord(r *recordpb.Session) domain.Session {
+	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano())}
+}
+
+func benchRecord(b domain.Bench) *recordpb.Bench {
+	return &recordpb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
+		Experiment: b.Experiment, Constants: quantitiesRecord(b.Constants)}
+}
+
+func benchFromRecord(r *recordpb.Bench) domain.Bench {
+	return domain.Bench{ID: r.GetBenchId(), Label: r.GetLabel(), Row: int(r.GetRow()), Column: int(r.GetColumn()),
+		Experiment: r.GetExperiment(), Constants: quantitiesFromRecord(r.GetConstants())}
+}
+
+func readingRecord(r domain.Reading) *recordpb.Reading {
+	return &recordpb.Reading{ReadingId: r.ID, Values: quantitiesRecord(r.Values),
+		ReceivedUnixNano: unixNano(r.ReceivedAt), Sequence: r.Sequence}
+}
+
+func readingFromRecord(r *recordpb.Reading) domain.Reading {
+	return domain.Reading{ID: r.GetReadingId(), Values: quantitiesFromRecord(r.GetValues()),
+		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence()}
+}

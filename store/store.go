@@ -1,0 +1,355 @@
+package store
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"time"
+
+	"go.etcd.io/bbolt"
+	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/domain"
+	"example.com/fluxroom/proto/recordpb"
+)
+
+// Errors callers test with errors.Is.
+var (
+	ErrNotFound = errors.New("store: not found")
+	// ErrConflict means the write would break a uniqueness rule (a bench
+	// label or join code already in use).
+	ErrConflict = errors.New("store: conflict")
+	// ErrSchema means the file was written by a newer fluxroom.
+	ErrSchema = errors.New("store: unsupported schema version")
+)
+
+// DB is the fluxroom database: one bbolt file.
+type DB struct {
+	bolt *bbolt.DB
+}
+
+// Options tune Open. The zero value is a sensible default.
+type Options struct {
+	// Timeout bounds the wait for the file lock; another fluxroom holding
+	// the file makes Open fail instead of hang. Default 1 s.
+	Timeout time.Duration
+}
+
+// Open opens or creates the database at path, creates missing buckets and
+// checks the schema version.
+func Open(path string, opts Options) (*DB, error) {
+	if opts.Timeout == 0 {
+		opts.Timeout = time.Second
+	}
+	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout})
+	if err != nil {
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	db := &DB{bolt: b}
+	if err := b.Update(db.prepare); err != nil {
+		b.Close()
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	return db, nil
+}
+
+func (db *DB) prepare(tx *bbolt.Tx) error {
+	for _, name := range allBuckets {
+		if _, err := tx.CreateBucketIfNotExists(name); err != nil {
+			return err
+		}
+	}
+	meta := tx.Bucket(bucketMeta)
+	raw := meta.Get(keySchemaVersion)
+	if raw == nil {
+		return meta.Put(keySchemaVersion, u64(SchemaVersion))
+	}
+	v, err := decodeU64(raw)
+	if err != nil {
+		return err
+	}
+	if v > SchemaVersion {
+		return fmt.Errorf("%w: the file has schema version %d and this fluxroom reads up to %d; use a newer fluxroom", ErrSchema, v, SchemaVersion)
+	}
+	return nil
+}
+
+// Close closes the file.
+func (db *DB) Close() error { return db.bolt.Close() }
+
+// Path is the file's path.
+func (db *DB) Path() string { return db.bolt.Path() }
+
+// Check runs bbolt's consistency check over the whole file.
+func (db *DB) Check() error {
+	return db.bolt.View(func(tx *bbolt.Tx) error {
+		for err := range tx.Check() {
+			return fmt.Errorf("store: check: %w", err)
+		}
+		return nil
+	})
+}
+
+// CreateSession stores a new session and assigns its id. The join code must
+// not be in use (ErrConflict).
+func (db *DB) CreateSession(s domain.Session) (domain.Session, error) {
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		codes := tx.Bucket(bucketJoinCodes)
+		if codes.Get([]byte(s.JoinCode)) != nil {
+			return fmt.Errorf("%w: join code in use", ErrConflict)
+		}
+		sessions := tx.Bucket(bucketSessions)
+		id, err := sessions.NextSequence()
+		if err != nil {
+			return err
+		}
+		s.ID = id
+		if err := putRecord(sessions, sessionKey(id), sessionRecord(s)); err != nil {
+			return err
+		}
+		return codes.Put([]byte(s.JoinCode), u64(id))
+	})
+	if err != nil {
+		return domain.Session{}, fmt.Errorf("store: create session: %w", err)
+	}
+	return s, nil
+}
+
+// Session returns one session.
+func (db *DB) Session(id uint64) (domain.Session, error) {
+	var s domain.Session
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		var err error
+		s, err = getSession(tx, id)
+		return err
+	})
+	return s, err
+}
+
+// SessionByJoinCode returns the session a join code belongs to.
+func (db *DB) SessionByJoinCode(code string) (domain.Session, error) {
+	var s domain.Session
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		raw := tx.Bucket(bucketJoinCodes).Get([]byte(code))
+		if raw == nil {
+			return fmt.Errorf("%w: join code", ErrNotFound)
+		}
+		id, err := decodeU64(raw)
+		if err != nil {
+			return err
+		}
+		s, err = getSession(tx, id)
+		return err
+	})
+	return s, err
+}
+
+// Sessions returns every session, newest first.
+func (db *DB) Sessions() ([]domain.Session, error) {
+	var out []domain.Session
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		c := tx.Bucket(bucketSessions).Cursor()
+		for k, v := c.Last(); k != nil; k, v = c.Prev() {
+			var r recordpb.Session
+			if err := proto.Unmarshal(v, &r); err != nil {
+				return fmt.Errorf("store: decode session: %w", err)
+			}
+			out = append(out, sessionFromRecord(&r))
+		}
+		return nil
+	})
+	return out, err
+}
+
+func getSession(tx *bbolt.Tx, id uint64) (domain.Session, error) {
+	v := tx.Bucket(bucketSessions).Get(sessionKey(id))
+	if v == nil {
+		return domain.Session{}, fmt.Errorf("%w: session %d", ErrNotFound, id)
+	}
+	var r recordpb.Session
+	if err := proto.Unmarshal(v, &r); err != nil {
+		return domain.Session{}, fmt.Errorf("store: decode session %d: %w", id, err)
+	}
+	return sessionFromRecord(&r), nil
+}
+
+// PutBenches adds benches with ID 0 and updates those with an ID, in one
+// transaction. Labels stay unique within a session (ErrConflict). Benches not
+// named are kept. It returns all the session's benches afterwards.
+func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench) ([]domain.Bench, error) {
+	var out []domain.Bench
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		if _, err := getSession(tx, sessionID); err != nil {
+			return err
+		}
+		existing, err := listBenches(tx, sessionID)
+		if err != nil {
+			return err
+		}
+		byID := map[uint64]domain.Bench{}
+		for _, b := range existing {
+			byID[b.ID] = b
+		}
+		bk := tx.Bucket(bucketBenches)
+		for _, b := range benches {
+			if b.ID != 0 {
+				if _, ok := byID[b.ID]; !ok {
+					return fmt.Errorf("%w: bench %d in session %d", ErrNotFound, b.ID, sessionID)
+				}
+			} else {
+				id, err := bk.NextSequence()
+				if err != nil {
+					return err
+				}
+				b.ID = id
+			}
+			byID[b.ID] = b
+		}
+		labels := map[string]uint64{}
+		for _, b := range byID {
+			if other, dup := labels[b.Label]; dup {
+				return fmt.Errorf("%w: label %q used by benches %d and %d", ErrConflict, b.Label, other, b.ID)
+			}
+			labels[b.Label] = b.ID
+		}
+		for id, b := range byID {
+			if err := putRecord(bk, benchKey(sessionID, id), benchRecord(b)); err != nil {
+				return err
+			}
+		}
+		out, err = listBenches(tx, sessionID)
+		return err
+	})
+	if err != nil {
+		return nil, fmt.Errorf("store: put benches: %w", err)
+	}
+	return out, nil
+}
+
+// Benches returns a session's benches in id order.
+func (db *DB) Benches(sessionID uint64) ([]domain.Bench, error) {
+	var out []domain.Bench
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		if _, err := getSession(tx, sessionID); err != nil {
+			return err
+		}
+		var err error
+		out, err = listBenches(tx, sessionID)
+		return err
+	})
+	return out, err
+}
+
+func listBenches(tx *bbolt.Tx, sessionID uint64) ([]domain.Bench, error) {
+	var out []domain.Bench
+	prefix := sessionKey(sessionID)
+	c := tx.Bucket(bucketBenches).Cursor()
+	for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
+		if _, _, err := decodeBenchKey(k); err != nil {
+			return nil, err
+		}
+		var r recordpb.Bench
+		if err := proto.Unmarshal(v, &r); err != nil {
+			return nil, fmt.Errorf("store: decode bench: %w", err)
+		}
+		out = append(out, benchFromRecord(&r))
+	}
+	return out, nil
+}
+
+func getBench(tx *bbolt.Tx, sessionID, benchID uint64) (domain.Bench, error) {
+	v := tx.Bucket(bucketBenches).Get(benchKey(sessionID, benchID))
+	if v == nil {
+		return domain.Bench{}, fmt.Errorf("%w: bench %d in session %d", ErrNotFound, benchID, sessionID)
+	}
+	var r recordpb.Bench
+	if err := proto.Unmarshal(v, &r); err != nil {
+		return domain.Bench{}, fmt.Errorf("store: decode bench %d: %w", benchID, err)
+	}
+	return benchFromRecord(&r), nil
+}
+
+// BenchReadings returns one bench and all its readings in arrival order, read
+// in one transaction so the two agree.
+func (db *DB) BenchReadings(sessionID, benchID uint64) (domain.Bench, []domain.Reading, error) {
+	var b domain.Bench
+	var rs []domain.Reading
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		var err error
+		if b, err = getBench(tx, sessionID, benchID); err != nil {
+			return err
+		}
+		rs, err = listReadings(tx, sessionID, benchID)
+		return err
+	})
+	return b, rs, err
+}
+
+func listReadings(tx *bbolt.Tx, sessionID, benchID uint64) ([]domain.Reading, error) {
+	var out []domain.Reading
+	prefix := benchKey(sessionID, benchID)
+	c := tx.Bucket(bucketReadings).Cursor()
+	for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
+		if _, _, _, err := decodeReadingKey(k); err != nil {
+			return nil, err
+		}
+		var r recordpb.Reading
+		if err := proto.Unmarshal(v, &r); err != nil {
+			return nil, fmt.Errorf("store: decode reading: %w", err)
+		}
+		out = append(out, readingFromRecord(&r))
+	}
+	return out, nil
+}
+
+// AppendReading stores a reading for a bench, in one transaction with its
+// id index. When the bench already has a reading with the same ID, nothing is
+// written and the stored reading is returned with duplicate true.
+func (db *DB) AppendReading(sessionID, benchID uint64, r domain.Reading) (stored domain.Reading, duplicate bool, err error) {
+	err = db.bolt.Update(func(tx *bbolt.Tx) error {
+		if _, err := getBench(tx, sessionID, benchID); err != nil {
+			return err
+		}
+		ids := tx.Bucket(bucketReadingIDs)
+		idKey := readingIDKey(sessionID, benchID, r.ID)
+		readings := tx.Bucket(bucketReadings)
+		if raw := ids.Get(idKey); raw != nil {
+			seq, err := decodeU64(raw)
+			if err != nil {
+				return err
+			}
+			v := readings.Get(readingKey(sessionID, benchID, seq))
+			if v == nil {
+				return fmt.Errorf("store: reading id %q points at missing reading %d", r.ID, seq)
+			}
+			var rec recordpb.Reading
+			if err := proto.Unmarshal(v, &rec); err != nil {
+				return fmt.Errorf("store: decode reading: %w", err)
+			}
+			stored, duplicate = readingFromRecord(&rec), true
+			return nil
+		}
+		seq, err := readings.NextSequence()
+		if err != nil {
+			return err
+		}
+		r.Sequence = seq
+		if err := putRecord(readings, readingKey(sessionID, benchID, seq), readingRecord(r)); err != nil {
+			return err
+		}
+		stored = r
+		return ids.Put(idKey, u64(seq))
+	})
+	if err != nil {
+		return domain.Reading{}, false, fmt.Errorf("store: append reading: %w", err)
+	}
+	return stored, duplicate, nil
+}
+
+func putRecord(b *bbolt.Bucket, key []byte, m proto.Message) error {
+	v, err := proto.Marshal(m)
+	if err != nil {
+		return fmt.Errorf("store: encode: %w", err)
+	}
+	return b.Put(key, v)
+}

@@ -1,0 +1,173 @@
+package store
+
+import (
+	"errors"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"github.com/google/go-cmp/cmp"
+	"go.etcd.io/bbolt"
+
+	"example.com/fluxroom/domain"
+)
+
+func openTemp(t *testing.T) (*DB, string) {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "fluxroom.db")
+	db, err := Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return db, path
+}
+
+var t0 = time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
+
+func TestRoundTripAcrossReopen(t *testing.T) {
+	db, path := openTemp(t)
+	s, err := db.CreateSession(domain.Session{Title: "PHY 112 section 3", JoinCode: "K7Q2MX", CreatedAt: t0})
+	if err != nil {
+		t.Fatal(err)
+	}
+	benches, err := db.PutBenches(s.ID, []domain.Bench{
+		{Label: "A1", Row: 0, Column: 0, Experiment: "coil_force", Constants: map[string]domain.Quantity{"turns": {Value: 100, Unit: "1"}}},
+		{Label: "A2", Row: 0, Column: 1, Experiment: "coil_force", Constants: map[string]domain.Quantity{"gap_field": {Value: 0.12, Unit: "T", Uncertainty: 0.004}}},
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := domain.Reading{ID: "r-1", ReceivedAt: t0.Add(time.Minute), Values: map[string]domain.Quantity{
+		"current": {Value: 1.5, Unit: "A"}, "force": {Value: 0.72, Unit: "N"}}}
+	stored, dup, err := db.AppendReading(s.ID, benches[0].ID, r)
+	if err != nil || dup {
+		t.Fatalf("AppendReading = %v, duplicate %v", err, dup)
+	}
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+
+	db, err = Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	if err := db.Check(); err != nil {
+		t.Error(err)
+	}
+	gotS, err := db.SessionByJoinCode("K7Q2MX")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if diff := cmp.Diff(gotS, s); diff != "" {
+		t.Errorf("session after reopen (-got +want):\n%s", diff)
+	}
+	gotB, err := db.Benches(s.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if diff := cmp.Diff(gotB, benches); diff != "" {
+		t.Errorf("benches after reopen (-got +want):\n%s", diff)
+	}
+	_, rs, err := db.BenchReadings(s.ID, benches[0].ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if diff := cmp.Diff(rs, []domain.Reading{stored}); diff != "" {
+		t.Errorf("readings after reopen (-got +want):\n%s", diff)
+	}
+}
+
+func TestAppendReadingIsIdempotent(t *testing.T) {
+	db, _ := openTemp(t)
+	defer db.Close()
+	s, _ := db.CreateSession(domain.Session{Title: "t", JoinCode: "AAAAAA"})
+	bs, err := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r := domain.Reading{ID: "same", Values: map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}}}
+	first, _, err := db.AppendReading(s.ID, bs[0].ID, r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// A retry with other values never overwrites what was stored.
+	r.Values = map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}}
+	again, dup, err := db.AppendReading(s.ID, bs[0].ID, r)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !dup {
+		t.Error("second append: duplicate = false, want true")
+	}
+	if diff := cmp.Diff(again, first); diff != "" {
+		t.Errorf("retry returned (-got +want):\n%s", diff)
+	}
+	_, rs, _ := db.BenchReadings(s.ID, bs[0].ID)
+	if len(rs) != 1 {
+		t.Errorf("stored %d readings, want 1", len(rs))
+	}
+}
+
+func TestErrors(t *testing.T) {
+	db, _ := openTemp(t)
+	defer db.Close()
+	s, _ := db.CreateSession(domain.Session{Title: "t", JoinCode: "BBBBBB"})
+	bs, _ := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}})
+	for _, tc := range []struct {
+		name string
+		err  func() error
+		want error
+	}{
+		{"join code taken", func() error {
+			_, err := db.CreateSession(domain.Session{Title: "u", JoinCode: "BBBBBB"})
+			return err
+		}, ErrConflict},
+		{"duplicate label", func() error {
+			_, err := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}})
+			return err
+		}, ErrConflict},
+		{"unknown session", func() error { _, err := db.Benches(99); return err }, ErrNotFound},
+		{"unknown bench id on update", func() error {
+			_, err := db.PutBenches(s.ID, []domain.Bench{{ID: 999, Label: "Z9", Experiment: "coil_force"}})
+			return err
+		}, ErrNotFound},
+		{"reading for unknown bench", func() error {
+			_, _, err := db.AppendReading(s.ID, bs[0].ID+100, domain.Reading{ID: "x"})
+			return err
+		}, ErrNotFound},
+		{"unknown join code", func() error { _, err := db.SessionByJoinCode("ZZZZZZ"); return err }, ErrNotFound},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			if err := tc.err(); !errors.Is(err, tc.want) {
+				t.Errorf("got %v, want %v", err, tc.want)
+			}
+		})
+	}
+	// Failed writes left nothing behind.
+	got, _ := db.Benches(s.ID)
+	if len(got) != 1 {
+		t.Errorf("after failed writes the session has %d benches, want 1", len(got))
+	}
+}
+
+func TestNewerSchemaRefusesToOpen(t *testing.T) {
+	db, path := openTemp(t)
+	if err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		return tx.Bucket(bucketMeta).Put(keySchemaVersion, u64(SchemaVersion+1))
+	}); err != nil {
+		t.Fatal(err)
+	}
+	db.Close()
+	if _, err := Open(path, Options{}); !errors.Is(err, ErrSchema) {
+		t.Errorf("Open = %v, want ErrSchema", err)
+	}
+}
+
+func TestLockedFileFailsFast(t *testing.T) {
+	db, path := openTemp(t)
+	defer db.Close()
+	if _, err := Open(path, Options{Timeout: 50 * time.Millisecond}); err == nil {
+		t.Error("second Open of a locked file succeeded")
+	}
+}
