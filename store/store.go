@@ -269,6 +269,17 @@ func getBench(tx *bbolt.Tx, sessionID, benchID uint64) (domain.Bench, error) {
 	return benchFromRecord(&r), nil
 }
 
+// Bench returns one bench.
+func (db *DB) Bench(sessionID, benchID uint64) (domain.Bench, error) {
+	var b domain.Bench
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		var err error
+		b, err = getBench(tx, sessionID, benchID)
+		return err
+	})
+	return b, err
+}
+
 // BenchReadings returns one bench and all its readings in arrival order, read
 // in one transaction so the two agree.
 func (db *DB) BenchReadings(sessionID, benchID uint64) (domain.Bench, []domain.Reading, error) {

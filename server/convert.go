@@ -1,0 +1,104 @@
+package server
+
+import (
+	"sort"
+
+	"google.golang.org/protobuf/types/known/timestamppb"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+func quantitiesFromPB(m map[string]*pb.Quantity) map[string]domain.Quantity {
+	out := make(map[string]domain.Quantity, len(m))
+	for k, q := range m {
+		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
+	}
+	return out
+}
+
+func quantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
+	out := make(map[string]*pb.Quantity, len(m))
+	for k, q := range m {
+		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+	}
+	return out
+}
+
+
+func sessionToPB(s domain.Session) *pb.Session {
+	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode}
+	if !s.CreatedAt.IsZero() {
+		out.CreatedAt = timestamppb.New(s.CreatedAt)
+	}
+	return out
+}
+
+func benchFromPB(b *pb.Bench) domain.Bench {
+	return domain.Bench{ID: b.GetBenchId(), Label: b.GetLabel(), Row: int(b.GetRow()), Column: int(b.GetColumn()),
+		Experiment: b.GetExperiment(), Constants: quantitiesFromPB(b.GetConstants())}
+}
+
+func benchToPB(b domain.Bench) *pb.Bench {
+	return &pb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
+		Experiment: b.Experiment, Constants: quantitiesToPB(b.Constants)}
+}
+
+func readingToPB(r domain.Reading) *pb.Reading {
+	out := &pb.Reading{ReadingId: r.ID, Values: quantitiesToPB(r.Values), Sequence: r.Sequence}
+	if !r.ReceivedAt.IsZero() {
+		out.ReceivedAt = timestamppb.New(r.ReceivedAt)
+	}
+	return out
+}
+
+var verdictToPB = map[domain.Verdict]pb.Verdict{
+	domain.NeedData:   pb.Verdict_VERDICT_NEED_DATA,
+	domain.Consistent: pb.Verdict_VERDICT_CONSISTENT,
+	domain.Check:      pb.Verdict_VERDICT_CHECK,
+	domain.Off:        pb.Verdict_VERDICT_OFF,
+}
+
+func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
+	st := &pb.BenchState{
+		Bench:             benchToPB(b),
+		Verdict:           verdictToPB[a.Verdict],
+		VerdictLabel:      a.Verdict.Label(),
+		Reason:            a.Reason,
+		ReadingCount:      int32(a.ReadingCount),
+		Z:                 a.Z,
+		PercentDifference: a.PercentDiff,
+	}
+	if a.ResultUnit != "" {
+		st.Measured = &pb.Quantity{Value: a.Measured.Value, Uncertainty: a.Measured.Uncertainty, Unit: a.ResultUnit}
+		st.Predicted = &pb.Quantity{Value: a.Predicted.Value, Uncertainty: a.Predicted.Uncertainty, Unit: a.ResultUnit}
+	}
+	if !a.LastReadingAt.IsZero() {
+		st.LastReadingAt = timestamppb.New(a.LastReadingAt)
+	}
+	for _, d := range a.Diagnoses {
+		st.Diagnoses = append(st.Diagnoses, &pb.Diagnosis{Code: d.Code, Cause: d.Cause, Evidence: d.Evidence,
+			Action: d.Action, Alternatives: d.Alternatives})
+	}
+	return st
+}
+
+func fitToPB(a domain.Assessment) *pb.Fit {
+	f := a.Fit
+	if f == nil {
+		return nil
+	}
+	return &pb.Fit{Slope: f.Slope, SlopeUncertainty: f.SlopeSE, Intercept: f.Intercept,
+		InterceptUncertainty: f.InterceptSE, Points: int32(f.N), RSquared: f.RSquared,
+		SlopeUnit: a.ResultUnit, XName: a.FitX, YName: a.FitY}
+}
+
+// sortBenches orders benches by room position, front-left first.
+func sortBenches(bs []domain.Bench) {
+	sort.SliceStable(bs, func(i, j int) bool {
+		if bs[i].Row != bs[j].Row {
+			return bs[i].Row < bs[j].Row
+		}
+		return bs[i].Column < bs[j].Column
+	})
+}

@@ -1,0 +1,222 @@
+package server
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"log/slog"
+	"net"
+	"net/http"
+	"sync"
+	"time"
+
+	"connectrpc.com/vanguard"
+	"connectrpc.com/vanguard/vanguardgrpc"
+	"github.com/soheilhy/cmux"
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/health"
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/reflection"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+// Config holds what a Server needs. DB and Logger are required.
+type Config struct {
+	DB     *store.DB
+	Logger *slog.Logger
+	// Now is the clock; nil means time.Now.
+	Now func() time.Time
+	// Tolerance turns discrepancies into verdicts; zero means
+	// domain.DefaultTolerance.
+	Tolerance domain.Tolerance
+	// Web serves the dashboard for every path that is not an RPC; nil
+	// serves 404s.
+	Web http.Handler
+}
+
+// Server serves the fluxroom API on one listener.
+type Server struct {
+	db     *store.DB
+	log    *slog.Logger
+	now    func() time.Time
+	tol    domain.Tolerance
+	hub    *hub
+	grpc   *grpc.Server
+	http   *http.Server
+	health *health.Server
+
+	mu   sync.Mutex
+	mux  cmux.CMux
+	done chan struct{}
+}
+
+// New builds a Server; Serve starts it.
+func New(cfg Config) (*Server, error) {
+	if cfg.DB == nil || cfg.Logger == nil {
+		return nil, errors.New("server: Config needs DB and Logger")
+	}
+	s := &Server{db: cfg.DB, log: cfg.Logger, now: cfg.Now, tol: cfg.Tolerance, hub: newHub(), done: make(chan struct{})}
+	if s.now == nil {
+		s.now = time.Now
+	}
+	if s.tol == (domain.Tolerance{}) {
+		s.tol = domain.DefaultTolerance
+	}
+	s.grpc = grpc.NewServer(
+		grpc.ChainUnaryInterceptor(s.unaryErrors),
+		grpc.ChainStreamInterceptor(s.streamErrors),
+	)
+	rpcpb.RegisterStationServiceServer(s.grpc, stationService{s: s})
+	rpcpb.RegisterInstructorServiceServer(s.grpc, instructorService{s: s})
+	s.health = health.NewServer()
+	healthpb.RegisterHealthServer(s.grpc, s.health)
+	reflection.Register(s.grpc)
+	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName} {
+		s.health.SetServingStatus(name, healthpb.HealthCheckResponse_SERVING)
+	}
+
+	web := cfg.Web
+	if web == nil {
+		web = http.NotFoundHandler()
+	}
+	// The browser speaks gRPC-Web over HTTP/1.1; vanguard translates it to
+	// calls on the same grpc.Server. Native gRPC never takes this path.
+	tc, err := vanguardgrpc.NewTranscoder(s.grpc, vanguard.WithUnknownHandler(web))
+	if err != nil {
+		return nil, fmt.Errorf("server: gRPC-Web transcoder: %w", err)
+	}
+	var protocols http.Protocols
+	protocols.SetHTTP1(true)
+	protocols.SetUnencryptedHTTP2(true)
+	s.http = &http.Server{Handler: tc, Protocols: &protocols, ReadHeaderTimeout: 10 * time.Second,
+		ErrorLog: slog.NewLogLogger(cfg.Logger.Handler(), slog.LevelWarn)}
+	return s, nil
+}
+
+// Serve accepts connections on l until Shutdown. Native gRPC connections
+// (HTTP/2 with content-type application/grpc) go to grpc.Server.Serve, which
+// is about twice as fast as its ServeHTTP path; everything else goes to the
+// HTTP server (gRPC-Web, the dashboard).
+func (s *Server) Serve(l net.Listener) error {
+	m := cmux.New(l)
+	grpcL := m.MatchWithWriters(
+		cmux.HTTP2MatchHeaderFieldSendSettings("content-type", "application/grpc"),
+		cmux.HTTP2MatchHeaderFieldSendSettings("content-type", "application/grpc+proto"),
+	)
+	httpL := m.Match(cmux.Any())
+	s.mu.Lock()
+	s.mux = m
+	s.mu.Unlock()
+	errc := make(chan error, 2)
+	go func() { errc <- s.grpc.Serve(grpcL) }()
+	go func() { errc <- s.http.Serve(httpL) }()
+	err := m.Serve()
+	select {
+	case <-s.done:
+		return nil
+	default:
+	}
+	if err != nil && !errors.Is(err, net.ErrClosed) {
+		return fmt.Errorf("server: serve: %w", err)
+	}
+	return nil
+}
+
+// Shutdown ends open room streams (clients reconnect), lets unary calls in
+// flight finish until ctx ends, and closes the listener. It does not close
+// the DB.
+func (s *Server) Shutdown(ctx context.Context) error {
+	close(s.done)
+	s.health.Shutdown()
+	s.hub.close()
+	stopped := make(chan struct{})
+	go func() { s.grpc.GracefulStop(); close(stopped) }()
+	select {
+	case <-stopped:
+	case <-ctx.Done():
+		s.grpc.Stop()
+	}
+	err := s.http.Shutdown(ctx)
+	s.mu.Lock()
+	if s.mux != nil {
+		s.mux.Close()
+	}
+	s.mu.Unlock()
+	return err
+}
+
+func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
+	resp, err := handler(ctx, req)
+	return resp, toStatus(ctx, s.log, info.FullMethod, err)
+}
+
+func (s *Server) streamErrors(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {
+	return toStatus(ss.Context(), s.log, info.FullMethod, handler(srv, ss))
+}
+
+// bench loads a bench named by a request, as a field error when it is not
+// there.
+func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
+	if sessionID == 0 {
+		return domain.Bench{}, domain.Invalid("session_id", "is missing")
+	}
+	if benchID == 0 {
+		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
+	}
+	b, err := s.db.Bench(sessionID, benchID)
+	if errors.Is(err, store.ErrNotFound) {
+		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+	}
+	return b, err
+}
+
+// benchState reads a bench and its readings and judges them.
+func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.Assessment, []domain.Reading, error) {
+	if sessionID == 0 {
+		return nil, domain.Assessment{}, nil, domain.Invalid("session_id", "is missing")
+	}
+	b, rs, err := s.db.BenchReadings(sessionID, benchID)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Assessment{}, nil, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+	}
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
+	}
+	a := domain.Assess(b, rs, s.tol)
+	return stateToPB(b, a), a, rs, nil
+}
+
+// publishBench judges a bench after a change and sends its state to the
+// room's watchers, in the order the states were read.
+func (s *Server) publishBench(sessionID, benchID uint64) (*pb.BenchState, error) {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	defer mu.Unlock()
+	st, _, _, err := s.benchState(sessionID, benchID)
+	if err != nil {
+		return nil, err
+	}
+	s.hub.publish(sessionID, st)
+	return st, nil
+}
+
+func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
+	benches, err := s.db.Benches(sess.ID)
+	if err != nil {
+		return nil, err
+	}
+	sortBenches(benches)
+	snap := &pb.RoomSnapshot{Session: sessionToPB(sess)}
+	for _, b := range benches {
+		st, _, _, err := s.benchState(sess.ID, b.ID)
+		if err != nil {
+			return nil, err
+		}
+		snap.Benches = append(snap.Benches, st)
+	}
+	return snap, nil
+}

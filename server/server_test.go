@@ -1,0 +1,304 @@
+package server
+
+import (
+	"context"
+	"io"
+	"log/slog"
+	"math"
+	"net"
+	"path/filepath"
+	"testing"
+	"time"
+
+	"github.com/google/go-cmp/cmp"
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/credentials/insecure"
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/status"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+type rig struct {
+	db         *store.DB
+	station    rpcpb.StationServiceClient
+	instructor rpcpb.InstructorServiceClient
+	health     healthpb.HealthClient
+	addr       string
+}
+
+// startRig runs a real Server on a loopback port with a bbolt file in a temp
+// dir, and a native gRPC client connected to it.
+func startRig(t *testing.T) *rig {
+	t.Helper()
+	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	clock := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
+	srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
+		Now: func() time.Time { clock = clock.Add(time.Second); return clock }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	l, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	served := make(chan error, 1)
+	go func() { served <- srv.Serve(l) }()
+	conn, err := grpc.NewClient(l.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() {
+		conn.Close()
+		ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+		defer cancel()
+		srv.Shutdown(ctx)
+		if err := <-served; err != nil {
+			t.Errorf("Serve: %v", err)
+		}
+		if err := db.Check(); err != nil {
+			t.Error(err)
+		}
+		db.Close()
+	})
+	return &rig{db: db, station: rpcpb.NewStationServiceClient(conn), instructor: rpcpb.NewInstructorServiceClient(conn),
+		health: healthpb.NewHealthClient(conn), addr: l.Addr().String()}
+}
+
+func q(v float64, unit string) *pb.Quantity { return &pb.Quantity{Value: v, Unit: unit} }
+
+func forceBench(label string, row, col int32) *pb.Bench {
+	return &pb.Bench{Label: label, Row: row, Column: col, Experiment: "coil_force", Constants: map[string]*pb.Quantity{
+		"turns": q(100, "1"), "segment_length": q(4, "cm"), "gap_field": q(0.12, "T")}}
+}
+
+// setupRoom creates a session with two benches and returns it with them.
+func setupRoom(t *testing.T, r *rig) (*pb.Session, []*pb.Bench) {
+	t.Helper()
+	ctx := context.Background()
+	cs, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "PHY 112 · Thursday"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sb, err := r.instructor.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId,
+		Benches: []*pb.Bench{forceBench("A1", 0, 0), forceBench("A2", 0, 1)}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return cs.Session, sb.Benches
+}
+
+func submit(ctx context.Context, r *rig, sid, bid uint64, id string, current, force float64) (*pb.SubmitReadingResponse, error) {
+	return r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: id,
+		Values: map[string]*pb.Quantity{"current": q(current, "A"), "force": q(force, "N")}})
+}
+
+func TestJoinSubmitWatch(t *testing.T) {
+	r := startRig(t)
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	sess, benches := setupRoom(t, r)
+
+	join, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: "a2"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if join.Bench.BenchId != benches[1].BenchId {
+		t.Errorf("joined bench %d, want %d", join.Bench.BenchId, benches[1].BenchId)
+	}
+
+	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sess.SessionId})
+	if err != nil {
+		t.Fatal(err)
+	}
+	first, err := stream.Recv()
+	if err != nil {
+		t.Fatal(err)
+	}
+	snap := first.GetSnapshot()
+	if first.Sequence != 1 || snap == nil || len(snap.Benches) != 2 {
+		t.Fatalf("first event = %v, want a snapshot of 2 benches with sequence 1", first)
+	}
+	if got := snap.Benches[1].Verdict; got != pb.Verdict_VERDICT_NEED_DATA {
+		t.Errorf("snapshot verdict = %v, want NEED_DATA", got)
+	}
+
+	// A skipped zero: F = 0.48·I + 0.8 N.
+	var last *pb.SubmitReadingResponse
+	for i, I := range []float64{0, 1, 2, 3, 4} {
+		last, err = submit(ctx, r, sess.SessionId, join.Bench.BenchId, "r"+string(rune('a'+i)), I, 0.48*I+0.8+0.002*float64(i%2))
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	if got := last.State.Verdict; got != pb.Verdict_VERDICT_CHECK {
+		t.Errorf("verdict = %v (%s), want CHECK", got, last.State.Reason)
+	}
+	if len(last.State.Diagnoses) == 0 || last.State.Diagnoses[0].Code != "coil_force.sensor_not_zeroed" {
+		t.Errorf("diagnoses = %v, want coil_force.sensor_not_zeroed", last.State.Diagnoses)
+	}
+
+	// Five bench events follow the snapshot, numbered 2..6, the last one
+	// matching the reply.
+	var ev *pb.WatchRoomResponse
+	for want := uint64(2); want <= 6; want++ {
+		if ev, err = stream.Recv(); err != nil {
+			t.Fatal(err)
+		}
+		if ev.Sequence != want {
+			t.Errorf("event sequence = %d, want %d", ev.Sequence, want)
+		}
+	}
+	if got := ev.GetBench(); got.GetBench().GetBenchId() != join.Bench.BenchId || got.GetReason() != last.State.Reason {
+		t.Errorf("last event = %v, want bench %d with reason %q", got, join.Bench.BenchId, last.State.Reason)
+	}
+
+	// A retry of the same reading id stores nothing new.
+	again, err := submit(ctx, r, sess.SessionId, join.Bench.BenchId, "re", 9, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !again.Duplicate || again.State.ReadingCount != 5 {
+		t.Errorf("retry: duplicate = %v, readings = %d; want true, 5", again.Duplicate, again.State.ReadingCount)
+	}
+
+	detail, err := r.instructor.GetBenchDetail(ctx, &pb.GetBenchDetailRequest{SessionId: sess.SessionId, BenchId: join.Bench.BenchId})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(detail.Detail.Readings) != 5 || detail.Detail.Fit.GetPoints() != 5 {
+		t.Errorf("detail has %d readings, fit of %d points; want 5 and 5", len(detail.Detail.Readings), detail.Detail.Fit.GetPoints())
+	}
+	if math.Abs(detail.Detail.Fit.GetIntercept()-0.8) > 0.01 {
+		t.Errorf("fit intercept = %g N, want ≈ 0.8", detail.Detail.Fit.GetIntercept())
+	}
+
+	h, err := r.health.Check(ctx, &healthpb.HealthCheckRequest{})
+	if err != nil || h.Status != healthpb.HealthCheckResponse_SERVING {
+		t.Errorf("health = %v, %v; want SERVING", h, err)
+	}
+}
+
+// fieldOf returns the fields named by an InvalidArgument status.
+func fieldsOf(t *testing.T, err error) []string {
+	t.Helper()
+	st := status.Convert(err)
+	if st.Code() != codes.InvalidArgument {
+		t.Fatalf("code = %v (%v), want InvalidArgument", st.Code(), err)
+	}
+	var fields []string
+	for _, d := range st.Details() {
+		if br, ok := d.(*errdetails.BadRequest); ok {
+			for _, v := range br.FieldViolations {
+				fields = append(fields, v.Field)
+			}
+		}
+	}
+	return fields
+}
+
+func TestBadInputIsRejectedAndNotStored(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	sid, bid := sess.SessionId, benches[0].BenchId
+	values := func(edit func(map[string]*pb.Quantity)) map[string]*pb.Quantity {
+		m := map[string]*pb.Quantity{"current": q(1, "A"), "force": q(0.48, "N")}
+		edit(m)
+		return m
+	}
+	negTurns := forceBench("A3", 1, 0)
+	negTurns.Constants["turns"] = q(-10, "1")
+	for _, tc := range []struct {
+		name      string
+		call      func() error
+		wantField string
+	}{
+		{"NaN force", func() error {
+			_, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: "x1",
+				Values: values(func(m map[string]*pb.Quantity) { m["force"] = q(math.NaN(), "N") })})
+			return err
+		}, `values["force"].value`},
+		{"missing unit", func() error {
+			_, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: "x2",
+				Values: values(func(m map[string]*pb.Quantity) { m["current"] = &pb.Quantity{Value: 1} })})
+			return err
+		}, `values["current"].unit`},
+		{"unknown bench", func() error {
+			_, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: 4242, ReadingId: "x3",
+				Values: values(func(map[string]*pb.Quantity) {})})
+			return err
+		}, "bench_id"},
+		{"empty reading id", func() error {
+			_, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid,
+				Values: values(func(map[string]*pb.Quantity) {})})
+			return err
+		}, "reading_id"},
+		{"negative turn count", func() error {
+			_, err := r.instructor.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sid, Benches: []*pb.Bench{negTurns}})
+			return err
+		}, `benches[0].constants["turns"].value`},
+		{"duplicate label", func() error {
+			_, err := r.instructor.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sid, Benches: []*pb.Bench{forceBench("A1", 2, 2)}})
+			return err
+		}, "benches[0].label"},
+		{"wrong join code", func() error {
+			_, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: "NOPE99", BenchLabel: "A1"})
+			return err
+		}, "join_code"},
+		{"unknown bench label", func() error {
+			_, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: "Z9"})
+			return err
+		}, "bench_label"},
+		{"empty title", func() error {
+			_, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "  "})
+			return err
+		}, "title"},
+		{"unknown session to watch", func() error {
+			s, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: 77})
+			if err != nil {
+				return err
+			}
+			_, err = s.Recv()
+			return err
+		}, "session_id"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			fields := fieldsOf(t, tc.call())
+			if !contains(fields, tc.wantField) {
+				t.Errorf("violations name %v, want %s", fields, tc.wantField)
+			}
+		})
+	}
+	// Nothing was stored: no readings, the same two benches, one session.
+	for _, b := range benches {
+		_, rs, err := r.db.BenchReadings(sid, b.BenchId)
+		if err != nil || len(rs) != 0 {
+			t.Errorf("bench %s has %d readings (%v), want 0", b.Label, len(rs), err)
+		}
+	}
+	got, _ := r.db.Benches(sid)
+	if len(got) != 2 {
+		t.Errorf("session has %d benches, want 2", len(got))
+	}
+	ss, _ := r.db.Sessions()
+	if diff := cmp.Diff(len(ss), 1); diff != "" {
+		t.Errorf("sessions (-got +want): %s", diff)
+	}
+}
+
+func contains(xs []string, x string) bool {
+	for _, v := range xs {
+		if v == x {
+			return true
+		}
+	}
+	return false
+}

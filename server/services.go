@@ -1,0 +1,241 @@
+package server
+
+import (
+	"context"
+	"crypto/rand"
+	"errors"
+	"fmt"
+	"strings"
+	"unicode/utf8"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+type stationService struct {
+	rpcpb.UnimplementedStationServiceServer
+	s *Server
+}
+
+type instructorService struct {
+	rpcpb.UnimplementedInstructorServiceServer
+	s *Server
+}
+
+func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest) (*pb.JoinBenchResponse, error) {
+	code := strings.ToUpper(strings.TrimSpace(req.GetJoinCode()))
+	if code == "" {
+		return nil, domain.Invalid("join_code", "is missing; the instructor's screen shows it")
+	}
+	sess, err := st.s.db.SessionByJoinCode(code)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("join_code", "no session has join code %q; check it on the instructor's screen", code)
+	}
+	if err != nil {
+		return nil, err
+	}
+	benches, err := st.s.db.Benches(sess.ID)
+	if err != nil {
+		return nil, err
+	}
+	var labels []string
+	for _, b := range benches {
+		if strings.EqualFold(b.Label, strings.TrimSpace(req.GetBenchLabel())) {
+			return &pb.JoinBenchResponse{SessionId: sess.ID, Bench: benchToPB(b)}, nil
+		}
+		labels = append(labels, b.Label)
+	}
+	return nil, domain.Invalid("bench_label", "no bench %q in this session; benches are %s", req.GetBenchLabel(), strings.Join(labels, ", "))
+}
+
+func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadingRequest) (*pb.SubmitReadingResponse, error) {
+	if err := domain.ValidateReadingID("reading_id", req.GetReadingId()); err != nil {
+		return nil, err
+	}
+	bench, err := st.s.bench(req.GetSessionId(), req.GetBenchId())
+	if err != nil {
+		return nil, err
+	}
+	values := quantitiesFromPB(req.GetValues())
+	if err := domain.ValidateReading("values", bench, values); err != nil {
+		return nil, err
+	}
+	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now()}
+	stored, dup, err := st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
+	if err != nil {
+		return nil, err
+	}
+	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId())
+	if err != nil {
+		return nil, err
+	}
+	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), State: state, Duplicate: dup}, nil
+}
+
+func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
+	state, _, _, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
+	if err != nil {
+		return nil, err
+	}
+	return &pb.GetBenchStateResponse{State: state}, nil
+}
+
+// joinCodeAlphabet leaves out 0/O and 1/I/L, which are misread on a projector.
+const joinCodeAlphabet = "23456789ABCDEFGHJKMNPQRSTUVWXYZ"
+
+func newJoinCode() string {
+	b := make([]byte, 6)
+	rand.Read(b)
+	for i := range b {
+		b[i] = joinCodeAlphabet[int(b[i])%len(joinCodeAlphabet)]
+	}
+	return string(b)
+}
+
+func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSessionRequest) (*pb.CreateSessionResponse, error) {
+	title := strings.TrimSpace(req.GetTitle())
+	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) {
+		return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
+	}
+	for range 5 {
+		s, err := in.s.db.CreateSession(domain.Session{Title: title, JoinCode: newJoinCode(), CreatedAt: in.s.now()})
+		if errors.Is(err, store.ErrConflict) {
+			continue // a join code clash: draw another
+		}
+		if err != nil {
+			return nil, err
+		}
+		return &pb.CreateSessionResponse{Session: sessionToPB(s)}, nil
+	}
+	return nil, errors.New("server: no free join code after 5 draws")
+}
+
+func (in instructorService) ListSessions(ctx context.Context, req *pb.ListSessionsRequest) (*pb.ListSessionsResponse, error) {
+	ss, err := in.s.db.Sessions()
+	if err != nil {
+		return nil, err
+	}
+	out := &pb.ListSessionsResponse{}
+	for _, s := range ss {
+		out.Sessions = append(out.Sessions, sessionToPB(s))
+	}
+	return out, nil
+}
+
+func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRequest) (*pb.SetBenchesResponse, error) {
+	existing, err := in.s.db.Benches(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	var vs []domain.FieldViolation
+	add := func(err error) {
+		var ve *domain.ValidationError
+		if errors.As(err, &ve) {
+			vs = append(vs, ve.Violations...)
+		}
+	}
+	known := map[uint64]bool{}
+	final := map[uint64]string{} // bench id → label once the request applies
+	for _, b := range existing {
+		known[b.ID] = true
+		final[b.ID] = b.Label
+	}
+	labels := map[string]string{} // label → the request field that claims it
+	benches := make([]domain.Bench, 0, len(req.GetBenches()))
+	for i, pbb := range req.GetBenches() {
+		field := fmt.Sprintf("benches[%d]", i)
+		b, err := domain.ValidateBench(field, benchFromPB(pbb))
+		add(err)
+		if b.ID != 0 {
+			if !known[b.ID] {
+				vs = append(vs, domain.FieldViolation{Field: field + ".bench_id", Reason: fmt.Sprintf("no bench %d in session %d", b.ID, req.GetSessionId())})
+			}
+			final[b.ID] = b.Label
+		}
+		if other, dup := labels[b.Label]; dup {
+			vs = append(vs, domain.FieldViolation{Field: field + ".label", Reason: fmt.Sprintf("label %q is also used by %s", b.Label, other)})
+		}
+		labels[b.Label] = field
+		benches = append(benches, b)
+	}
+	for i, b := range benches {
+		for id, label := range final {
+			if label == b.Label && id != b.ID {
+				vs = append(vs, domain.FieldViolation{Field: fmt.Sprintf("benches[%d].label", i), Reason: fmt.Sprintf("label %q is already used by bench %d", label, id)})
+			}
+		}
+	}
+	if len(vs) > 0 {
+		return nil, &domain.ValidationError{Violations: vs}
+	}
+	all, err := in.s.db.PutBenches(req.GetSessionId(), benches)
+	if err != nil {
+		return nil, err
+	}
+	sortBenches(all)
+	out := &pb.SetBenchesResponse{}
+	for _, b := range all {
+		out.Benches = append(out.Benches, benchToPB(b))
+		if _, err := in.s.publishBench(req.GetSessionId(), b.ID); err != nil {
+			return nil, err
+		}
+	}
+	return out, nil
+}
+
+func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.InstructorService_WatchRoomServer) error {
+	s := in.s
+	id := req.GetSessionId()
+	sess, err := s.db.Session(id)
+	if errors.Is(err, store.ErrNotFound) {
+		return domain.Invalid("session_id", "no session %d", id)
+	}
+	if err != nil {
+		return err
+	}
+	// Subscribe before the snapshot so no change between the two is missed;
+	// a change already in the snapshot may arrive again, which is harmless.
+	w := s.hub.subscribe(id)
+	defer s.hub.unsubscribe(id, w)
+	snap, err := s.snapshot(sess)
+	if err != nil {
+		return err
+	}
+	seq := uint64(1)
+	if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: &pb.WatchRoomResponse_Snapshot{Snapshot: snap}}); err != nil {
+		return err
+	}
+	for {
+		select {
+		case <-stream.Context().Done():
+			return stream.Context().Err()
+		case <-w.gone:
+			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
+		case st := <-w.ch:
+			seq++
+			if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: &pb.WatchRoomResponse_Bench{Bench: st}}); err != nil {
+				return err
+			}
+		}
+	}
+}
+
+func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBenchDetailRequest) (*pb.GetBenchDetailResponse, error) {
+	state, a, rs, err := in.s.benchState(req.GetSessionId(), req.GetBenchId())
+	if err != nil {
+		return nil, err
+	}
+	d := &pb.BenchDetail{State: state, Fit: fitToPB(a)}
+	for _, r := range rs {
+		d.Readings = append(d.Readings, readingToPB(r))
+	}
+	return &pb.GetBenchDetailResponse{Detail: d}, nil
+}
