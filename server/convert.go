@@ -25,7 +25,6 @@ func quantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
 	return out
 }
 
-
 func sessionToPB(s domain.Session) *pb.Session {
 	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode}
 	if !s.CreatedAt.IsZero() {
