@@ -14,14 +14,16 @@ all: build
 wasm:
 	GOOS=js GOARCH=wasm $(GO) build -trimpath -ldflags='-s -w' -o $(WEB)/app.wasm ./wasmclient/app
 	gzip -9 -k -f $(WEB)/app.wasm
+	cp "$$($(GO) env GOROOT)/lib/wasm/wasm_exec.js" $(WEB)/wasm_exec.js
 
 build: wasm
 	$(GO) build -o $(BIN)/fluxroom ./cmd/fluxroom
 
-## test: every test, including the headless-browser one, and the import rules.
-test: wasm
+## test: every test, including the headless-browser one and the import rules
+## (internal/importcheck). Installs Chromium first when it can (.ci/ensure-chromium).
+test:
+	bash .ci/ensure-chromium
 	$(GO) vet ./...
-	$(GO) run ./internal/importcheck
 	$(GO) test -count=1 ./...
 
 test-short:

@@ -1,0 +1,297 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"math/rand/v2"
+	"path/filepath"
+	"sort"
+	"strings"
+	"sync"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/status"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+)
+
+// The demo class is invented: an invented polytechnic, room and course.
+const demoTitle = "Kestrel Vale Polytechnic · PHY 142 magnetism lab · room B-214"
+
+// demoBench is one simulated group: the constants the instructor set, and
+// what is really on the bench (which may differ: that is the group's mistake).
+type demoBench struct {
+	label    string
+	row, col int32
+	turns    float64
+	length   float64 // m, as set by the instructor
+	field    float64 // T, as set by the instructor
+	// trueScale multiplies the real slope relative to N·B·L as set: the
+	// magnet's real field and the segment's effective length.
+	trueScale float64
+	// offset is the force the sensor shows at zero current (not zeroed).
+	offset  float64
+	mistake string
+}
+
+func demoClass(rng *rand.Rand) []demoBench {
+	var out []demoBench
+	for row := int32(0); row < 3; row++ {
+		for col := int32(0); col < 4; col++ {
+			b := demoBench{
+				label: fmt.Sprintf("%c%d", 'A'+row, col+1), row: row, col: col,
+				turns: 100, length: 0.040,
+				// Each magnet was measured on its own: 0.110–0.130 T.
+				field: math.Round((0.110+0.020*rng.Float64())*1000) / 1000,
+				// The real field differs from the label by about 2 %,
+				// and fringing lengthens the segment by about 1 %.
+				trueScale: (1 + 0.02*rng.NormFloat64()) * 1.01,
+			}
+			if col%2 == 1 {
+				b.turns = 50
+			}
+			out = append(out, b)
+		}
+	}
+	// Seeded mistakes from the catalogue of common lab errors.
+	out[5].offset, out[5].mistake = 0.65, "force sensor not zeroed"             // B2
+	out[10].trueScale, out[10].mistake = 0.5, "shorter coil than the bench's L" // C3
+	out[3].trueScale, out[3].mistake = 0.91, "magnet weaker than its label"     // A4
+	return out
+}
+
+func (m *Main) demo(ctx context.Context, args []string) error {
+	fs := m.newFlags("demo")
+	dataDir := fs.String("data", "fluxroom-data", "directory for the demo's database (created)")
+	addr := fs.String("addr", "127.0.0.1:8080", "host:port to listen on")
+	pace := fs.Duration("pace", 2*time.Second, "mean time between one bench's readings")
+	every := fs.Duration("every", 5*time.Second, "how often to print the room")
+	duration := fs.Duration("duration", 0, "stop after this long (0: run until interrupted)")
+	seed := fs.Uint64("seed", 2026, "seed of the simulated class")
+	level := fs.String("log-level", "warn", "log level: debug, info, warn or error")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	log, err := m.logger(*level)
+	if err != nil {
+		return err
+	}
+	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log)
+	if err != nil {
+		return err
+	}
+	defer r.stop()
+	if *duration > 0 {
+		var cancel context.CancelFunc
+		ctx, cancel = context.WithTimeout(ctx, *duration)
+		defer cancel()
+	}
+
+	conn, err := grpc.NewClient(r.addr.String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	instructor := rpcpb.NewInstructorServiceClient(conn)
+	station := rpcpb.NewStationServiceClient(conn)
+
+	rng := rand.New(rand.NewPCG(*seed, 42))
+	class := demoClass(rng)
+	sess, err := setUpDemoRoom(ctx, instructor, class)
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(m.Stdout, "%s\njoin code %s · %d benches\ndashboard: http://%s/?session=%d\n", sess.Title, sess.JoinCode, len(class), r.addr, sess.SessionId)
+	fmt.Fprintln(m.Stdout, "Simulated groups with a seeded mistake:")
+	for _, b := range class {
+		if b.mistake != "" {
+			fmt.Fprintf(m.Stdout, "  %s  %s\n", b.label, b.mistake)
+		}
+	}
+	fmt.Fprintln(m.Stdout, "Press Ctrl-C to stop.")
+
+	var wg sync.WaitGroup
+	for i, b := range class {
+		wg.Add(1)
+		benchRNG := rand.New(rand.NewPCG(*seed, uint64(i)))
+		go func() {
+			defer wg.Done()
+			if err := simulateBench(ctx, station, sess.JoinCode, b, *pace, benchRNG); err != nil && ctx.Err() == nil {
+				log.Warn("simulated bench stopped", "bench", b.label, "err", err)
+			}
+		}()
+	}
+	watchErr := printRoom(ctx, m.Stdout, instructor, sess.SessionId, *every)
+	wg.Wait()
+	if ctx.Err() != nil {
+		return nil
+	}
+	return watchErr
+}
+
+func setUpDemoRoom(ctx context.Context, in rpcpb.InstructorServiceClient, class []demoBench) (*pb.Session, error) {
+	cs, err := in.CreateSession(ctx, &pb.CreateSessionRequest{Title: demoTitle})
+	if err != nil {
+		return nil, fmt.Errorf("create demo session: %w", err)
+	}
+	var benches []*pb.Bench
+	for _, b := range class {
+		benches = append(benches, &pb.Bench{Label: b.label, Row: b.row, Column: b.col, Experiment: "coil_force",
+			Constants: map[string]*pb.Quantity{
+				"turns":          {Value: b.turns, Unit: "1"},
+				"segment_length": {Value: b.length * 100, Unit: "cm"},
+				"gap_field":      {Value: b.field * 1000, Unit: "mT"},
+			}})
+	}
+	if _, err := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: benches}); err != nil {
+		return nil, fmt.Errorf("set demo benches: %w", err)
+	}
+	return cs.Session, nil
+}
+
+// simulateBench joins like a station laptop and submits a run of readings
+// from 0 to 5 A with realistic instrument noise: a force sensor with 1 mN
+// resolution and about 4 mN of scatter, an ammeter read to 0.01 A.
+func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code string, b demoBench, pace time.Duration, rng *rand.Rand) error {
+	if err := sleep(ctx, time.Duration(rng.Float64()*3*float64(pace))); err != nil {
+		return err
+	}
+	join, err := st.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: b.label})
+	if err != nil {
+		return err
+	}
+	slope := b.turns * b.field * b.length * b.trueScale
+	for i := 0; i <= 10; i++ {
+		I := 0.5 * float64(i)
+		shownI := math.Round((I+0.005*rng.NormFloat64())*100) / 100
+		F := math.Round((slope*I+b.offset+0.004*rng.NormFloat64())*1000) / 1000
+		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
+			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i),
+			Values: map[string]*pb.Quantity{
+				"current": {Value: shownI, Unit: "A"},
+				"force":   {Value: F, Unit: "N"},
+			}}
+		if err := submitWithRetry(ctx, st, req); err != nil {
+			return err
+		}
+		if err := sleep(ctx, time.Duration((0.6+0.8*rng.Float64())*float64(pace))); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// submitWithRetry resends a reading until the server answers; the reading id
+// makes a resend of an already stored reading a no-op.
+func submitWithRetry(ctx context.Context, st rpcpb.StationServiceClient, req *pb.SubmitReadingRequest) error {
+	for {
+		_, err := st.SubmitReading(ctx, req)
+		if status.Code(err) != codes.Unavailable {
+			return err
+		}
+		if err := sleep(ctx, 200*time.Millisecond); err != nil {
+			return err
+		}
+	}
+}
+
+func sleep(ctx context.Context, d time.Duration) error {
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-ctx.Done():
+		return ctx.Err()
+	case <-t.C:
+		return nil
+	}
+}
+
+// printRoom follows the room stream and prints one line per bench every
+// interval, so the demo is useful without a browser.
+func printRoom(ctx context.Context, w io.Writer, in rpcpb.InstructorServiceClient, sessionID uint64, every time.Duration) error {
+	// The stream ends when ctx does, but must not carry ctx's deadline to the
+	// server: a server-side timeout would end it as an error a moment early.
+	streamCtx, cancel := context.WithCancel(context.WithoutCancel(ctx))
+	defer cancel()
+	stop := context.AfterFunc(ctx, cancel)
+	defer stop()
+	stream, err := in.WatchRoom(streamCtx, &pb.WatchRoomRequest{SessionId: sessionID})
+	if err != nil {
+		return err
+	}
+	var mu sync.Mutex
+	states := map[uint64]*pb.BenchState{}
+	recvErr := make(chan error, 1)
+	go func() {
+		for {
+			ev, err := stream.Recv()
+			if err != nil {
+				recvErr <- err
+				return
+			}
+			mu.Lock()
+			if snap := ev.GetSnapshot(); snap != nil {
+				for _, b := range snap.Benches {
+					states[b.Bench.BenchId] = b
+				}
+			} else if b := ev.GetBench(); b != nil {
+				states[b.Bench.BenchId] = b
+			}
+			mu.Unlock()
+		}
+	}()
+	tick := time.NewTicker(every)
+	defer tick.Stop()
+	print := func(now time.Time) {
+		mu.Lock()
+		defer mu.Unlock()
+		fmt.Fprint(w, roomSummary(now, states))
+	}
+	for {
+		select {
+		case <-ctx.Done():
+			print(time.Now())
+			return nil
+		case err := <-recvErr:
+			if ctx.Err() != nil || errors.Is(err, io.EOF) {
+				print(time.Now())
+				return nil
+			}
+			return fmt.Errorf("room stream: %w", err)
+		case now := <-tick.C:
+			print(now)
+		}
+	}
+}
+
+// roomSummary is one line per bench, in room order.
+func roomSummary(now time.Time, states map[uint64]*pb.BenchState) string {
+	list := make([]*pb.BenchState, 0, len(states))
+	for _, s := range states {
+		list = append(list, s)
+	}
+	sort.Slice(list, func(i, j int) bool {
+		a, b := list[i].Bench, list[j].Bench
+		if a.Row != b.Row {
+			return a.Row < b.Row
+		}
+		return a.Column < b.Column
+	})
+	var sb strings.Builder
+	fmt.Fprintf(&sb, "\n— room at %s —\n", now.Format("15:04:05"))
+	for _, s := range list {
+		ago := "—"
+		if s.LastReadingAt != nil {
+			ago = fmt.Sprintf("%.0f s ago", now.Sub(s.LastReadingAt.AsTime()).Seconds())
+		}
+		fmt.Fprintf(&sb, "  %-4s %-10s %2d readings  %-9s %s\n", s.Bench.Label, s.VerdictLabel, s.ReadingCount, ago, s.Reason)
+	}
+	return sb.String()
+}

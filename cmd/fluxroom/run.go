@@ -1,0 +1,199 @@
+package main
+
+import (
+	"context"
+	"embed"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"io/fs"
+	"log/slog"
+	"net"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"example.com/fluxroom/server"
+	"example.com/fluxroom/store"
+	"example.com/fluxroom/wasmclient"
+)
+
+//go:embed web
+var embedded embed.FS
+
+// usageError is a mistake in the command line; main exits 2 for it.
+type usageError struct{ msg string }
+
+func (e usageError) Error() string { return e.msg }
+
+// Main is the program: main() only wires signals and exit codes to it, and
+// tests run it for real on :0 with a temp-dir database.
+type Main struct {
+	Stdout, Stderr io.Writer
+	// Web holds the built dashboard (app.wasm and friends). Default: the
+	// files embedded at build time.
+	Web fs.FS
+	// Ready, when set, receives the listening address once serving.
+	Ready chan<- net.Addr
+}
+
+// NewMain returns a Main writing to the given streams.
+func NewMain(stdout, stderr io.Writer) *Main {
+	web, _ := fs.Sub(embedded, "web")
+	return &Main{Stdout: stdout, Stderr: stderr, Web: web}
+}
+
+const helpText = `fluxroom: live oversight for magnetism teaching labs.
+
+Commands:
+  serve   run the server: native gRPC for stations, the dashboard for instructors
+  demo    run the server with a simulated class of benches, and print the room
+  help    show this text
+
+Run "fluxroom COMMAND -h" for a command's flags. Every flag can also be set
+by an environment variable: FLUXROOM_ and the flag name in capitals with _
+for -, for example FLUXROOM_ADDR.
+`
+
+// Run runs one command.
+func (m *Main) Run(ctx context.Context, args []string) error {
+	if len(args) == 0 {
+		fmt.Fprint(m.Stderr, helpText)
+		return usageError{"no command given"}
+	}
+	switch args[0] {
+	case "serve":
+		return m.serve(ctx, args[1:])
+	case "demo":
+		return m.demo(ctx, args[1:])
+	case "help", "-h", "--help":
+		fmt.Fprint(m.Stdout, helpText)
+		return nil
+	}
+	fmt.Fprint(m.Stderr, helpText)
+	return usageError{fmt.Sprintf("unknown command %q", args[0])}
+}
+
+// newFlags returns a flag set whose flags default to FLUXROOM_* variables.
+func (m *Main) newFlags(name string) *flag.FlagSet {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
+	fs.SetOutput(m.Stderr)
+	return fs
+}
+
+// parse parses args after applying FLUXROOM_* environment defaults.
+func parse(fs *flag.FlagSet, args []string) error {
+	var envErr error
+	fs.VisitAll(func(f *flag.Flag) {
+		key := "FLUXROOM_" + strings.ToUpper(strings.ReplaceAll(f.Name, "-", "_"))
+		if v, ok := os.LookupEnv(key); ok {
+			if err := f.Value.Set(v); err != nil && envErr == nil {
+				envErr = usageError{fmt.Sprintf("%s=%q: %v", key, v, err)}
+			}
+		}
+	})
+	if envErr != nil {
+		return envErr
+	}
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			return usageError{"help shown"}
+		}
+		return usageError{err.Error()}
+	}
+	if fs.NArg() > 0 {
+		return usageError{fmt.Sprintf("%s: unexpected argument %q", fs.Name(), fs.Arg(0))}
+	}
+	return nil
+}
+
+// running is a started server with its database.
+type running struct {
+	db   *store.DB
+	srv  *server.Server
+	addr net.Addr
+	done chan error
+	log  *slog.Logger
+}
+
+// start opens the database and serves on addr until ctx ends or stop runs.
+func (m *Main) start(dbPath, addr string, log *slog.Logger) (*running, error) {
+	if err := os.MkdirAll(filepath.Dir(dbPath), 0o750); err != nil {
+		return nil, fmt.Errorf("create data directory: %w", err)
+	}
+	db, err := store.Open(dbPath, store.Options{})
+	if err != nil {
+		return nil, err
+	}
+	web, err := wasmclient.Handler(m.Web)
+	if err != nil {
+		db.Close()
+		return nil, fmt.Errorf("dashboard: %w", err)
+	}
+	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web})
+	if err != nil {
+		db.Close()
+		return nil, err
+	}
+	l, err := net.Listen("tcp", addr)
+	if err != nil {
+		db.Close()
+		return nil, fmt.Errorf("listen on %s: %w", addr, err)
+	}
+	r := &running{db: db, srv: srv, addr: l.Addr(), done: make(chan error, 1), log: log}
+	go func() { r.done <- srv.Serve(l) }()
+	if m.Ready != nil {
+		m.Ready <- l.Addr()
+	}
+	return r, nil
+}
+
+// stop shuts the server down and closes the database.
+func (r *running) stop() error {
+	ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
+	defer cancel()
+	err := r.srv.Shutdown(ctx)
+	if serr := <-r.done; serr != nil && err == nil {
+		err = serr
+	}
+	if cerr := r.db.Close(); cerr != nil && err == nil {
+		err = cerr
+	}
+	return err
+}
+
+func (m *Main) logger(level string) (*slog.Logger, error) {
+	var l slog.Level
+	if err := l.UnmarshalText([]byte(level)); err != nil {
+		return nil, usageError{fmt.Sprintf("--log-level: %v", err)}
+	}
+	return slog.New(slog.NewTextHandler(m.Stderr, &slog.HandlerOptions{Level: l})), nil
+}
+
+func (m *Main) serve(ctx context.Context, args []string) error {
+	fs := m.newFlags("serve")
+	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "bbolt database file (created if missing)")
+	addr := fs.String("addr", "127.0.0.1:8080", "host:port to listen on, for gRPC and the dashboard")
+	level := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	log, err := m.logger(*level)
+	if err != nil {
+		return err
+	}
+	r, err := m.start(*dbPath, *addr, log)
+	if err != nil {
+		return err
+	}
+	log.Info("serving", "addr", r.addr.String(), "db", *dbPath, "dashboard", "http://"+r.addr.String()+"/")
+	select {
+	case <-ctx.Done():
+	case err := <-r.done:
+		r.done <- err
+	}
+	log.Info("shutting down")
+	return r.stop()
+}
