@@ -27,41 +27,73 @@ var CoilForce = &Experiment{
 			Min: 0, MinExclusive: true, Max: 1},
 		{Name: "current_resolution", Label: "ammeter resolution", Dim: Current, Unit: "A", Default: 0.01,
 			Min: 0, MinExclusive: true, Max: 1},
+		// Coil supplies for this set-up give up to about 5 A // common practice.
+		{Name: "max_current", Label: "coil current limit", Dim: Current, Unit: "A", Default: 5,
+			Min: 0, MinExclusive: true, Max: 50},
 	},
 	Values: []QuantitySpec{
-		// Bench supplies for this set-up give at most a few amperes; 50 A
-		// means a unit slip // common practice.
+		// 50 A means a unit slip on any coil supply // common practice.
 		{Name: "current", Label: "current I", Dim: Current, Unit: "A", Min: -50, Max: 50,
-			Hint: "far above any coil supply: was it typed in mA with unit A?"},
+			Hint:        "far above any coil supply: was it typed in mA with unit A?",
+			SafetyLimit: "max_current", Caution: "Coil current above its rating overheats the coil: turn the supply down and let the coil cool."},
 		{Name: "force", Label: "force F", Dim: Force, Unit: "N", Min: -100, Max: 100,
 			Hint: "far above what a coil segment feels: check the unit"},
+		// The group's own N·B·L, when they computed one: it lets the tool
+		// check their arithmetic against its own.
+		{Name: "reported_prediction", Label: "the group's own N·B·L", Dim: ForcePerCurrent, Unit: "N/A",
+			Min: math.NaN(), Max: math.NaN(), Optional: true},
 	},
 	assess: assessCoilForce,
 }
 
 func init() { register(CoilForce) }
 
+// Diagnosis codes of the force experiment. Append-only.
+var (
+	CodeSensorNotZeroed = entry(CatalogueEntry{Code: "coil_force.sensor_not_zeroed", Level: Shape,
+		Cause:  "the force sensor was not zeroed before the run",
+		Action: "re-zero the force sensor with no current and retake the 0 A point"})
+	CodeLengthDoubled = entry(CatalogueEntry{Code: "coil_force.length_doubled", Level: Raw, Factor: 0.5,
+		Cause:  "L counts both horizontal segments of the coil, but only one sits in the gap",
+		Action: "use the length of the one segment inside the gap", Lookalikes: []string{"coil_force.turns_mismatch"}})
+	CodeTurnsMismatch = entry(CatalogueEntry{Code: "coil_force.turns_mismatch", Level: Raw, Factor: 0.5,
+		Cause:  "the coil on the bench has a different number of turns than the bench constant (e.g. 50 vs 100)",
+		Action: "read the turns printed on the coil and correct the bench constant", Lookalikes: []string{"coil_force.length_doubled"}})
+	CodeFieldProbeTilted = entry(CatalogueEntry{Code: "coil_force.field_probe_tilted", Level: Raw,
+		Cause:  "the gap field B was measured with the probe tilted, so B and N·B·L are low (ρ = 1/cos θ)",
+		Action: "re-measure B with the probe flat across the gap, turned for the largest reading"})
+	CodeNonlinear = entry(CatalogueEntry{Code: "coil_force.nonlinear", Level: Shape,
+		Cause:  "force is not proportional to current: the coil sits partly out of the gap, or the magnet shifted",
+		Action: "centre the segment in the gap, fix the magnet and retake"})
+	CodeTurnsLeftOut = entry(CatalogueEntry{Code: "coil_force.turns_left_out", Level: Recomputation,
+		Cause:  "the group's own N·B·L leaves out the number of turns N",
+		Action: "multiply by the number of turns"})
+	CodeBothSegments = entry(CatalogueEntry{Code: "coil_force.both_segments", Level: Recomputation, Factor: 2,
+		Cause:  "the group's own N·B·L counts both horizontal segments",
+		Action: "only the segment inside the gap feels the field: use one length"})
+)
+
 // Thresholds for the sensor-not-zeroed diagnosis: an intercept beyond three
-// standard errors and above 0.05 N, a tenth of the smallest offset a skipped
+// standard errors and above 0.05 N, a fourth of the smallest offset a skipped
 // zero typically leaves (0.2–3 N) // common practice (PHYSICS.md §3a).
 const (
 	zeroInterceptSigmas = 3.0
 	zeroInterceptMin    = 0.05 // N
 )
 
-func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) Assessment {
+func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
 	x := make([]float64, len(rs))
 	y := make([]float64, len(rs))
 	for i, r := range rs {
-		x[i] = r.values["current"].Value
-		y[i] = r.values["force"].Value
+		x[i] = r.v("current")
+		y[i] = r.v("force")
 	}
 	fit, err := FitLine(x, y)
 	if errors.Is(err, ErrNoSpread) {
-		return Assessment{Verdict: NeedData, Reason: "every reading is at the same current: take readings across the range"}
+		return Assessment{Verdict: NeedData, Reason: "every reading is at the same current: take readings across the range"}, nil
 	}
 	if err != nil {
-		return Assessment{Verdict: NeedData, Reason: err.Error()}
+		return Assessment{Verdict: NeedData, Reason: err.Error()}, nil
 	}
 
 	// With few points the residual scatter can be small by chance; the
@@ -82,25 +114,61 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) As
 
 	z, pct, v := combine(slope, predicted, tol)
 	a := Assessment{
-		Verdict: v, Measured: slope, Predicted: predicted, ResultUnit: "N/A",
+		Verdict: v, Measured: slope, Predicted: predicted, ResultUnit: "N/A", ResultName: "slope",
 		Z: z, PercentDiff: pct, Fit: &fit, FitX: "current", FitY: "force",
+		Budget: budget(
+			BudgetItem{Input: "slope fit", RelU: slope.RelUncertainty()},
+			BudgetItem{Input: "gap field B", RelU: B.RelUncertainty()},
+			BudgetItem{Input: "segment length L", RelU: L.RelUncertainty()},
+		),
 	}
 	a.Reason = fmt.Sprintf("slope %s vs %s predicted (%+.1f %%, z = %+.1f)",
 		FormatMeasurement(slope.Value, slope.Uncertainty, "N/A"),
 		FormatMeasurement(predicted.Value, predicted.Uncertainty, ""), pct, z)
 
-	if v == Consistent && math.Abs(intercept.Value) > zeroInterceptSigmas*intercept.Uncertainty &&
-		math.Abs(intercept.Value) > zeroInterceptMin {
-		a.Verdict = Check
-		a.Diagnoses = append(a.Diagnoses, Diagnosis{
-			Code:  CodeSensorNotZeroed,
-			Cause: "the force sensor was probably not zeroed before the run",
-			Evidence: fmt.Sprintf("intercept %s, expected 0; the slope agrees (z = %+.1f)",
-				FormatMeasurement(intercept.Value, intercept.Uncertainty, "N"), z),
-			Action: "re-zero the force sensor with no current and retake the 0 A point",
-		})
-		a.Reason = fmt.Sprintf("intercept %s, expected ≈ 0: sensor not zeroed? %s",
-			FormatMeasurement(intercept.Value, intercept.Uncertainty, "N"), a.Reason)
+	var fs findings
+	rho := slope.Value / pred
+	uRel := math.Hypot(slope.RelUncertainty(), predicted.RelUncertainty())
+	if v != Consistent {
+		fs.matchFactor(rho, uRel, "slope/N·B·L", CodeSignReversed, CodeLengthDoubled, CodeTurnsMismatch)
+		fs.matchDecade(rho, uRel, "slope/N·B·L")
+		if rho > 1.03 && rho < 1.5 {
+			theta := math.Acos(1/rho) * 180 / math.Pi
+			fs.add(CodeFieldProbeTilted, fmt.Sprintf("slope/N·B·L = %.3f, as a probe tilted by about %.0f° would give", rho, theta), 0.6, true)
+		}
 	}
-	return a
+	if math.Abs(intercept.Value) > zeroInterceptSigmas*intercept.Uncertainty && math.Abs(intercept.Value) > zeroInterceptMin {
+		fs.add(CodeSensorNotZeroed, fmt.Sprintf("intercept %s, expected 0; slope/N·B·L = %.3f",
+			FormatMeasurement(intercept.Value, intercept.Uncertainty, "N"), rho), 0.95, true)
+	}
+	if len(x) >= 5 {
+		if q, err := FitPoly(x, y, 2); err == nil && q.SE[2] > 0 {
+			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > 4 && q.ResidualSD < 0.5*fit.ResidualSD {
+				fs.add(CodeNonlinear, fmt.Sprintf("a curvature term of %.3g N/A² is %.0f standard errors from zero", q.Coef[2], math.Abs(t)), 0.8, true)
+			}
+		}
+	}
+	lineShape(&fs, x, y, fit, uy, "force", "N")
+	reportedPrediction(&fs, rs, pred, N.Value)
+	return a, fs
+}
+
+// reportedPrediction compares the group's own N·B·L with the tool's.
+func reportedPrediction(fs *findings, rs []siReading, pred, turns float64) {
+	var ratios []float64
+	for _, r := range rs {
+		if r.has("reported_prediction") && pred != 0 {
+			ratios = append(ratios, r.v("reported_prediction")/pred)
+		}
+	}
+	if len(ratios) == 0 {
+		return
+	}
+	rho := median(ratios)
+	what := "the group's N·B·L / the tool's"
+	fs.matchFactor(rho, 0.02, what, CodeBothSegments, CodeSignReversed)
+	fs.matchDecade(rho, 0.02, what)
+	if turns > 1 && math.Abs(math.Log(rho*turns)) < 0.03 {
+		fs.add(CodeTurnsLeftOut, fmt.Sprintf("%s = %.4g ≈ 1/N with N = %g", what, rho, turns), 1, true)
+	}
 }

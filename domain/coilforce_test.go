@@ -66,8 +66,8 @@ func TestCoilForceVerdicts(t *testing.T) {
 	}{
 		{name: "clean", scale: 1, want: Consistent},
 		{name: "sensor not zeroed", scale: 1, offset: 0.8, want: Check, wantCode: CodeSensorNotZeroed},
-		{name: "segment half as long as set", scale: 0.5, want: Off},
-		{name: "slightly off", scale: 1.08, want: Check},
+		{name: "segment half as long as set", scale: 0.5, want: Off, wantCode: CodeLengthDoubled},
+		{name: "slightly off", scale: 1.08, want: Check, wantCode: CodeFieldProbeTilted},
 		{name: "two readings", scale: 1, readings: 2, want: NeedData},
 	} {
 		t.Run(tc.name, func(t *testing.T) {

@@ -61,6 +61,13 @@ type QuantitySpec struct {
 	Integer bool
 	// Hint explains Max to the person who typed past it.
 	Hint string
+	// Optional values may be left out of a reading.
+	Optional bool
+	// SafetyLimit names the bench constant that caps this value; a reading
+	// above it makes the bench unsafe at once.
+	SafetyLimit string
+	// Caution is shown with an unsafe reading of this value.
+	Caution string
 }
 
 // Experiment is one kind of bench work: what the instructor sets, what the
@@ -72,7 +79,7 @@ type Experiment struct {
 	Values    []QuantitySpec
 	// MinReadings is how many readings the first verdict needs.
 	MinReadings int
-	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance) Assessment
+	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings)
 }
 
 // siReading is a reading converted to SI.
@@ -80,6 +87,12 @@ type siReading struct {
 	values map[string]Measurement
 	at     time.Time
 }
+
+// has reports whether the reading carries the optional value name.
+func (r siReading) has(name string) bool { _, ok := r.values[name]; return ok }
+
+// v is the SI value of name.
+func (r siReading) v(name string) float64 { return r.values[name].Value }
 
 var experiments = map[string]*Experiment{}
 
@@ -166,6 +179,10 @@ func siUnit(d Dimension) string {
 		return "T/A"
 	case TurnDensity:
 		return "1/m"
+	case ForcePerCurrent:
+		return "N/A"
+	case ChargeToMassRatio:
+		return "C/kg"
 	}
 	return ""
 }
@@ -248,7 +265,9 @@ func (e *Experiment) convertReading(prefix string, values map[string]Quantity) (
 		field := fmt.Sprintf("%s[%q]", prefix, s.Name)
 		q, ok := values[s.Name]
 		if !ok {
-			vs.add(field, "is missing: %s needs %s", e.Title, s.Label)
+			if !s.Optional {
+				vs.add(field, "is missing: %s needs %s", e.Title, s.Label)
+			}
 			continue
 		}
 		if m, ok := s.check(field, q, &vs); ok {

@@ -114,3 +114,247 @@ func mean(v []float64) float64 {
 	}
 	return s / float64(len(v))
 }
+
+// Poly is a least-squares polynomial y = Σ Coef[k]·x^k with standard errors.
+type Poly struct {
+	Coef, SE   []float64
+	ResidualSD float64
+	RSquared   float64
+	N          int
+}
+
+// FitPoly fits a polynomial of the given degree by Householder QR on
+// columns of x scaled to [-1, 1], which keeps NIST StRD Pontius (x up to 3e6,
+// x² up to 1e13) accurate to about 1e-10.
+func FitPoly(x, y []float64, degree int) (Poly, error) {
+	n, p := len(x), degree+1
+	if n != len(y) {
+		return Poly{}, errors.New("domain: x and y differ in length")
+	}
+	if n <= p {
+		return Poly{}, ErrTooFewPoints
+	}
+	var scale float64
+	for _, v := range x {
+		scale = math.Max(scale, math.Abs(v))
+	}
+	if scale == 0 {
+		return Poly{}, ErrNoSpread
+	}
+	// a is n×p, column-major: a[j][i] = (x_i/scale)^j.
+	a := make([][]float64, p)
+	for j := range a {
+		a[j] = make([]float64, n)
+		for i := range x {
+			a[j][i] = math.Pow(x[i]/scale, float64(j))
+		}
+	}
+	b := append([]float64(nil), y...)
+	r := make([][]float64, p) // upper triangle, r[i][j] for j ≥ i
+	for i := range r {
+		r[i] = make([]float64, p)
+	}
+	for k := 0; k < p; k++ {
+		var norm float64
+		for i := k; i < n; i++ {
+			norm += a[k][i] * a[k][i]
+		}
+		norm = math.Sqrt(norm)
+		if norm == 0 {
+			return Poly{}, ErrNoSpread
+		}
+		if a[k][k] > 0 {
+			norm = -norm
+		}
+		// Householder vector v = a_k - norm·e_k, stored in a[k][k:].
+		a[k][k] -= norm
+		vv := 0.0
+		for i := k; i < n; i++ {
+			vv += a[k][i] * a[k][i]
+		}
+		reflect := func(col []float64) {
+			var dot float64
+			for i := k; i < n; i++ {
+				dot += a[k][i] * col[i]
+			}
+			f := 2 * dot / vv
+			for i := k; i < n; i++ {
+				col[i] -= f * a[k][i]
+			}
+		}
+		for j := k + 1; j < p; j++ {
+			reflect(a[j])
+		}
+		reflect(b)
+		r[k][k] = norm
+		for j := k + 1; j < p; j++ {
+			r[k][j] = a[j][k]
+		}
+	}
+	if math.Abs(r[p-1][p-1]) < 1e-12*math.Abs(r[0][0]) {
+		return Poly{}, ErrNoSpread
+	}
+	// Back-substitute R·c = Qᵀy for the scaled coefficients.
+	c := make([]float64, p)
+	for i := p - 1; i >= 0; i-- {
+		s := b[i]
+		for j := i + 1; j < p; j++ {
+			s -= r[i][j] * c[j]
+		}
+		c[i] = s / r[i][i]
+	}
+	var ssr float64
+	for i := p; i < n; i++ {
+		ssr += b[i] * b[i]
+	}
+	// (RᵀR)⁻¹ = R⁻¹R⁻ᵀ; invert the triangle.
+	rinv := make([][]float64, p)
+	for i := range rinv {
+		rinv[i] = make([]float64, p)
+	}
+	for i := p - 1; i >= 0; i-- {
+		rinv[i][i] = 1 / r[i][i]
+		for j := i + 1; j < p; j++ {
+			var s float64
+			for k := i + 1; k <= j; k++ {
+				s += r[i][k] * rinv[k][j]
+			}
+			rinv[i][j] = -s / r[i][i]
+		}
+	}
+	s2 := ssr / float64(n-p)
+	out := Poly{Coef: make([]float64, p), SE: make([]float64, p), N: n, ResidualSD: math.Sqrt(s2)}
+	for j := 0; j < p; j++ {
+		var v float64
+		for k := j; k < p; k++ {
+			v += rinv[j][k] * rinv[j][k]
+		}
+		f := math.Pow(scale, float64(j))
+		out.Coef[j] = c[j] / f
+		out.SE[j] = math.Sqrt(s2*v) / f
+	}
+	my := mean(y)
+	var sst float64
+	for _, v := range y {
+		sst += (v - my) * (v - my)
+	}
+	if sst > 0 {
+		out.RSquared = 1 - ssr/sst
+	}
+	return out, nil
+}
+
+// FitRatio fits y = ρ·x through the origin with weights 1/u², the form every
+// field experiment takes (measured field against the theory value). When the
+// scatter exceeds what the uncertainties allow (χ²/ν > 1), the standard error
+// is scaled up by √(χ²/ν); it is never scaled down.
+func FitRatio(x, y, u []float64) (rho, se, chi2nu float64, err error) {
+	if len(x) != len(y) || len(x) != len(u) {
+		return 0, 0, 0, errors.New("domain: x, y and u differ in length")
+	}
+	if len(x) == 0 {
+		return 0, 0, 0, ErrTooFewPoints
+	}
+	var sxx, sxy float64
+	for i := range x {
+		if !(u[i] > 0) {
+			return 0, 0, 0, errors.New("domain: every point needs an uncertainty > 0")
+		}
+		w := 1 / (u[i] * u[i])
+		sxx += w * x[i] * x[i]
+		sxy += w * x[i] * y[i]
+	}
+	if sxx == 0 {
+		return 0, 0, 0, ErrNoSpread
+	}
+	rho = sxy / sxx
+	se = math.Sqrt(1 / sxx)
+	if len(x) > 1 {
+		var chi2 float64
+		for i := range x {
+			r := (y[i] - rho*x[i]) / u[i]
+			chi2 += r * r
+		}
+		chi2nu = chi2 / float64(len(x)-1)
+		if chi2nu > 1 {
+			se *= math.Sqrt(chi2nu)
+		}
+	}
+	return rho, se, chi2nu, nil
+}
+
+// TrendT is the t statistic of the slope of y against x: how many standard
+// errors the trend is from zero. Zero when it cannot be computed.
+func TrendT(x, y []float64) float64 {
+	f, err := FitLine(x, y)
+	if err != nil || f.SlopeSE == 0 {
+		return 0
+	}
+	return f.Slope / f.SlopeSE
+}
+
+// FitModel fits y = Σ coef[j]·cols[j] by least squares (normal equations
+// with partial pivoting: enough for the two or three well-separated columns
+// the shape checks use) and returns the coefficients and standard errors.
+func FitModel(cols [][]float64, y []float64) (coef, se []float64, err error) {
+	p, n := len(cols), len(y)
+	if n <= p {
+		return nil, nil, ErrTooFewPoints
+	}
+	a := make([][]float64, p)
+	for i := range a {
+		a[i] = make([]float64, 2*p+1)
+		for j := 0; j < p; j++ {
+			for k := 0; k < n; k++ {
+				a[i][j] += cols[i][k] * cols[j][k]
+			}
+		}
+		a[i][p+i] = 1
+		for k := 0; k < n; k++ {
+			a[i][2*p] += cols[i][k] * y[k]
+		}
+	}
+	// Gauss–Jordan on [XᵀX | I | Xᵀy] gives (XᵀX)⁻¹ and the solution.
+	for c := 0; c < p; c++ {
+		piv := c
+		for r := c + 1; r < p; r++ {
+			if math.Abs(a[r][c]) > math.Abs(a[piv][c]) {
+				piv = r
+			}
+		}
+		if math.Abs(a[piv][c]) < 1e-300 {
+			return nil, nil, ErrNoSpread
+		}
+		a[c], a[piv] = a[piv], a[c]
+		f := a[c][c]
+		for j := range a[c] {
+			a[c][j] /= f
+		}
+		for r := 0; r < p; r++ {
+			if r != c && a[r][c] != 0 {
+				g := a[r][c]
+				for j := range a[r] {
+					a[r][j] -= g * a[c][j]
+				}
+			}
+		}
+	}
+	coef = make([]float64, p)
+	for i := range coef {
+		coef[i] = a[i][2*p]
+	}
+	var ssr float64
+	for k := 0; k < n; k++ {
+		r := y[k]
+		for j := 0; j < p; j++ {
+			r -= coef[j] * cols[j][k]
+		}
+		ssr += r * r
+	}
+	s2 := ssr / float64(n-p)
+	se = make([]float64, p)
+	for i := range se {
+		se[i] = math.Sqrt(s2 * a[i][p+i])
+	}
+	return coef, se, nil
+}

@@ -144,3 +144,70 @@ func TestFitErrors(t *testing.T) {
 		})
 	}
 }
+
+// TestFitPolyPontius checks the quadratic fit against NIST StRD Pontius, a
+// load-cell calibration [pub: NIST ITL StRD Pontius], to 1e-9 relative, and
+// that the curvature term is found significant.
+func TestFitPolyPontius(t *testing.T) {
+	d := readStRD(t, "Pontius.dat")
+	p, err := FitPoly(d.x, d.y, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k, name := range []string{"B0", "B1", "B2"} {
+		if e := relErr(p.Coef[k], d.estimate[name]); e > 1e-9 {
+			t.Errorf("%s = %.15g, certified %.15g (rel err %.2g)", name, p.Coef[k], d.estimate[name], e)
+		}
+		if e := relErr(p.SE[k], d.sd[name]); e > 1e-9 {
+			t.Errorf("sd(%s) = %.15g, certified %.15g (rel err %.2g)", name, p.SE[k], d.sd[name], e)
+		}
+	}
+	if e := relErr(p.ResidualSD, d.residualSD); e > 1e-9 {
+		t.Errorf("residual SD = %.15g, certified %.15g", p.ResidualSD, d.residualSD)
+	}
+	if e := relErr(p.RSquared, d.rSquared); e > 1e-9 {
+		t.Errorf("R² = %.15g, certified %.15g", p.RSquared, d.rSquared)
+	}
+	if tq := math.Abs(p.Coef[2] / p.SE[2]); tq < 3 {
+		t.Errorf("curvature t = %.1f, want it significant (Pontius is curved)", tq)
+	}
+	// The straight line through Norris has no significant curvature.
+	n := readStRD(t, "Norris.dat")
+	q, err := FitPoly(n.x, n.y, 2)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tq := math.Abs(q.Coef[2] / q.SE[2]); tq > 3 {
+		t.Errorf("Norris curvature t = %.1f, want < 3", tq)
+	}
+	// FitPoly of degree 1 agrees with FitLine on Norris to 1e-9.
+	l, err := FitPoly(n.x, n.y, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if relErr(l.Coef[1], n.estimate["B1"]) > 1e-9 || relErr(l.SE[1], n.sd["B1"]) > 1e-9 {
+		t.Errorf("FitPoly(1) on Norris = %v ± %v", l.Coef, l.SE)
+	}
+}
+
+func TestFitRatio(t *testing.T) {
+	// NoInt1 through FitRatio with equal weights gives the certified slope
+	// [pub: NIST ITL StRD NoInt1].
+	d := readStRD(t, "NoInt1.dat")
+	u := make([]float64, len(d.x))
+	for i := range u {
+		u[i] = 1
+	}
+	rho, _, _, err := FitRatio(d.x, d.y, u)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if relErr(rho, d.estimate["B1"]) > 1e-12 {
+		t.Errorf("ρ = %.15g, certified %.15g", rho, d.estimate["B1"])
+	}
+	// Weights: a point with a huge uncertainty barely counts [derived].
+	rho, _, _, _ = FitRatio([]float64{1, 2, 3}, []float64{1, 2, 30}, []float64{0.01, 0.01, 1e6})
+	if math.Abs(rho-1) > 1e-6 {
+		t.Errorf("weighted ρ = %g, want 1", rho)
+	}
+}

@@ -42,18 +42,22 @@ const (
 	Mass
 	CoilConstant // T/A
 	TurnDensity  // 1/m
+	ForcePerCurrent
+	ChargeToMassRatio
 )
 
 var dimensionNames = map[Dimension]string{
-	Dimensionless: "a count",
-	Length:        "a length",
-	Current:       "a current",
-	Force:         "a force",
-	MagneticField: "a magnetic field",
-	Voltage:       "a voltage",
-	Mass:          "a mass",
-	CoilConstant:  "a coil constant",
-	TurnDensity:   "a turn density",
+	Dimensionless:     "a count",
+	Length:            "a length",
+	Current:           "a current",
+	Force:             "a force",
+	MagneticField:     "a magnetic field",
+	Voltage:           "a voltage",
+	Mass:              "a mass",
+	CoilConstant:      "a coil constant",
+	TurnDensity:       "a turn density",
+	ForcePerCurrent:   "a force per current",
+	ChargeToMassRatio: "a charge-to-mass ratio",
 }
 
 func (d Dimension) String() string { return dimensionNames[d] }
@@ -75,7 +79,9 @@ var units = map[string]struct {
 	"V": {Voltage, 1}, "kV": {Voltage, 1e3}, "mV": {Voltage, 1e-3},
 	"kg": {Mass, 1}, "g": {Mass, 1e-3},
 	"T/A": {CoilConstant, 1}, "mT/A": {CoilConstant, 1e-3},
-	"1/m": {TurnDensity, 1}, "1/cm": {TurnDensity, 1e2}, "turns/m": {TurnDensity, 1}, "turns/cm": {TurnDensity, 1e2},
+	"N/A": {ForcePerCurrent, 1}, "mN/A": {ForcePerCurrent, 1e-3},
+	"C/kg": {ChargeToMassRatio, 1},
+	"1/m":  {TurnDensity, 1}, "1/cm": {TurnDensity, 1e2}, "turns/m": {TurnDensity, 1}, "turns/cm": {TurnDensity, 1e2},
 }
 
 // normalizeUnit folds the spellings people type for the same symbol.

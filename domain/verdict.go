@@ -3,6 +3,8 @@ package domain
 import (
 	"fmt"
 	"math"
+	"sort"
+	"strings"
 	"time"
 )
 
@@ -16,6 +18,11 @@ const (
 	Consistent
 	Check
 	Off
+	// Unsafe: a reading exceeded a safety limit of the bench.
+	Unsafe
+	// Stalled: no new reading for a while although the room moves on. Set
+	// by the room view, never by Assess.
+	Stalled
 )
 
 // Label is the verdict in the words the dashboard and exports use.
@@ -29,6 +36,10 @@ func (v Verdict) Label() string {
 		return "check"
 	case Off:
 		return "off"
+	case Unsafe:
+		return "unsafe"
+	case Stalled:
+		return "stalled"
 	}
 	return "unknown"
 }
@@ -72,11 +83,6 @@ type Diagnosis struct {
 	Alternatives []string
 }
 
-// Diagnosis codes. Append-only: never rename or reuse one.
-const (
-	CodeSensorNotZeroed = "coil_force.sensor_not_zeroed"
-)
-
 // Assessment is the judged state of one bench.
 type Assessment struct {
 	Verdict   Verdict
@@ -90,6 +96,12 @@ type Assessment struct {
 	Z float64
 	// PercentDiff is 100·(measured/predicted - 1).
 	PercentDiff float64
+	// ResultName says what Measured is: "slope", "e/m", "B/B_theory".
+	ResultName string
+	// Budget says which inputs dominate the combined uncertainty.
+	Budget []BudgetItem
+	// Caution is the safety text for an unsafe bench.
+	Caution string
 	// Fit is the line fitted to the readings, when there is one.
 	Fit *Fit
 	// FitX and FitY name the fitted values; their units are SI.
@@ -127,12 +139,90 @@ func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
 	if len(rs) < e.MinReadings {
 		a = Assessment{Verdict: NeedData, Reason: fmt.Sprintf("%d of %d readings needed for a first verdict", len(rs), e.MinReadings)}
 	} else {
-		a = e.assess(c, rs, tol)
+		var fs findings
+		a, fs = e.assess(c, rs, tol)
+		ds, raise := fs.ranked()
+		a.Diagnoses = ds
+		if raise && a.Verdict == Consistent {
+			a.Verdict = Check
+		}
+		if len(ds) > 0 && a.Verdict != NeedData {
+			a.Reason = "likely " + ds[0].Cause + " (" + ds[0].Evidence + ")" + alsoPossible(ds[0]) + ". " + a.Reason
+		}
 	}
 	a.ReadingCount = len(rs)
 	a.LastReadingAt = last
 	a.ExperimentTitle = e.Title
+	if reason, caution, unsafe := e.safety(c, rs); unsafe {
+		a.Verdict, a.Caution = Unsafe, caution
+		a.Reason = reason + " " + a.Reason
+	}
 	return a
+}
+
+// alsoPossible names a diagnosis' alternatives, so a close call is never a
+// silent pick.
+func alsoPossible(d Diagnosis) string {
+	if len(d.Alternatives) == 0 {
+		return ""
+	}
+	return " (also possible: " + strings.Join(d.Alternatives, ", ") + ")"
+}
+
+// safety checks every reading against the bench's limits. The first breach
+// found in each value is reported; any breach makes the bench unsafe,
+// whatever the data say.
+func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, caution string, unsafe bool) {
+	var reasons, cautions []string
+	for _, s := range e.Values {
+		if s.SafetyLimit == "" {
+			continue
+		}
+		limit := c[s.SafetyLimit].Value
+		for _, r := range rs {
+			if m, ok := r.values[s.Name]; ok && math.Abs(m.Value) > limit {
+				reasons = append(reasons, fmt.Sprintf("UNSAFE: %s %.3g %s is above the bench limit of %.3g %s.", s.Label, math.Abs(m.Value), siUnit(s.Dim), limit, siUnit(s.Dim)))
+				cautions = append(cautions, s.Caution)
+				break
+			}
+		}
+	}
+	if len(reasons) == 0 {
+		return "", "", false
+	}
+	cautions = append(cautions, safetyDeferral)
+	return strings.Join(reasons, " "), strings.Join(cautions, " "), true
+}
+
+// safetyDeferral ends every caution: fluxroom's limits are reminders, not
+// the rules that apply.
+const safetyDeferral = "Follow local codes, your institution's safety rules and the equipment maker's limits."
+
+// BudgetItem is one input's share of a result's uncertainty.
+type BudgetItem struct {
+	Input string
+	// RelU is the input's contribution to the relative standard
+	// uncertainty of the result.
+	RelU float64
+	// Share is its fraction of the combined variance, 0–1.
+	Share float64
+}
+
+// budget builds a budget from relative contributions, largest first.
+func budget(items ...BudgetItem) []BudgetItem {
+	var total float64
+	for _, it := range items {
+		total += it.RelU * it.RelU
+	}
+	out := make([]BudgetItem, 0, len(items))
+	for _, it := range items {
+		if total > 0 {
+			it.Share = it.RelU * it.RelU / total
+		}
+		out = append(out, it)
+	}
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Share > out[j].Share })
+	return out
 }
 
 // combine judges a measured value against a prediction.

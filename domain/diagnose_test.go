@@ -1,0 +1,140 @@
+package domain
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"testing"
+	"time"
+)
+
+var simT0 = time.Date(2026, 3, 5, 13, 30, 0, 0, time.UTC)
+
+// codesOf flattens the ranked diagnoses: each code followed by its
+// alternatives.
+func codesOf(a Assessment) []string {
+	var out []string
+	for _, d := range a.Diagnoses {
+		out = append(out, d.Code)
+		out = append(out, d.Alternatives...)
+	}
+	return out
+}
+
+// topOK reports whether want is the top diagnosis or tied with it (one of
+// its alternatives: a documented look-alike or a score within 0.1).
+func topOK(a Assessment, want string) bool {
+	if len(a.Diagnoses) == 0 {
+		return false
+	}
+	d := a.Diagnoses[0]
+	if d.Code == want {
+		return true
+	}
+	for _, alt := range d.Alternatives {
+		if alt == want {
+			return true
+		}
+	}
+	return false
+}
+
+func simulate(t testing.TB, exp, mistake string, seed uint64) SimGroup {
+	t.Helper()
+	g, err := Simulate(exp, mistake, rand.New(rand.NewPCG(seed, 7)), simT0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return g
+}
+
+// TestGoldenDiagnoses injects each simulated mistake, one at a time, and
+// requires its code to be top-ranked or tied with the top one.
+func TestGoldenDiagnoses(t *testing.T) {
+	for _, exp := range SimulatedExperiments() {
+		for _, code := range SimulatedMistakes(exp) {
+			t.Run(exp+"/"+code, func(t *testing.T) {
+				g := simulate(t, exp, code, 1)
+				b, err := ValidateBench("bench", g.Bench)
+				if err != nil {
+					t.Fatal(err)
+				}
+				for i, r := range g.Readings {
+					if err := ValidateReading(fmt.Sprintf("readings[%d]", i), b, r.Values); err != nil {
+						t.Fatal(err)
+					}
+				}
+				a := Assess(b, g.Readings, DefaultTolerance)
+				if !topOK(a, code) {
+					t.Errorf("verdict %s, diagnoses %v; want %s on top (%s)", a.Verdict.Label(), codesOf(a), code, a.Reason)
+				}
+			})
+		}
+	}
+}
+
+// TestCleanGroupsAreConsistent is the property test: clean simulated groups
+// at realistic noise get "consistent" at least 95 % of the time.
+func TestCleanGroupsAreConsistent(t *testing.T) {
+	const runs = 200
+	for _, exp := range SimulatedExperiments() {
+		ok := 0
+		var bad []string
+		for seed := uint64(0); seed < runs; seed++ {
+			g := simulate(t, exp, "", 1000+seed)
+			a := Assess(g.Bench, g.Readings, DefaultTolerance)
+			if a.Verdict == Consistent {
+				ok++
+			} else if len(bad) < 3 {
+				bad = append(bad, fmt.Sprintf("seed %d: %s %v %s", seed, a.Verdict.Label(), codesOf(a), a.Reason))
+			}
+		}
+		rate := float64(ok) / runs
+		t.Logf("%s: %d/%d clean groups consistent (%.1f %%)", exp, ok, runs, 100*rate)
+		if rate < 0.95 {
+			t.Errorf("%s: %.1f %% consistent, want ≥ 95 %%; e.g. %v", exp, 100*rate, bad)
+		}
+	}
+}
+
+// TestCatalogueAccuracy prints top-1 and top-3 diagnosis accuracy over the
+// simulated catalogue and the false-alarm rate on clean groups:
+//
+//	go test -run TestCatalogueAccuracy -v ./domain/
+func TestCatalogueAccuracy(t *testing.T) {
+	const runs = 40
+	var top1, top3, total, clean, falseAlarm int
+	for _, exp := range SimulatedExperiments() {
+		for _, code := range SimulatedMistakes(exp) {
+			var t1, t3 int
+			for seed := uint64(0); seed < runs; seed++ {
+				g := simulate(t, exp, code, 5000+seed)
+				a := Assess(g.Bench, g.Readings, DefaultTolerance)
+				cs := codesOf(a)
+				if topOK(a, code) {
+					t1++
+				}
+				for i := 0; i < len(cs) && i < 3; i++ {
+					if cs[i] == code {
+						t3++
+						break
+					}
+				}
+			}
+			t.Logf("%-40s top-1 %3d %%  top-3 %3d %%", code+" ("+exp+")", 100*t1/runs, 100*t3/runs)
+			top1, top3, total = top1+t1, top3+t3, total+runs
+		}
+		for seed := uint64(0); seed < runs; seed++ {
+			g := simulate(t, exp, "", 9000+seed)
+			a := Assess(g.Bench, g.Readings, DefaultTolerance)
+			clean++
+			if a.Verdict != Consistent || len(a.Diagnoses) > 0 && a.Diagnoses[0].Code != CodeTooGood {
+				falseAlarm++
+			}
+		}
+	}
+	t.Logf("catalogue: top-1 %.1f %%, top-3 %.1f %% over %d simulated groups; false alarms %.1f %% of %d clean groups",
+		100*float64(top1)/float64(total), 100*float64(top3)/float64(total), total, 100*float64(falseAlarm)/float64(clean), clean)
+	if float64(top1)/float64(total) < 0.8 {
+		t.Errorf("top-1 accuracy %.1f %% is below 80 %%", 100*float64(top1)/float64(total))
+	}
+}

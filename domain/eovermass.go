@@ -1,0 +1,322 @@
+package domain
+
+import (
+	"fmt"
+	"math"
+)
+
+// EOverM measures the electron's charge-to-mass ratio from a beam bent into a
+// circle by a Helmholtz coil pair: eV = ½mv², evB = mv²/r, so
+// e/m = 2V/(B²r²) with B = k·I [pub: any intro E&M text; PHYSICS.md §2(b)].
+// Students read the beam's diameter; the tool halves it.
+var EOverM = &Experiment{
+	ID:          "e_over_m",
+	Title:       "charge-to-mass ratio of the electron",
+	MinReadings: 1,
+	Constants: []QuantitySpec{
+		{Name: "coil_turns", Label: "turns per coil N", Dim: Dimensionless, Unit: "1", Default: 130,
+			Min: 1, Max: 10000, Integer: true},
+		// A tape reading of the mean coil radius is good to about 1 % // common practice.
+		{Name: "coil_radius", Label: "coil radius R", Dim: Length, Unit: "cm", Default: 15.0, DefaultRelU: 0.01,
+			Min: 0, MinExclusive: true, Max: 1, Hint: "larger than any teaching coil pair: was it typed in cm with unit m?"},
+		// 0 means "compute k from N and R with the Helmholtz formula".
+		{Name: "coil_constant", Label: "coil constant k", Dim: CoilConstant, Unit: "mT/A", Default: 0, DefaultRelU: 0.01,
+			Min: 0, Max: 0.1, Hint: "far above a Helmholtz pair's: was it typed in mT/A with unit T/A?"},
+		// The diameter is read to ±1–2 mm against a scale behind the bulb
+		// // common practice (PHYSICS.md §2(b)).
+		{Name: "diameter_uncertainty", Label: "diameter reading uncertainty", Dim: Length, Unit: "mm", Default: 1,
+			Min: 0, MinExclusive: true, Max: 0.05},
+		{Name: "voltage_resolution", Label: "voltmeter resolution", Dim: Voltage, Unit: "V", Default: 1,
+			Min: 0, MinExclusive: true, Max: 100},
+		{Name: "current_resolution", Label: "ammeter resolution", Dim: Current, Unit: "A", Default: 0.01,
+			Min: 0, MinExclusive: true, Max: 1},
+		// Supplies give 150–300 V for these tubes // common practice.
+		{Name: "max_anode_voltage", Label: "anode voltage limit", Dim: Voltage, Unit: "V", Default: 300,
+			Min: 0, MinExclusive: true, Max: 5000},
+		// More than 6.3 V destroys the filament // common practice.
+		{Name: "max_heater_voltage", Label: "heater voltage limit", Dim: Voltage, Unit: "V", Default: 6.3,
+			Min: 0, MinExclusive: true, Max: 50},
+		// Coil pairs are rated about 1.5–3.5 A // common practice.
+		{Name: "max_coil_current", Label: "coil current limit", Dim: Current, Unit: "A", Default: 2.5,
+			Min: 0, MinExclusive: true, Max: 20},
+	},
+	Values: []QuantitySpec{
+		{Name: "anode_voltage", Label: "anode voltage V", Dim: Voltage, Unit: "V", Min: 0, MinExclusive: true, Max: 2000,
+			Hint: "beyond any beam tube supply: was it typed in V with unit kV?", SafetyLimit: "max_anode_voltage",
+			Caution: "The anode supply is above the tube's limit: switch it off. The tube runs above extra-low voltage (IEC 61140): change wiring only with the supplies off and after the instructor's check."},
+		{Name: "coil_current", Label: "coil current I", Dim: Current, Unit: "A", Min: -10, Max: 10,
+			Hint: "beyond any coil pair's rating: was it typed in mA with unit A?", SafetyLimit: "max_coil_current",
+			Caution: "Coil current above the pair's rating overheats the coils: turn it down."},
+		// The bulb is about 16 cm across, so no orbit is wider (from memory).
+		{Name: "beam_diameter", Label: "beam diameter d", Dim: Length, Unit: "cm", Min: 0, MinExclusive: true, Max: 0.16,
+			Hint: "wider than the bulb (about 16 cm, from memory): was it in mm typed as cm?"},
+		{Name: "heater_voltage", Label: "heater voltage", Dim: Voltage, Unit: "V", Min: 0, Max: 100, Optional: true,
+			SafetyLimit: "max_heater_voltage",
+			Caution:     "The heater is above its limit: turn it down at once, more than 6.3 V destroys the filament. The tube is evacuated glass: handle it gently."},
+		{Name: "reported_e_over_m", Label: "the group's own e/m", Dim: ChargeToMassRatio, Unit: "C/kg",
+			Min: math.NaN(), Max: math.NaN(), Optional: true},
+	},
+	assess: assessChargeToMass,
+}
+
+func init() { register(EOverM) }
+
+// Diagnosis codes of the e/m experiment. Append-only.
+var (
+	CodeRadiusEntered = entry(CatalogueEntry{Code: "e_over_m.radius_entered", Level: Raw, Factor: 4,
+		Cause:  "the beam's radius was entered where its diameter is asked (d about half the expected)",
+		Action: "enter the full diameter of the circle; the tool halves it"})
+	CodeHeaterAsAnode = entry(CatalogueEntry{Code: "e_over_m.heater_as_anode", Level: Raw,
+		Cause:  "the heater voltage was entered as the anode voltage",
+		Action: "enter the accelerating (anode) voltage, 150–300 V, not the 6.3 V heater"})
+	CodeKSingleLoop = entry(CatalogueEntry{Code: "e_over_m.k_single_loop", Level: Raw, Factor: 2.048,
+		Cause:  "the bench's coil constant k was worked out with the single-loop formula μ0N/2R instead of the Helmholtz pair's",
+		Action: "use k = (4/5)^{3/2}·μ0·N/R, or leave k at 0 so the tool computes it"})
+	CodeKNoHelmholtzFactor = entry(CatalogueEntry{Code: "e_over_m.k_without_helmholtz_factor", Level: Raw, Factor: 0.512,
+		Cause:  "the bench's coil constant k leaves out the (4/5)^{3/2} factor",
+		Action: "use k = (4/5)^{3/2}·μ0·N/R, or leave k at 0 so the tool computes it"})
+	CodeBackgroundAxial = entry(CatalogueEntry{Code: "e_over_m.background_field", Level: Shape,
+		Cause:  "a background field along the coil axis (the Earth's, or nearby iron) adds to the coils' field",
+		Action: "take each point with the current both ways and average, or turn the apparatus to face magnetic east–west"})
+	CodeLargeOrbitsLow = entry(CatalogueEntry{Code: "e_over_m.large_orbits_low", Level: Shape,
+		Cause:  "large orbits read e/m low: the coils' field weakens away from the centre",
+		Action: "use orbits between about 3 and 5 cm radius"})
+	CodeBeamTilt = entry(CatalogueEntry{Code: "e_over_m.beam_tilt", Level: Raw,
+		Cause:  "the beam is not perpendicular to the field: a helix reads e/m high (×1/cos²δ)",
+		Action: "turn the tube in its mount until the beam closes on itself in a flat circle"})
+	CodeDiameterAsRadius = entry(CatalogueEntry{Code: "e_over_m.diameter_as_radius", Level: Recomputation, Factor: 0.25,
+		Cause:  "the group's own e/m uses the diameter where the radius belongs",
+		Action: "use r = d/2 in e/m = 2V/(B²r²)", Lookalikes: []string{"e_over_m.two_n"}})
+	CodeTwoN = entry(CatalogueEntry{Code: "e_over_m.two_n", Level: Recomputation, Factor: 0.25,
+		Cause:  "the group's own B counts the turns of both coils (2N) in the Helmholtz formula",
+		Action: "N is the turns of one coil in B = (4/5)^{3/2}·μ0·N·I/R", Lookalikes: []string{"e_over_m.diameter_as_radius"}})
+	CodeRadiusHalvedTwice = entry(CatalogueEntry{Code: "e_over_m.radius_halved_twice", Level: Recomputation, Factor: 4,
+		Cause:  "the group's own e/m halves the diameter twice",
+		Action: "r = d/2 once"})
+	CodeSingleLoop = entry(CatalogueEntry{Code: "e_over_m.single_loop", Level: Recomputation, Factor: 2.048,
+		Cause:  "the group's own B uses the single-loop formula μ0NI/2R instead of the Helmholtz pair's",
+		Action: "use B = (4/5)^{3/2}·μ0·N·I/R", Lookalikes: []string{"e_over_m.extra_factor_two"}})
+	CodeExtraFactorTwo = entry(CatalogueEntry{Code: "e_over_m.extra_factor_two", Level: Recomputation, Factor: 2,
+		Cause:  "a stray factor of 2 in the group's formula (for example 4V/B²r²)",
+		Action: "e/m = 2V/(B²r²)", Lookalikes: []string{"e_over_m.single_loop"}})
+	CodeFactorTwoDropped = entry(CatalogueEntry{Code: "e_over_m.factor_two_dropped", Level: Recomputation, Factor: 0.5,
+		Cause:  "the group's formula drops the 2 of e/m = 2V/(B²r²)",
+		Action: "e/m = 2V/(B²r²)"})
+	CodeHelmholtzDropped = entry(CatalogueEntry{Code: "e_over_m.helmholtz_factor_dropped", Level: Recomputation, Factor: 0.512,
+		Cause:  "the group's own B leaves out the (4/5)^{3/2} factor",
+		Action: "use B = (4/5)^{3/2}·μ0·N·I/R"})
+	CodeRInCm = entry(CatalogueEntry{Code: "e_over_m.r_in_cm", Level: Recomputation, Factor: 1e-4,
+		Cause:  "the group's own e/m uses r in centimetres as if metres",
+		Action: "convert r to metres before squaring"})
+	CodeGaussAsTesla = entry(CatalogueEntry{Code: "e_over_m.gauss_as_tesla", Level: Recomputation, Factor: 1e-8,
+		Cause:  "the group's own e/m uses B in gauss as if tesla",
+		Action: "1 G = 10⁻⁴ T"})
+	CodeMilliteslaAsTesla = entry(CatalogueEntry{Code: "e_over_m.millitesla_as_tesla", Level: Recomputation, Factor: 1e-6,
+		Cause:  "the group's own e/m uses B in millitesla as if tesla",
+		Action: "1 mT = 10⁻³ T"})
+	CodeMu0Without4Pi = entry(CatalogueEntry{Code: "e_over_m.mu0_without_4pi", Level: Recomputation, Factor: 16 * math.Pi * math.Pi,
+		Cause:  "the group's own B uses μ0 = 10⁻⁷ without the 4π",
+		Action: "μ0 = 4π·10⁻⁷ N/A²"})
+	CodeHeaterInFormula = entry(CatalogueEntry{Code: "e_over_m.heater_in_formula", Level: Recomputation,
+		Cause:  "the group's own e/m uses the heater voltage instead of the anode voltage",
+		Action: "V in e/m = 2V/(B²r²) is the accelerating voltage"})
+)
+
+// coilConstant returns k (T/A) with its standard uncertainty: the bench's
+// value when set, else the Helmholtz formula from N and R.
+func coilConstant(c map[string]Measurement) Measurement {
+	if k := c["coil_constant"]; k.Value > 0 {
+		return k
+	}
+	N, R := c["coil_turns"].Value, c["coil_radius"]
+	k := helmholtzFactor * Mu0 * N / R.Value
+	// N is exact; μ0 is known to 2e-10; u_k/k = u_R/R.
+	return Measurement{Value: k, Uncertainty: k * R.RelUncertainty()}
+}
+
+func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+	k := coilConstant(c)
+	uV := resolutionU(c["voltage_resolution"].Value)
+	uI := resolutionU(c["current_resolution"].Value)
+	ud := c["diameter_uncertainty"].Value
+	n := len(rs)
+	em := make([]float64, n)
+	uem := make([]float64, n)
+	radius := make([]float64, n)
+	var sumW, sumWX float64
+	var relV, relI, relR float64
+	for i, r := range rs {
+		V, I, d := r.v("anode_voltage"), math.Abs(r.v("coil_current")), r.v("beam_diameter")
+		rad := d / 2
+		B := k.Value * I
+		radius[i] = rad
+		if B == 0 {
+			return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("reading %d has no coil current, so no field", i+1)}, nil
+		}
+		em[i] = 2 * V / (B * B * rad * rad)
+		// (u/(e/m))² = (u_V/V)² + 4(u_I/I)² + 4(u_r/r)², k's share added
+		// once below as it is common to every reading [pub: JCGM 100:2008 §5.1.6].
+		a, b, cc := uV/V, 2*uI/I, 2*(ud/2)/rad
+		uem[i] = em[i] * math.Sqrt(a*a+b*b+cc*cc)
+		w := 1 / (uem[i] * uem[i])
+		sumW += w
+		sumWX += w * em[i]
+		relV, relI, relR = relV+a/float64(n), relI+b/float64(n), relR+cc/float64(n)
+	}
+	meanEM := sumWX / sumW
+	uRand := math.Sqrt(1 / sumW)
+	if n > 1 {
+		var chi2 float64
+		for i := range em {
+			d := (em[i] - meanEM) / uem[i]
+			chi2 += d * d
+		}
+		if s := chi2 / float64(n-1); s > 1 {
+			uRand *= math.Sqrt(s)
+		}
+	}
+	relK := 2 * k.RelUncertainty()
+	measured := Measurement{Value: meanEM, Uncertainty: math.Hypot(uRand, meanEM*relK)}
+	predicted := Measurement{Value: ElectronChargeToMass}
+	z, pct, v := combine(measured, predicted, tol)
+	a := Assessment{
+		Verdict: v, Measured: measured, Predicted: predicted, ResultUnit: "C/kg", ResultName: "e/m",
+		Z: z, PercentDiff: pct,
+		Budget: budget(
+			BudgetItem{Input: "beam diameter d", RelU: relR / math.Sqrt(float64(n))},
+			BudgetItem{Input: "anode voltage V", RelU: relV / math.Sqrt(float64(n))},
+			BudgetItem{Input: "coil current I", RelU: relI / math.Sqrt(float64(n))},
+			BudgetItem{Input: "coil constant k", RelU: relK},
+		),
+	}
+	a.Reason = fmt.Sprintf("e/m %s vs %.5g C/kg (CODATA 2022) (%+.1f %%, z = %+.1f), %d readings",
+		FormatMeasurement(measured.Value, measured.Uncertainty, "C/kg"), ElectronChargeToMass, pct, z, n)
+
+	var fs findings
+	rho := meanEM / ElectronChargeToMass
+	uRel := measured.RelUncertainty()
+	var volts []float64
+	for _, r := range rs {
+		volts = append(volts, r.v("anode_voltage"))
+	}
+	switch {
+	case median(volts) < 20:
+		// Tube anodes run at 100–300 V (from memory); a few volts is the heater.
+		fs.add(CodeHeaterAsAnode, fmt.Sprintf("anode voltage %.3g V, where tubes run at 100–300 V", median(volts)), 1, true)
+	case v != Consistent:
+		fs.matchFactor(rho, uRel, "e/m / CODATA", CodeRadiusEntered, CodeKSingleLoop, CodeKNoHelmholtzFactor)
+		if len(fs) == 0 {
+			fs.matchDecade(rho, uRel, "e/m / CODATA")
+		}
+		if rho > 1.02 && rho < 1.25 {
+			fs.add(CodeBeamTilt, fmt.Sprintf("e/m / CODATA = %.3f, as a beam tilted by about %.0f° would give", rho, math.Acos(math.Sqrt(1/rho))*180/math.Pi), 0.5, true)
+		}
+	}
+	timeAndDirection(&fs, rs, em, k.Value)
+	if n >= 5 {
+		if t := TrendT(radius, em); t < -4 && (maxOf(radius)-minOf(radius)) > 0.01 {
+			fs.add(CodeLargeOrbitsLow, fmt.Sprintf("e/m falls as the orbit grows (t = %.1f over r = %.1f–%.1f cm)", t, 100*minOf(radius), 100*maxOf(radius)), 0.8, true)
+		}
+	}
+	reportedChargeToMass(&fs, rs, em)
+	return a, fs
+}
+
+// timeAndDirection fits e/m against reading order and current direction
+// together, e/m = a + b·order + c·sign(I), so a drift in time and a
+// background field along the axis are told apart. With a background B_bg,
+// e/m computed from k·|I| alone is high one way and low the other:
+// √(e/m₊/e/m₋) = (kI + B_bg)/(kI − B_bg) [derived from PHYSICS.md §2(b)].
+func timeAndDirection(fs *findings, rs []siReading, em []float64, k float64) {
+	n := len(rs)
+	if n < 5 {
+		return
+	}
+	one := make([]float64, n)
+	order := make([]float64, n)
+	dir := make([]float64, n)
+	var kI []float64
+	var pos, neg int
+	for i, r := range rs {
+		one[i], order[i] = 1, float64(i)
+		if r.v("coil_current") >= 0 {
+			dir[i] = 1
+			pos++
+		} else {
+			dir[i] = -1
+			neg++
+		}
+		kI = append(kI, k*math.Abs(r.v("coil_current")))
+	}
+	cols := [][]float64{one, order}
+	if pos >= 2 && neg >= 2 {
+		cols = append(cols, dir)
+	}
+	coef, se, err := FitModel(cols, em)
+	if err != nil {
+		return
+	}
+	if se[1] > 0 && math.Abs(coef[1]/se[1]) > 4 {
+		fs.add(CodeDrift, fmt.Sprintf("e/m changes by %+.2g C/kg per reading (t = %+.1f)", coef[1], coef[1]/se[1]), 0.8, true)
+	}
+	if len(coef) == 3 && se[2] > 0 && math.Abs(coef[2]/se[2]) > 3 {
+		ep, en := coef[0]+coef[2], coef[0]-coef[2]
+		if en <= 0 {
+			return
+		}
+		s := math.Sqrt(ep / en)
+		bg := median(kI) * (s - 1) / (s + 1)
+		// Below about 10 µT the bias on e/m stays under 3 %, inside a
+		// teaching lab's uncertainty // common practice.
+		if math.Abs(bg) < 10e-6 {
+			return
+		}
+		fs.add(CodeBackgroundAxial, fmt.Sprintf("e/m one way %.4g, the other way %.4g C/kg (t = %.1f): about %.0f µT along the axis",
+			ep, en, coef[2]/se[2], bg*1e6), 0.9, true)
+	}
+}
+
+// reportedChargeToMass compares the group's own e/m with the tool's
+// recomputation from the same readings.
+func reportedChargeToMass(fs *findings, rs []siReading, em []float64) {
+	var ratios, heater []float64
+	for i, r := range rs {
+		if r.has("reported_e_over_m") && em[i] > 0 {
+			ratios = append(ratios, r.v("reported_e_over_m")/em[i])
+			if r.has("heater_voltage") {
+				heater = append(heater, r.v("heater_voltage")/r.v("anode_voltage"))
+			}
+		}
+	}
+	if len(ratios) == 0 {
+		return
+	}
+	rho := median(ratios)
+	what := "the group's e/m / the tool's"
+	before := len(*fs)
+	fs.matchFactor(rho, 0.01, what, CodeDiameterAsRadius, CodeTwoN, CodeRadiusHalvedTwice, CodeSingleLoop,
+		CodeExtraFactorTwo, CodeFactorTwoDropped, CodeHelmholtzDropped, CodeRInCm, CodeGaussAsTesla,
+		CodeMilliteslaAsTesla, CodeMu0Without4Pi)
+	if len(heater) > 0 && math.Abs(math.Log(rho/median(heater))) < 0.02 {
+		fs.add(CodeHeaterInFormula, fmt.Sprintf("%s = %.3g, the heater/anode voltage ratio", what, rho), 1, true)
+	}
+	if len(*fs) == before {
+		fs.matchDecade(rho, 0.01, what)
+	}
+}
+
+func maxOf(v []float64) float64 {
+	m := math.Inf(-1)
+	for _, x := range v {
+		m = math.Max(m, x)
+	}
+	return m
+}
+
+func minOf(v []float64) float64 {
+	m := math.Inf(1)
+	for _, x := range v {
+		m = math.Min(m, x)
+	}
+	return m
+}
