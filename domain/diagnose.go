@@ -194,3 +194,6 @@ func outlierSlip(y []float64, predict func(i int) (float64, float64)) int {
 	}
 	return -1
 }
+
+// LevelOf returns the level of evidence of a diagnosis code.
+func LevelOf(code string) Level { return catalogue[code].Level }

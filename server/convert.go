@@ -56,6 +56,8 @@ var verdictToPB = map[domain.Verdict]pb.Verdict{
 	domain.Consistent: pb.Verdict_VERDICT_CONSISTENT,
 	domain.Check:      pb.Verdict_VERDICT_CHECK,
 	domain.Off:        pb.Verdict_VERDICT_OFF,
+	domain.Unsafe:     pb.Verdict_VERDICT_UNSAFE,
+	domain.Stalled:    pb.Verdict_VERDICT_STALLED,
 }
 
 func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
@@ -67,6 +69,12 @@ func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
 		ReadingCount:      int32(a.ReadingCount),
 		Z:                 a.Z,
 		PercentDifference: a.PercentDiff,
+		Caution:           a.Caution,
+		ExperimentTitle:   a.ExperimentTitle,
+		ResultName:        a.ResultName,
+	}
+	for _, b := range a.Budget {
+		st.Budget = append(st.Budget, &pb.BudgetItem{Input: b.Input, RelativeUncertainty: b.RelU, Share: b.Share})
 	}
 	if a.ResultUnit != "" {
 		st.Measured = &pb.Quantity{Value: a.Measured.Value, Uncertainty: a.Measured.Uncertainty, Unit: a.ResultUnit}
@@ -77,7 +85,7 @@ func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
 	}
 	for _, d := range a.Diagnoses {
 		st.Diagnoses = append(st.Diagnoses, &pb.Diagnosis{Code: d.Code, Cause: d.Cause, Evidence: d.Evidence,
-			Action: d.Action, Alternatives: d.Alternatives})
+			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String()})
 	}
 	return st
 }
@@ -100,4 +108,13 @@ func sortBenches(bs []domain.Bench) {
 		}
 		return bs[i].Column < bs[j].Column
 	})
+}
+
+func findingsToPB(fs []domain.RoomFinding) []*pb.RoomFinding {
+	out := make([]*pb.RoomFinding, 0, len(fs))
+	for _, f := range fs {
+		out = append(out, &pb.RoomFinding{Code: f.Code, Experiment: f.Experiment, Message: f.Message, BenchIds: f.BenchIDs,
+			MedianRatio: f.MedianRatio, Spread: f.Spread, Groups: int32(f.Groups)})
+	}
+	return out
 }

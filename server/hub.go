@@ -22,7 +22,7 @@ type hub struct {
 }
 
 type watcher struct {
-	ch chan *pb.BenchState
+	ch chan *pb.WatchRoomResponse
 	// gone is closed when the hub drops the watcher (fell behind, or the
 	// server is shutting down).
 	gone     chan struct{}
@@ -34,7 +34,7 @@ func (w *watcher) drop() { w.goneOnce.Do(func() { close(w.gone) }) }
 func newHub() *hub { return &hub{watchers: map[uint64]map[*watcher]struct{}{}} }
 
 func (h *hub) subscribe(sessionID uint64) *watcher {
-	w := &watcher{ch: make(chan *pb.BenchState, watcherBuffer), gone: make(chan struct{})}
+	w := &watcher{ch: make(chan *pb.WatchRoomResponse, watcherBuffer), gone: make(chan struct{})}
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	if h.closed {
@@ -63,9 +63,10 @@ func (h *hub) sessionLock(sessionID uint64) *sync.Mutex {
 	return m.(*sync.Mutex)
 }
 
-// publish sends a bench's new state to every watcher of its session without
-// blocking; a watcher whose buffer is full is dropped.
-func (h *hub) publish(sessionID uint64, st *pb.BenchState) {
+// publish sends an event (a bench's new state, or the room's findings) to
+// every watcher of its session without blocking; a watcher whose buffer is
+// full is dropped. The stream sets the sequence number.
+func (h *hub) publish(sessionID uint64, st *pb.WatchRoomResponse) {
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	for w := range h.watchers[sessionID] {

@@ -7,6 +7,7 @@ import (
 	"log/slog"
 	"net"
 	"net/http"
+	"slices"
 	"sync"
 	"time"
 
@@ -36,18 +37,26 @@ type Config struct {
 	// Web serves the dashboard for every path that is not an RPC; nil
 	// serves 404s.
 	Web http.Handler
+	// StallAfter is how long a bench may go without a reading, while
+	// others progress, before it shows as stalled. Default 10 minutes.
+	StallAfter time.Duration
+	// StallCheck is how often stalls are looked for. Default 15 s.
+	StallCheck time.Duration
 }
 
 // Server serves the fluxroom API on one listener.
 type Server struct {
-	db     *store.DB
-	log    *slog.Logger
-	now    func() time.Time
-	tol    domain.Tolerance
-	hub    *hub
-	grpc   *grpc.Server
-	http   *http.Server
-	health *health.Server
+	db    *store.DB
+	log   *slog.Logger
+	now   func() time.Time
+	tol   domain.Tolerance
+	hub   *hub
+	rooms rooms
+	grpc  *grpc.Server
+	// stallAfter and stallCheck: see Config.
+	stallAfter, stallCheck time.Duration
+	http                   *http.Server
+	health                 *health.Server
 
 	mu   sync.Mutex
 	mux  cmux.CMux
@@ -65,6 +74,15 @@ func New(cfg Config) (*Server, error) {
 	}
 	if s.tol == (domain.Tolerance{}) {
 		s.tol = domain.DefaultTolerance
+	}
+	// Ten minutes without a reading is long in a lab where a point takes
+	// one or two // common practice.
+	s.stallAfter, s.stallCheck = cfg.StallAfter, cfg.StallCheck
+	if s.stallAfter == 0 {
+		s.stallAfter = 10 * time.Minute
+	}
+	if s.stallCheck == 0 {
+		s.stallCheck = 15 * time.Second
 	}
 	s.grpc = grpc.NewServer(
 		grpc.ChainUnaryInterceptor(s.unaryErrors),
@@ -114,6 +132,18 @@ func (s *Server) Serve(l net.Listener) error {
 	errc := make(chan error, 2)
 	go func() { errc <- s.grpc.Serve(grpcL) }()
 	go func() { errc <- s.http.Serve(httpL) }()
+	go func() {
+		t := time.NewTicker(s.stallCheck)
+		defer t.Stop()
+		for {
+			select {
+			case <-s.done:
+				return
+			case <-t.C:
+				s.checkStalls()
+			}
+		}
+	}()
 	err := m.Serve()
 	select {
 	case <-s.done:
@@ -190,33 +220,54 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 	return stateToPB(b, a), a, rs, nil
 }
 
-// publishBench judges a bench after a change and sends its state to the
-// room's watchers, in the order the states were read.
+// publishBench judges a bench after a change and sends its state, and the
+// room's findings when they change, to the room's watchers, in the order the
+// states were read.
 func (s *Server) publishBench(sessionID, benchID uint64) (*pb.BenchState, error) {
 	mu := s.hub.sessionLock(sessionID)
 	mu.Lock()
 	defer mu.Unlock()
-	st, _, _, err := s.benchState(sessionID, benchID)
+	rs, err := s.loadRoom(sessionID)
 	if err != nil {
 		return nil, err
 	}
-	s.hub.publish(sessionID, st)
+	st, a, readings, err := s.benchState(sessionID, benchID)
+	if err != nil {
+		return nil, err
+	}
+	b := benchFromPB(st.GetBench())
+	rs.states[benchID] = st
+	rs.results[benchID] = domain.ResultOf(b, a, readings)
+	now := s.now()
+	// Only this bench's flag changes here; checkStalls publishes the others'.
+	rs.stalled[benchID] = domain.StalledBenches(rs.resultList(), now, s.stallAfter)[benchID]
+	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
+	if f := domain.RoomFindings(rs.resultList()); !sameFindings(f, rs.findings) {
+		rs.findings = f
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
+	}
 	return st, nil
 }
 
+// snapshot is the whole room now, from the room cache.
 func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
-	benches, err := s.db.Benches(sess.ID)
+	mu := s.hub.sessionLock(sess.ID)
+	mu.Lock()
+	defer mu.Unlock()
+	rs, err := s.loadRoom(sess.ID)
 	if err != nil {
 		return nil, err
 	}
-	sortBenches(benches)
-	snap := &pb.RoomSnapshot{Session: sessionToPB(sess)}
-	for _, b := range benches {
-		st, _, _, err := s.benchState(sess.ID, b.ID)
-		if err != nil {
-			return nil, err
-		}
-		snap.Benches = append(snap.Benches, st)
+	now := s.now()
+	snap := &pb.RoomSnapshot{Session: sessionToPB(sess), Findings: findingsToPB(rs.findings)}
+	for _, st := range rs.states {
+		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId(), now))
 	}
+	slices.SortFunc(snap.Benches, func(a, b *pb.BenchState) int {
+		if d := a.GetBench().GetRow() - b.GetBench().GetRow(); d != 0 {
+			return int(d)
+		}
+		return int(a.GetBench().GetColumn() - b.GetBench().GetColumn())
+	})
 	return snap, nil
 }

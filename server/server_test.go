@@ -2,11 +2,13 @@ package server
 
 import (
 	"context"
+	"fmt"
 	"io"
 	"log/slog"
 	"math"
 	"net"
 	"path/filepath"
+	"sync"
 	"testing"
 	"time"
 
@@ -35,13 +37,25 @@ type rig struct {
 // dir, and a native gRPC client connected to it.
 func startRig(t *testing.T) *rig {
 	t.Helper()
+	clock := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
+	var mu sync.Mutex
+	return startRigWith(t, Config{Now: func() time.Time {
+		mu.Lock()
+		defer mu.Unlock()
+		clock = clock.Add(time.Second)
+		return clock
+	}})
+}
+
+// startRigWith is startRig with the given clock and room settings.
+func startRigWith(t *testing.T, cfg Config) *rig {
+	t.Helper()
 	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	clock := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
-	srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)),
-		Now: func() time.Time { clock = clock.Add(time.Second); return clock }})
+	cfg.DB, cfg.Logger = db, slog.New(slog.NewTextHandler(io.Discard, nil))
+	srv, err := New(cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -301,4 +315,75 @@ func contains(xs []string, x string) bool {
 		}
 	}
 	return false
+}
+
+// TestRoomFindingsAndStalls: when most groups share one discrepancy the room
+// stream carries a shared-cause finding, and a bench that stops while the
+// others go on turns "stalled" by itself.
+func TestRoomFindingsAndStalls(t *testing.T) {
+	var mu sync.Mutex
+	now := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
+	clock := func() time.Time { mu.Lock(); defer mu.Unlock(); return now }
+	advance := func(d time.Duration) { mu.Lock(); now = now.Add(d); mu.Unlock() }
+	r := startRigWith(t, Config{Now: clock, StallAfter: 5 * time.Minute, StallCheck: 10 * time.Millisecond})
+	ctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	cs, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "room rules"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sid := cs.Session.SessionId
+	var benches []*pb.Bench
+	for i, label := range []string{"A1", "A2", "A3", "A4"} {
+		b := forceBench(label, 0, int32(i))
+		// Every bench's L was set to both segments (8 cm) by the same handout.
+		b.Constants["segment_length"] = q(8, "cm")
+		benches = append(benches, b)
+	}
+	sb, err := r.instructor.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sid, Benches: benches})
+	if err != nil {
+		t.Fatal(err)
+	}
+	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sid})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := stream.Recv(); err != nil {
+		t.Fatal(err)
+	}
+	for j, b := range sb.Benches[:3] {
+		for i, I := range []float64{0, 1, 2, 3, 4} {
+			noise := 0.002 * float64((i+j)%3)
+			if _, err := submit(ctx, r, sid, b.BenchId, fmt.Sprintf("%s-%d", b.Label, i), I, 0.48*I+noise); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	var finding *pb.RoomFinding
+	for finding == nil {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, f := range ev.GetFindings().GetFindings() {
+			finding = f
+		}
+	}
+	if finding.Code != "room.shared_cause" || len(finding.BenchIds) != 3 || math.Abs(finding.MedianRatio-0.5) > 0.01 {
+		t.Errorf("finding = %v, want room.shared_cause over 3 benches at ×0.5", finding)
+	}
+	// Ten minutes on, A1 reads again and A2 does not: A2 is stalled.
+	advance(10 * time.Minute)
+	if _, err := submit(ctx, r, sid, sb.Benches[0].BenchId, "A1-late", 4.5, 0.48*4.5); err != nil {
+		t.Fatal(err)
+	}
+	for {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" && b.Verdict == pb.Verdict_VERDICT_STALLED {
+			break
+		}
+	}
 }

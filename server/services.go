@@ -219,9 +219,9 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 			return stream.Context().Err()
 		case <-w.gone:
 			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
-		case st := <-w.ch:
+		case ev := <-w.ch:
 			seq++
-			if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: &pb.WatchRoomResponse_Bench{Bench: st}}); err != nil {
+			if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: ev.Event}); err != nil {
 				return err
 			}
 		}

@@ -39,6 +39,10 @@ const (
 	Verdict_VERDICT_CHECK Verdict = 3
 	// Clearly off.
 	Verdict_VERDICT_OFF Verdict = 4
+	// A reading exceeded a safety limit of the bench: act now.
+	Verdict_VERDICT_UNSAFE Verdict = 5
+	// No new reading for a while although the rest of the room moves on.
+	Verdict_VERDICT_STALLED Verdict = 6
 )
 
 // Enum value maps for Verdict.
@@ -49,6 +53,8 @@ var (
 		2: "VERDICT_CONSISTENT",
 		3: "VERDICT_CHECK",
 		4: "VERDICT_OFF",
+		5: "VERDICT_UNSAFE",
+		6: "VERDICT_STALLED",
 	}
 	Verdict_value = map[string]int32{
 		"VERDICT_UNSPECIFIED": 0,
@@ -56,6 +62,8 @@ var (
 		"VERDICT_CONSISTENT":  2,
 		"VERDICT_CHECK":       3,
 		"VERDICT_OFF":         4,
+		"VERDICT_UNSAFE":      5,
+		"VERDICT_STALLED":     6,
 	}
 )
 
@@ -395,7 +403,9 @@ type Diagnosis struct {
 	// What the instructor can suggest.
 	Action string `protobuf:"bytes,4,opt,name=action,proto3" json:"action,omitempty"`
 	// Codes that fit the numbers about as well.
-	Alternatives  []string `protobuf:"bytes,5,rep,name=alternatives,proto3" json:"alternatives,omitempty"`
+	Alternatives []string `protobuf:"bytes,5,rep,name=alternatives,proto3" json:"alternatives,omitempty"`
+	// The evidence it rests on: "raw readings", "recomputation" or "fit shape".
+	Level         string `protobuf:"bytes,6,opt,name=level,proto3" json:"level,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -465,6 +475,215 @@ func (x *Diagnosis) GetAlternatives() []string {
 	return nil
 }
 
+func (x *Diagnosis) GetLevel() string {
+	if x != nil {
+		return x.Level
+	}
+	return ""
+}
+
+// BudgetItem is one input's share of a result's uncertainty.
+type BudgetItem struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Input string                 `protobuf:"bytes,1,opt,name=input,proto3" json:"input,omitempty"`
+	// Its contribution to the relative standard uncertainty of the result.
+	RelativeUncertainty float64 `protobuf:"fixed64,2,opt,name=relative_uncertainty,json=relativeUncertainty,proto3" json:"relative_uncertainty,omitempty"`
+	// Its fraction of the combined variance, 0–1.
+	Share         float64 `protobuf:"fixed64,3,opt,name=share,proto3" json:"share,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *BudgetItem) Reset() {
+	*x = BudgetItem{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *BudgetItem) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*BudgetItem) ProtoMessage() {}
+
+func (x *BudgetItem) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use BudgetItem.ProtoReflect.Descriptor instead.
+func (*BudgetItem) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{5}
+}
+
+func (x *BudgetItem) GetInput() string {
+	if x != nil {
+		return x.Input
+	}
+	return ""
+}
+
+func (x *BudgetItem) GetRelativeUncertainty() float64 {
+	if x != nil {
+		return x.RelativeUncertainty
+	}
+	return 0
+}
+
+func (x *BudgetItem) GetShare() float64 {
+	if x != nil {
+		return x.Share
+	}
+	return 0
+}
+
+// RoomFinding is about the room as a whole, for the instructor only: a
+// discrepancy most groups share, or benches with identical readings.
+type RoomFinding struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Code          string                 `protobuf:"bytes,1,opt,name=code,proto3" json:"code,omitempty"`
+	Experiment    string                 `protobuf:"bytes,2,opt,name=experiment,proto3" json:"experiment,omitempty"`
+	Message       string                 `protobuf:"bytes,3,opt,name=message,proto3" json:"message,omitempty"`
+	BenchIds      []uint64               `protobuf:"varint,4,rep,packed,name=bench_ids,json=benchIds,proto3" json:"bench_ids,omitempty"`
+	MedianRatio   float64                `protobuf:"fixed64,5,opt,name=median_ratio,json=medianRatio,proto3" json:"median_ratio,omitempty"`
+	Spread        float64                `protobuf:"fixed64,6,opt,name=spread,proto3" json:"spread,omitempty"`
+	Groups        int32                  `protobuf:"varint,7,opt,name=groups,proto3" json:"groups,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RoomFinding) Reset() {
+	*x = RoomFinding{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RoomFinding) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RoomFinding) ProtoMessage() {}
+
+func (x *RoomFinding) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RoomFinding.ProtoReflect.Descriptor instead.
+func (*RoomFinding) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{6}
+}
+
+func (x *RoomFinding) GetCode() string {
+	if x != nil {
+		return x.Code
+	}
+	return ""
+}
+
+func (x *RoomFinding) GetExperiment() string {
+	if x != nil {
+		return x.Experiment
+	}
+	return ""
+}
+
+func (x *RoomFinding) GetMessage() string {
+	if x != nil {
+		return x.Message
+	}
+	return ""
+}
+
+func (x *RoomFinding) GetBenchIds() []uint64 {
+	if x != nil {
+		return x.BenchIds
+	}
+	return nil
+}
+
+func (x *RoomFinding) GetMedianRatio() float64 {
+	if x != nil {
+		return x.MedianRatio
+	}
+	return 0
+}
+
+func (x *RoomFinding) GetSpread() float64 {
+	if x != nil {
+		return x.Spread
+	}
+	return 0
+}
+
+func (x *RoomFinding) GetGroups() int32 {
+	if x != nil {
+		return x.Groups
+	}
+	return 0
+}
+
+// RoomFindings is the room's current findings, replacing earlier ones.
+type RoomFindings struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Findings      []*RoomFinding         `protobuf:"bytes,1,rep,name=findings,proto3" json:"findings,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RoomFindings) Reset() {
+	*x = RoomFindings{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RoomFindings) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RoomFindings) ProtoMessage() {}
+
+func (x *RoomFindings) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RoomFindings.ProtoReflect.Descriptor instead.
+func (*RoomFindings) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{7}
+}
+
+func (x *RoomFindings) GetFindings() []*RoomFinding {
+	if x != nil {
+		return x.Findings
+	}
+	return nil
+}
+
 // Fit is a straight-line least-squares fit y = intercept + slope·x, in SI.
 type Fit struct {
 	state                protoimpl.MessageState `protogen:"open.v1"`
@@ -484,7 +703,7 @@ type Fit struct {
 
 func (x *Fit) Reset() {
 	*x = Fit{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -496,7 +715,7 @@ func (x *Fit) String() string {
 func (*Fit) ProtoMessage() {}
 
 func (x *Fit) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -509,7 +728,7 @@ func (x *Fit) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Fit.ProtoReflect.Descriptor instead.
 func (*Fit) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{5}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *Fit) GetSlope() float64 {
@@ -599,13 +818,20 @@ type BenchState struct {
 	Predicted         *Quantity `protobuf:"bytes,9,opt,name=predicted,proto3" json:"predicted,omitempty"`
 	Z                 float64   `protobuf:"fixed64,10,opt,name=z,proto3" json:"z,omitempty"`
 	PercentDifference float64   `protobuf:"fixed64,11,opt,name=percent_difference,json=percentDifference,proto3" json:"percent_difference,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// Safety caution when the verdict is UNSAFE.
+	Caution         string `protobuf:"bytes,12,opt,name=caution,proto3" json:"caution,omitempty"`
+	ExperimentTitle string `protobuf:"bytes,13,opt,name=experiment_title,json=experimentTitle,proto3" json:"experiment_title,omitempty"`
+	// What measured is: "slope", "e/m", "B/B_theory".
+	ResultName string `protobuf:"bytes,14,opt,name=result_name,json=resultName,proto3" json:"result_name,omitempty"`
+	// Which inputs dominate the uncertainty, largest first.
+	Budget        []*BudgetItem `protobuf:"bytes,15,rep,name=budget,proto3" json:"budget,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *BenchState) Reset() {
 	*x = BenchState{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -617,7 +843,7 @@ func (x *BenchState) String() string {
 func (*BenchState) ProtoMessage() {}
 
 func (x *BenchState) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -630,7 +856,7 @@ func (x *BenchState) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BenchState.ProtoReflect.Descriptor instead.
 func (*BenchState) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{6}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *BenchState) GetBench() *Bench {
@@ -710,6 +936,34 @@ func (x *BenchState) GetPercentDifference() float64 {
 	return 0
 }
 
+func (x *BenchState) GetCaution() string {
+	if x != nil {
+		return x.Caution
+	}
+	return ""
+}
+
+func (x *BenchState) GetExperimentTitle() string {
+	if x != nil {
+		return x.ExperimentTitle
+	}
+	return ""
+}
+
+func (x *BenchState) GetResultName() string {
+	if x != nil {
+		return x.ResultName
+	}
+	return ""
+}
+
+func (x *BenchState) GetBudget() []*BudgetItem {
+	if x != nil {
+		return x.Budget
+	}
+	return nil
+}
+
 // BenchDetail is everything known about one bench.
 type BenchDetail struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -722,7 +976,7 @@ type BenchDetail struct {
 
 func (x *BenchDetail) Reset() {
 	*x = BenchDetail{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -734,7 +988,7 @@ func (x *BenchDetail) String() string {
 func (*BenchDetail) ProtoMessage() {}
 
 func (x *BenchDetail) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -747,7 +1001,7 @@ func (x *BenchDetail) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BenchDetail.ProtoReflect.Descriptor instead.
 func (*BenchDetail) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{7}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *BenchDetail) GetState() *BenchState {
@@ -776,13 +1030,14 @@ type RoomSnapshot struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
 	Session       *Session               `protobuf:"bytes,1,opt,name=session,proto3" json:"session,omitempty"`
 	Benches       []*BenchState          `protobuf:"bytes,2,rep,name=benches,proto3" json:"benches,omitempty"`
+	Findings      []*RoomFinding         `protobuf:"bytes,3,rep,name=findings,proto3" json:"findings,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *RoomSnapshot) Reset() {
 	*x = RoomSnapshot{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -794,7 +1049,7 @@ func (x *RoomSnapshot) String() string {
 func (*RoomSnapshot) ProtoMessage() {}
 
 func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -807,7 +1062,7 @@ func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RoomSnapshot.ProtoReflect.Descriptor instead.
 func (*RoomSnapshot) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{8}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *RoomSnapshot) GetSession() *Session {
@@ -824,6 +1079,13 @@ func (x *RoomSnapshot) GetBenches() []*BenchState {
 	return nil
 }
 
+func (x *RoomSnapshot) GetFindings() []*RoomFinding {
+	if x != nil {
+		return x.Findings
+	}
+	return nil
+}
+
 type JoinBenchRequest struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
 	JoinCode      string                 `protobuf:"bytes,1,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
@@ -834,7 +1096,7 @@ type JoinBenchRequest struct {
 
 func (x *JoinBenchRequest) Reset() {
 	*x = JoinBenchRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -846,7 +1108,7 @@ func (x *JoinBenchRequest) String() string {
 func (*JoinBenchRequest) ProtoMessage() {}
 
 func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -859,7 +1121,7 @@ func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchRequest.ProtoReflect.Descriptor instead.
 func (*JoinBenchRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{9}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *JoinBenchRequest) GetJoinCode() string {
@@ -886,7 +1148,7 @@ type JoinBenchResponse struct {
 
 func (x *JoinBenchResponse) Reset() {
 	*x = JoinBenchResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -898,7 +1160,7 @@ func (x *JoinBenchResponse) String() string {
 func (*JoinBenchResponse) ProtoMessage() {}
 
 func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -911,7 +1173,7 @@ func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchResponse.ProtoReflect.Descriptor instead.
 func (*JoinBenchResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{10}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *JoinBenchResponse) GetSessionId() uint64 {
@@ -940,7 +1202,7 @@ type SubmitReadingRequest struct {
 
 func (x *SubmitReadingRequest) Reset() {
 	*x = SubmitReadingRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -952,7 +1214,7 @@ func (x *SubmitReadingRequest) String() string {
 func (*SubmitReadingRequest) ProtoMessage() {}
 
 func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -965,7 +1227,7 @@ func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingRequest.ProtoReflect.Descriptor instead.
 func (*SubmitReadingRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{11}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *SubmitReadingRequest) GetSessionId() uint64 {
@@ -1008,7 +1270,7 @@ type SubmitReadingResponse struct {
 
 func (x *SubmitReadingResponse) Reset() {
 	*x = SubmitReadingResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1020,7 +1282,7 @@ func (x *SubmitReadingResponse) String() string {
 func (*SubmitReadingResponse) ProtoMessage() {}
 
 func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1033,7 +1295,7 @@ func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingResponse.ProtoReflect.Descriptor instead.
 func (*SubmitReadingResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{12}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *SubmitReadingResponse) GetReading() *Reading {
@@ -1067,7 +1329,7 @@ type GetBenchStateRequest struct {
 
 func (x *GetBenchStateRequest) Reset() {
 	*x = GetBenchStateRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1079,7 +1341,7 @@ func (x *GetBenchStateRequest) String() string {
 func (*GetBenchStateRequest) ProtoMessage() {}
 
 func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1092,7 +1354,7 @@ func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchStateRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{13}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *GetBenchStateRequest) GetSessionId() uint64 {
@@ -1118,7 +1380,7 @@ type GetBenchStateResponse struct {
 
 func (x *GetBenchStateResponse) Reset() {
 	*x = GetBenchStateResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1130,7 +1392,7 @@ func (x *GetBenchStateResponse) String() string {
 func (*GetBenchStateResponse) ProtoMessage() {}
 
 func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1143,7 +1405,7 @@ func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchStateResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{14}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *GetBenchStateResponse) GetState() *BenchState {
@@ -1162,7 +1424,7 @@ type CreateSessionRequest struct {
 
 func (x *CreateSessionRequest) Reset() {
 	*x = CreateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1174,7 +1436,7 @@ func (x *CreateSessionRequest) String() string {
 func (*CreateSessionRequest) ProtoMessage() {}
 
 func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1187,7 +1449,7 @@ func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionRequest.ProtoReflect.Descriptor instead.
 func (*CreateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *CreateSessionRequest) GetTitle() string {
@@ -1206,7 +1468,7 @@ type CreateSessionResponse struct {
 
 func (x *CreateSessionResponse) Reset() {
 	*x = CreateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1218,7 +1480,7 @@ func (x *CreateSessionResponse) String() string {
 func (*CreateSessionResponse) ProtoMessage() {}
 
 func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1231,7 +1493,7 @@ func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionResponse.ProtoReflect.Descriptor instead.
 func (*CreateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *CreateSessionResponse) GetSession() *Session {
@@ -1249,7 +1511,7 @@ type ListSessionsRequest struct {
 
 func (x *ListSessionsRequest) Reset() {
 	*x = ListSessionsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1261,7 +1523,7 @@ func (x *ListSessionsRequest) String() string {
 func (*ListSessionsRequest) ProtoMessage() {}
 
 func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1274,7 +1536,7 @@ func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsRequest.ProtoReflect.Descriptor instead.
 func (*ListSessionsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
 }
 
 type ListSessionsResponse struct {
@@ -1287,7 +1549,7 @@ type ListSessionsResponse struct {
 
 func (x *ListSessionsResponse) Reset() {
 	*x = ListSessionsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1299,7 +1561,7 @@ func (x *ListSessionsResponse) String() string {
 func (*ListSessionsResponse) ProtoMessage() {}
 
 func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1312,7 +1574,7 @@ func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsResponse.ProtoReflect.Descriptor instead.
 func (*ListSessionsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *ListSessionsResponse) GetSessions() []*Session {
@@ -1334,7 +1596,7 @@ type SetBenchesRequest struct {
 
 func (x *SetBenchesRequest) Reset() {
 	*x = SetBenchesRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1346,7 +1608,7 @@ func (x *SetBenchesRequest) String() string {
 func (*SetBenchesRequest) ProtoMessage() {}
 
 func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1359,7 +1621,7 @@ func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesRequest.ProtoReflect.Descriptor instead.
 func (*SetBenchesRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *SetBenchesRequest) GetSessionId() uint64 {
@@ -1386,7 +1648,7 @@ type SetBenchesResponse struct {
 
 func (x *SetBenchesResponse) Reset() {
 	*x = SetBenchesResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1398,7 +1660,7 @@ func (x *SetBenchesResponse) String() string {
 func (*SetBenchesResponse) ProtoMessage() {}
 
 func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1411,7 +1673,7 @@ func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesResponse.ProtoReflect.Descriptor instead.
 func (*SetBenchesResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
 }
 
 func (x *SetBenchesResponse) GetBenches() []*Bench {
@@ -1430,7 +1692,7 @@ type WatchRoomRequest struct {
 
 func (x *WatchRoomRequest) Reset() {
 	*x = WatchRoomRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1442,7 +1704,7 @@ func (x *WatchRoomRequest) String() string {
 func (*WatchRoomRequest) ProtoMessage() {}
 
 func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1455,7 +1717,7 @@ func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomRequest.ProtoReflect.Descriptor instead.
 func (*WatchRoomRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
 }
 
 func (x *WatchRoomRequest) GetSessionId() uint64 {
@@ -1475,6 +1737,7 @@ type WatchRoomResponse struct {
 	//
 	//	*WatchRoomResponse_Snapshot
 	//	*WatchRoomResponse_Bench
+	//	*WatchRoomResponse_Findings
 	Event         isWatchRoomResponse_Event `protobuf_oneof:"event"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -1482,7 +1745,7 @@ type WatchRoomResponse struct {
 
 func (x *WatchRoomResponse) Reset() {
 	*x = WatchRoomResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1494,7 +1757,7 @@ func (x *WatchRoomResponse) String() string {
 func (*WatchRoomResponse) ProtoMessage() {}
 
 func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1507,7 +1770,7 @@ func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomResponse.ProtoReflect.Descriptor instead.
 func (*WatchRoomResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
 }
 
 func (x *WatchRoomResponse) GetSequence() uint64 {
@@ -1542,6 +1805,15 @@ func (x *WatchRoomResponse) GetBench() *BenchState {
 	return nil
 }
 
+func (x *WatchRoomResponse) GetFindings() *RoomFindings {
+	if x != nil {
+		if x, ok := x.Event.(*WatchRoomResponse_Findings); ok {
+			return x.Findings
+		}
+	}
+	return nil
+}
+
 type isWatchRoomResponse_Event interface {
 	isWatchRoomResponse_Event()
 }
@@ -1554,9 +1826,15 @@ type WatchRoomResponse_Bench struct {
 	Bench *BenchState `protobuf:"bytes,3,opt,name=bench,proto3,oneof"`
 }
 
+type WatchRoomResponse_Findings struct {
+	Findings *RoomFindings `protobuf:"bytes,4,opt,name=findings,proto3,oneof"`
+}
+
 func (*WatchRoomResponse_Snapshot) isWatchRoomResponse_Event() {}
 
 func (*WatchRoomResponse_Bench) isWatchRoomResponse_Event() {}
+
+func (*WatchRoomResponse_Findings) isWatchRoomResponse_Event() {}
 
 type GetBenchDetailRequest struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -1568,7 +1846,7 @@ type GetBenchDetailRequest struct {
 
 func (x *GetBenchDetailRequest) Reset() {
 	*x = GetBenchDetailRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1580,7 +1858,7 @@ func (x *GetBenchDetailRequest) String() string {
 func (*GetBenchDetailRequest) ProtoMessage() {}
 
 func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1593,7 +1871,7 @@ func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
 }
 
 func (x *GetBenchDetailRequest) GetSessionId() uint64 {
@@ -1619,7 +1897,7 @@ type GetBenchDetailResponse struct {
 
 func (x *GetBenchDetailResponse) Reset() {
 	*x = GetBenchDetailResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1631,7 +1909,7 @@ func (x *GetBenchDetailResponse) String() string {
 func (*GetBenchDetailResponse) ProtoMessage() {}
 
 func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1644,7 +1922,7 @@ func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
 }
 
 func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
@@ -1691,13 +1969,31 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bsequence\x18\x04 \x01(\x04R\bsequence\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
-	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\x8d\x01\n" +
+	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xa3\x01\n" +
 	"\tDiagnosis\x12\x12\n" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x12\x14\n" +
 	"\x05cause\x18\x02 \x01(\tR\x05cause\x12\x1a\n" +
 	"\bevidence\x18\x03 \x01(\tR\bevidence\x12\x16\n" +
 	"\x06action\x18\x04 \x01(\tR\x06action\x12\"\n" +
-	"\falternatives\x18\x05 \x03(\tR\falternatives\"\xc4\x02\n" +
+	"\falternatives\x18\x05 \x03(\tR\falternatives\x12\x14\n" +
+	"\x05level\x18\x06 \x01(\tR\x05level\"k\n" +
+	"\n" +
+	"BudgetItem\x12\x14\n" +
+	"\x05input\x18\x01 \x01(\tR\x05input\x121\n" +
+	"\x14relative_uncertainty\x18\x02 \x01(\x01R\x13relativeUncertainty\x12\x14\n" +
+	"\x05share\x18\x03 \x01(\x01R\x05share\"\xcb\x01\n" +
+	"\vRoomFinding\x12\x12\n" +
+	"\x04code\x18\x01 \x01(\tR\x04code\x12\x1e\n" +
+	"\n" +
+	"experiment\x18\x02 \x01(\tR\n" +
+	"experiment\x12\x18\n" +
+	"\amessage\x18\x03 \x01(\tR\amessage\x12\x1b\n" +
+	"\tbench_ids\x18\x04 \x03(\x04R\bbenchIds\x12!\n" +
+	"\fmedian_ratio\x18\x05 \x01(\x01R\vmedianRatio\x12\x16\n" +
+	"\x06spread\x18\x06 \x01(\x01R\x06spread\x12\x16\n" +
+	"\x06groups\x18\a \x01(\x05R\x06groups\"D\n" +
+	"\fRoomFindings\x124\n" +
+	"\bfindings\x18\x01 \x03(\v2\x18.fluxroom.v1.RoomFindingR\bfindings\"\xc4\x02\n" +
 	"\x03Fit\x12\x14\n" +
 	"\x05slope\x18\x01 \x01(\x01R\x05slope\x12+\n" +
 	"\x11slope_uncertainty\x18\x02 \x01(\x01R\x10slopeUncertainty\x12\x1c\n" +
@@ -1710,7 +2006,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\xe7\x03\n" +
+	" \x01(\tR\x05yName\"\xfe\x04\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -1724,14 +2020,20 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tpredicted\x18\t \x01(\v2\x15.fluxroom.v1.QuantityR\tpredicted\x12\f\n" +
 	"\x01z\x18\n" +
 	" \x01(\x01R\x01z\x12-\n" +
-	"\x12percent_difference\x18\v \x01(\x01R\x11percentDifference\"\x92\x01\n" +
+	"\x12percent_difference\x18\v \x01(\x01R\x11percentDifference\x12\x18\n" +
+	"\acaution\x18\f \x01(\tR\acaution\x12)\n" +
+	"\x10experiment_title\x18\r \x01(\tR\x0fexperimentTitle\x12\x1f\n" +
+	"\vresult_name\x18\x0e \x01(\tR\n" +
+	"resultName\x12/\n" +
+	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\"\x92\x01\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
-	"\x03fit\x18\x03 \x01(\v2\x10.fluxroom.v1.FitR\x03fit\"q\n" +
+	"\x03fit\x18\x03 \x01(\v2\x10.fluxroom.v1.FitR\x03fit\"\xa7\x01\n" +
 	"\fRoomSnapshot\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\x121\n" +
-	"\abenches\x18\x02 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\"P\n" +
+	"\abenches\x18\x02 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\x124\n" +
+	"\bfindings\x18\x03 \x03(\v2\x18.fluxroom.v1.RoomFindingR\bfindings\"P\n" +
 	"\x10JoinBenchRequest\x12\x1b\n" +
 	"\tjoin_code\x18\x01 \x01(\tR\bjoinCode\x12\x1f\n" +
 	"\vbench_label\x18\x02 \x01(\tR\n" +
@@ -1775,24 +2077,27 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\abenches\x18\x01 \x03(\v2\x12.fluxroom.v1.BenchR\abenches\"1\n" +
 	"\x10WatchRoomRequest\x12\x1d\n" +
 	"\n" +
-	"session_id\x18\x01 \x01(\x04R\tsessionId\"\xa2\x01\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\"\xdb\x01\n" +
 	"\x11WatchRoomResponse\x12\x1a\n" +
 	"\bsequence\x18\x01 \x01(\x04R\bsequence\x127\n" +
 	"\bsnapshot\x18\x02 \x01(\v2\x19.fluxroom.v1.RoomSnapshotH\x00R\bsnapshot\x12/\n" +
-	"\x05bench\x18\x03 \x01(\v2\x17.fluxroom.v1.BenchStateH\x00R\x05benchB\a\n" +
+	"\x05bench\x18\x03 \x01(\v2\x17.fluxroom.v1.BenchStateH\x00R\x05bench\x127\n" +
+	"\bfindings\x18\x04 \x01(\v2\x19.fluxroom.v1.RoomFindingsH\x00R\bfindingsB\a\n" +
 	"\x05event\"Q\n" +
 	"\x15GetBenchDetailRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
 	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"J\n" +
 	"\x16GetBenchDetailResponse\x120\n" +
-	"\x06detail\x18\x01 \x01(\v2\x18.fluxroom.v1.BenchDetailR\x06detail*u\n" +
+	"\x06detail\x18\x01 \x01(\v2\x18.fluxroom.v1.BenchDetailR\x06detail*\x9e\x01\n" +
 	"\aVerdict\x12\x17\n" +
 	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11VERDICT_NEED_DATA\x10\x01\x12\x16\n" +
 	"\x12VERDICT_CONSISTENT\x10\x02\x12\x11\n" +
 	"\rVERDICT_CHECK\x10\x03\x12\x0f\n" +
-	"\vVERDICT_OFF\x10\x04B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
+	"\vVERDICT_OFF\x10\x04\x12\x12\n" +
+	"\x0eVERDICT_UNSAFE\x10\x05\x12\x13\n" +
+	"\x0fVERDICT_STALLED\x10\x06B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
 
 var (
 	file_fluxroom_v1_messages_proto_rawDescOnce sync.Once
@@ -1807,7 +2112,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 28)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 31)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                   // 0: fluxroom.v1.Verdict
 	(*Quantity)(nil),               // 1: fluxroom.v1.Quantity
@@ -1815,67 +2120,74 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*Bench)(nil),                  // 3: fluxroom.v1.Bench
 	(*Reading)(nil),                // 4: fluxroom.v1.Reading
 	(*Diagnosis)(nil),              // 5: fluxroom.v1.Diagnosis
-	(*Fit)(nil),                    // 6: fluxroom.v1.Fit
-	(*BenchState)(nil),             // 7: fluxroom.v1.BenchState
-	(*BenchDetail)(nil),            // 8: fluxroom.v1.BenchDetail
-	(*RoomSnapshot)(nil),           // 9: fluxroom.v1.RoomSnapshot
-	(*JoinBenchRequest)(nil),       // 10: fluxroom.v1.JoinBenchRequest
-	(*JoinBenchResponse)(nil),      // 11: fluxroom.v1.JoinBenchResponse
-	(*SubmitReadingRequest)(nil),   // 12: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),  // 13: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),   // 14: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),  // 15: fluxroom.v1.GetBenchStateResponse
-	(*CreateSessionRequest)(nil),   // 16: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),  // 17: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),    // 18: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),   // 19: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),      // 20: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),     // 21: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),       // 22: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),      // 23: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),  // 24: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil), // 25: fluxroom.v1.GetBenchDetailResponse
-	nil,                            // 26: fluxroom.v1.Bench.ConstantsEntry
-	nil,                            // 27: fluxroom.v1.Reading.ValuesEntry
-	nil,                            // 28: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),  // 29: google.protobuf.Timestamp
+	(*BudgetItem)(nil),             // 6: fluxroom.v1.BudgetItem
+	(*RoomFinding)(nil),            // 7: fluxroom.v1.RoomFinding
+	(*RoomFindings)(nil),           // 8: fluxroom.v1.RoomFindings
+	(*Fit)(nil),                    // 9: fluxroom.v1.Fit
+	(*BenchState)(nil),             // 10: fluxroom.v1.BenchState
+	(*BenchDetail)(nil),            // 11: fluxroom.v1.BenchDetail
+	(*RoomSnapshot)(nil),           // 12: fluxroom.v1.RoomSnapshot
+	(*JoinBenchRequest)(nil),       // 13: fluxroom.v1.JoinBenchRequest
+	(*JoinBenchResponse)(nil),      // 14: fluxroom.v1.JoinBenchResponse
+	(*SubmitReadingRequest)(nil),   // 15: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),  // 16: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),   // 17: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),  // 18: fluxroom.v1.GetBenchStateResponse
+	(*CreateSessionRequest)(nil),   // 19: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),  // 20: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),    // 21: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),   // 22: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),      // 23: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),     // 24: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),       // 25: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),      // 26: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),  // 27: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil), // 28: fluxroom.v1.GetBenchDetailResponse
+	nil,                            // 29: fluxroom.v1.Bench.ConstantsEntry
+	nil,                            // 30: fluxroom.v1.Reading.ValuesEntry
+	nil,                            // 31: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),  // 32: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	29, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
-	26, // 1: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	27, // 2: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	29, // 3: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
-	3,  // 4: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
-	0,  // 5: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
-	5,  // 6: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	29, // 7: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
-	1,  // 8: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
-	1,  // 9: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
-	7,  // 10: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
-	4,  // 11: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
-	6,  // 12: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
-	2,  // 13: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
-	7,  // 14: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
-	3,  // 15: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	28, // 16: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	4,  // 17: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	7,  // 18: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	7,  // 19: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	2,  // 20: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	2,  // 21: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	3,  // 22: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	3,  // 23: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	9,  // 24: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	7,  // 25: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	8,  // 26: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	1,  // 27: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 28: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 29: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	30, // [30:30] is the sub-list for method output_type
-	30, // [30:30] is the sub-list for method input_type
-	30, // [30:30] is the sub-list for extension type_name
-	30, // [30:30] is the sub-list for extension extendee
-	0,  // [0:30] is the sub-list for field type_name
+	32, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	29, // 1: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	30, // 2: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	32, // 3: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	7,  // 4: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
+	3,  // 5: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
+	0,  // 6: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
+	5,  // 7: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
+	32, // 8: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	1,  // 9: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
+	1,  // 10: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
+	6,  // 11: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
+	10, // 12: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
+	4,  // 13: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
+	9,  // 14: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
+	2,  // 15: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
+	10, // 16: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
+	7,  // 17: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
+	3,  // 18: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
+	31, // 19: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	4,  // 20: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	10, // 21: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
+	10, // 22: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	2,  // 23: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	2,  // 24: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	3,  // 25: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	3,  // 26: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	12, // 27: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	10, // 28: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	8,  // 29: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	11, // 30: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	1,  // 31: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 32: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 33: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	34, // [34:34] is the sub-list for method output_type
+	34, // [34:34] is the sub-list for method input_type
+	34, // [34:34] is the sub-list for extension type_name
+	34, // [34:34] is the sub-list for extension extendee
+	0,  // [0:34] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -1883,9 +2195,10 @@ func file_fluxroom_v1_messages_proto_init() {
 	if File_fluxroom_v1_messages_proto != nil {
 		return
 	}
-	file_fluxroom_v1_messages_proto_msgTypes[22].OneofWrappers = []any{
+	file_fluxroom_v1_messages_proto_msgTypes[25].OneofWrappers = []any{
 		(*WatchRoomResponse_Snapshot)(nil),
 		(*WatchRoomResponse_Bench)(nil),
+		(*WatchRoomResponse_Findings)(nil),
 	}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
@@ -1893,7 +2206,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      1,
-			NumMessages:   28,
+			NumMessages:   31,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

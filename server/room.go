@@ -1,0 +1,133 @@
+package server
+
+import (
+	"fmt"
+	"slices"
+	"sync"
+	"time"
+
+	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// rooms caches, per session, what the room-level rules need: every bench's
+// last state and result, the findings and which benches are stalled. It is
+// filled from the store on first use and updated on every change, always
+// under the session's publish lock.
+type rooms struct {
+	mu sync.Mutex
+	m  map[uint64]*roomState
+}
+
+type roomState struct {
+	states   map[uint64]*pb.BenchState
+	results  map[uint64]domain.BenchResult
+	findings []domain.RoomFinding
+	stalled  map[uint64]bool
+}
+
+func (r *rooms) get(sessionID uint64) (*roomState, bool) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	rs, ok := r.m[sessionID]
+	return rs, ok
+}
+
+func (r *rooms) put(sessionID uint64, rs *roomState) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	if r.m == nil {
+		r.m = map[uint64]*roomState{}
+	}
+	r.m[sessionID] = rs
+}
+
+func (r *rooms) sessions() []uint64 {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	ids := make([]uint64, 0, len(r.m))
+	for id := range r.m {
+		ids = append(ids, id)
+	}
+	return ids
+}
+
+// loadRoom judges every bench of a session and caches the room. Call with
+// the session's publish lock held.
+func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
+	if rs, ok := s.rooms.get(sessionID); ok {
+		return rs, nil
+	}
+	benches, err := s.db.Benches(sessionID)
+	if err != nil {
+		return nil, err
+	}
+	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{}}
+	for _, b := range benches {
+		st, a, readings, err := s.benchState(sessionID, b.ID)
+		if err != nil {
+			return nil, err
+		}
+		rs.states[b.ID] = st
+		rs.results[b.ID] = domain.ResultOf(b, a, readings)
+	}
+	rs.findings = domain.RoomFindings(rs.resultList())
+	rs.stalled = domain.StalledBenches(rs.resultList(), s.now(), s.stallAfter)
+	s.rooms.put(sessionID, rs)
+	return rs, nil
+}
+
+func (rs *roomState) resultList() []domain.BenchResult {
+	out := make([]domain.BenchResult, 0, len(rs.results))
+	for _, r := range rs.results {
+		out = append(out, r)
+	}
+	slices.SortFunc(out, func(a, b domain.BenchResult) int { return int(a.BenchID) - int(b.BenchID) })
+	return out
+}
+
+// shown is the state the room shows for a bench: its judged state, or
+// "stalled" when the group stopped while the room moves on.
+func (rs *roomState) shown(id uint64, now time.Time) *pb.BenchState {
+	st := rs.states[id]
+	if !rs.stalled[id] || st == nil {
+		return st
+	}
+	out := proto.Clone(st).(*pb.BenchState)
+	out.Verdict = pb.Verdict_VERDICT_STALLED
+	out.VerdictLabel = domain.Stalled.Label()
+	ago := "a while"
+	if t := st.GetLastReadingAt(); t != nil {
+		ago = fmt.Sprintf("%.0f min", now.Sub(t.AsTime()).Minutes())
+	}
+	out.Reason = fmt.Sprintf("no new reading for %s while the room moves on (last verdict: %s). %s", ago, st.GetVerdictLabel(), st.GetReason())
+	return out
+}
+
+func sameFindings(a, b []domain.RoomFinding) bool {
+	return slices.EqualFunc(a, b, func(x, y domain.RoomFinding) bool {
+		return x.Code == y.Code && x.Message == y.Message && slices.Equal(x.BenchIDs, y.BenchIDs)
+	})
+}
+
+// checkStalls re-evaluates every cached room and publishes the benches
+// whose stalled flag changed. The server runs it on a ticker.
+func (s *Server) checkStalls() {
+	now := s.now()
+	for _, id := range s.rooms.sessions() {
+		mu := s.hub.sessionLock(id)
+		mu.Lock()
+		if rs, ok := s.rooms.get(id); ok {
+			stalled := domain.StalledBenches(rs.resultList(), now, s.stallAfter)
+			for bid := range rs.states {
+				if stalled[bid] != rs.stalled[bid] {
+					rs.stalled[bid] = stalled[bid]
+					s.hub.publish(id, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid, now)}})
+				}
+			}
+		}
+		mu.Unlock()
+	}
+}
