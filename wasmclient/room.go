@@ -24,8 +24,9 @@ const (
 type Room struct {
 	app.Compo
 
-	session *pb.Session
-	benches map[uint64]*pb.BenchState
+	session  *pb.Session
+	benches  map[uint64]*pb.BenchState
+	findings []*pb.RoomFinding
 	lastSeq uint64
 	// link is the state of the stream in words: "connecting", "live", or why
 	// it is reconnecting.
@@ -120,12 +121,15 @@ func (r *Room) apply(ev *pb.WatchRoomResponse) {
 	switch e := ev.Event.(type) {
 	case *pb.WatchRoomResponse_Snapshot:
 		r.session = e.Snapshot.Session
+		r.findings = e.Snapshot.Findings
 		r.benches = make(map[uint64]*pb.BenchState, len(e.Snapshot.Benches))
 		for _, b := range e.Snapshot.Benches {
 			r.benches[b.Bench.BenchId] = b
 		}
 	case *pb.WatchRoomResponse_Bench:
 		r.benches[e.Bench.Bench.BenchId] = e.Bench
+	case *pb.WatchRoomResponse_Findings:
+		r.findings = e.Findings.Findings
 	}
 }
 
@@ -145,10 +149,18 @@ func (r *Room) Render() app.UI {
 			)),
 			app.Div().Class("link").ID("link").Attr("data-link", r.link).Text(r.link),
 		),
+		r.renderUnsafe(),
 		app.Div().Class("grid").ID("room-grid").
 			Style("grid-template-columns", fmt.Sprintf("repeat(%d, minmax(11rem, 1fr))", cols)).
 			Style("grid-template-rows", fmt.Sprintf("repeat(%d, auto)", rows)).
 			Body(app.Range(tiles).Slice(func(i int) app.UI { return tiles[i] })),
+		app.If(len(r.findings) > 0, app.Section().Class("findings").ID("findings").Body(
+			app.H2().Text("Across the room"),
+			app.Ul().Body(app.Range(r.findings).Slice(func(i int) app.UI {
+				f := r.findings[i]
+				return app.Li().Attr("data-code", f.Code).Text(f.Message)
+			})),
+		)),
 		app.Footer().Class("room-foot").Text("Cautions: beam tubes run at hundreds of volts; coils and straight-wire set-ups get hot at high current; strong magnets pinch and affect pacemakers. Follow your institution's safety rules and the equipment maker's limits."),
 	)
 }
@@ -181,8 +193,48 @@ func (r *Room) tiles() (out []*Tile, rows, cols int) {
 	return out, rows, cols
 }
 
+// renderUnsafe is the banner that names every unsafe bench with its
+// caution, above the grid where it cannot be missed.
+func (r *Room) renderUnsafe() app.UI {
+	var items []app.UI
+	for _, t := range r.sortedStates() {
+		if t.GetVerdict() == pb.Verdict_VERDICT_UNSAFE {
+			items = append(items, app.Li().Attr("data-bench", t.GetBench().GetLabel()).Body(
+				app.Strong().Text(t.GetBench().GetLabel()+": "),
+				app.Span().Text(t.GetReason()+" "+t.GetCaution()),
+			))
+		}
+	}
+	if len(items) == 0 {
+		return app.Div().ID("unsafe-none").Hidden(true)
+	}
+	return app.Section().Class("unsafe-banner").ID("unsafe-banner").Aria("live", "assertive").Body(
+		app.H2().Text("⚠ Unsafe setting"),
+		app.Ul().Body(items...),
+	)
+}
+
+func (r *Room) sortedStates() []*pb.BenchState {
+	out := make([]*pb.BenchState, 0, len(r.benches))
+	for _, st := range r.benches {
+		out = append(out, st)
+	}
+	sort.Slice(out, func(i, j int) bool {
+		a, b := out[i].GetBench(), out[j].GetBench()
+		if a.GetRow() != b.GetRow() {
+			return a.GetRow() < b.GetRow()
+		}
+		return a.GetColumn() < b.GetColumn()
+	})
+	return out
+}
+
 func verdictClass(v pb.Verdict) string {
 	switch v {
+	case pb.Verdict_VERDICT_UNSAFE:
+		return "unsafe"
+	case pb.Verdict_VERDICT_STALLED:
+		return "stalled"
 	case pb.Verdict_VERDICT_CONSISTENT:
 		return "consistent"
 	case pb.Verdict_VERDICT_CHECK:

@@ -16,7 +16,7 @@ type Tile struct {
 	Label    string
 	Row      int
 	Column   int
-	Verdict  string // css class: consistent, check, off, need-data
+	Verdict  string // css class: consistent, check, off, need-data, unsafe, stalled
 	Words    string // the verdict in words
 	Reason   string
 	Readings int
@@ -30,6 +30,8 @@ var marks = map[string]string{
 	"check":      "▲",
 	"off":        "✕",
 	"need-data":  "◌",
+	"unsafe":     "⚠",
+	"stalled":    "‖",
 }
 
 // Render draws the tile.

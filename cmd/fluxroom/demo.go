@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"math"
 	"math/rand/v2"
 	"path/filepath"
 	"sort"
@@ -18,6 +17,7 @@ import (
 	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/grpc/status"
 
+	"example.com/fluxroom/domain"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -25,46 +25,55 @@ import (
 // The demo class is invented: an invented polytechnic, room and course.
 const demoTitle = "Kestrel Vale Polytechnic · PHY 142 magnetism lab · room B-214"
 
-// demoBench is one simulated group: the constants the instructor set, and
-// what is really on the bench (which may differ: that is the group's mistake).
+// demoBench is one simulated group at its place in the room.
 type demoBench struct {
 	label    string
 	row, col int32
-	turns    float64
-	length   float64 // m, as set by the instructor
-	field    float64 // T, as set by the instructor
-	// trueScale multiplies the real slope relative to N·B·L as set: the
-	// magnet's real field and the segment's effective length.
-	trueScale float64
-	// offset is the force the sensor shows at zero current (not zeroed).
-	offset  float64
+	group    domain.SimGroup
+	// mistake says, in words, what was seeded ("" for a clean group).
 	mistake string
 }
 
-func demoClass(rng *rand.Rand) []demoBench {
+// demoExperiments gives each column of the room one experiment.
+var demoExperiments = []string{"coil_force", "e_over_m", "straight_wire", "solenoid", "flat_coil"}
+
+// demoMistakes seeds mistakes from the catalogue at some benches; the rest
+// are clean groups with realistic instrument noise.
+var demoMistakes = map[string]string{
+	"A1": domain.CodeSensorNotZeroed,
+	"C1": domain.CodeLengthDoubled,
+	"B2": domain.CodeDiameterAsRadius,
+	"C3": domain.CodeWireBackground,
+	"A4": domain.CodeProbeAtEnd,
+	"B5": domain.CodeCoilWireFormula,
+}
+
+// demoUnsafe is the bench whose heater is turned past its limit mid-run.
+const demoUnsafe = "A2"
+
+func demoClass(seed uint64) ([]demoBench, error) {
 	var out []demoBench
+	t0 := time.Date(2026, 3, 5, 13, 30, 0, 0, time.UTC)
 	for row := int32(0); row < 3; row++ {
-		for col := int32(0); col < 4; col++ {
-			b := demoBench{
-				label: fmt.Sprintf("%c%d", 'A'+row, col+1), row: row, col: col,
-				turns: 100, length: 0.040,
-				// Each magnet was measured on its own: 0.110–0.130 T.
-				field: math.Round((0.110+0.020*rng.Float64())*1000) / 1000,
-				// The real field differs from the label by about 2 %,
-				// and fringing lengthens the segment by about 1 %.
-				trueScale: (1 + 0.02*rng.NormFloat64()) * 1.01,
+		for col := int32(0); col < int32(len(demoExperiments)); col++ {
+			label := fmt.Sprintf("%c%d", 'A'+row, col+1)
+			code := demoMistakes[label]
+			g, err := domain.Simulate(demoExperiments[col], code, rand.New(rand.NewPCG(seed, uint64(row*10+col))), t0)
+			if err != nil {
+				return nil, err
 			}
-			if col%2 == 1 {
-				b.turns = 50
+			b := demoBench{label: label, row: row, col: col, group: g}
+			if code != "" {
+				b.mistake = code
+			}
+			if label == demoUnsafe {
+				g.Readings[4].Values["heater_voltage"] = domain.Quantity{Value: 7.4, Unit: "V"}
+				b.mistake = "heater turned up to 7.4 V on the fifth reading (unsafe)"
 			}
 			out = append(out, b)
 		}
 	}
-	// Seeded mistakes from the catalogue of common lab errors.
-	out[5].offset, out[5].mistake = 0.65, "force sensor not zeroed"             // B2
-	out[10].trueScale, out[10].mistake = 0.5, "shorter coil than the bench's L" // C3
-	out[3].trueScale, out[3].mistake = 0.91, "magnet weaker than its label"     // A4
-	return out
+	return out, nil
 }
 
 func (m *Main) demo(ctx context.Context, args []string) error {
@@ -102,8 +111,10 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	instructor := rpcpb.NewInstructorServiceClient(conn)
 	station := rpcpb.NewStationServiceClient(conn)
 
-	rng := rand.New(rand.NewPCG(*seed, 42))
-	class := demoClass(rng)
+	class, err := demoClass(*seed)
+	if err != nil {
+		return err
+	}
 	sess, err := setUpDemoRoom(ctx, instructor, class)
 	if err != nil {
 		return err
@@ -143,12 +154,8 @@ func setUpDemoRoom(ctx context.Context, in rpcpb.InstructorServiceClient, class 
 	}
 	var benches []*pb.Bench
 	for _, b := range class {
-		benches = append(benches, &pb.Bench{Label: b.label, Row: b.row, Column: b.col, Experiment: "coil_force",
-			Constants: map[string]*pb.Quantity{
-				"turns":          {Value: b.turns, Unit: "1"},
-				"segment_length": {Value: b.length * 100, Unit: "cm"},
-				"gap_field":      {Value: b.field * 1000, Unit: "mT"},
-			}})
+		benches = append(benches, &pb.Bench{Label: b.label, Row: b.row, Column: b.col, Experiment: b.group.Experiment,
+			Constants: quantitiesPB(b.group.Bench.Constants)})
 	}
 	if _, err := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: benches}); err != nil {
 		return nil, fmt.Errorf("set demo benches: %w", err)
@@ -156,9 +163,8 @@ func setUpDemoRoom(ctx context.Context, in rpcpb.InstructorServiceClient, class 
 	return cs.Session, nil
 }
 
-// simulateBench joins like a station laptop and submits a run of readings
-// from 0 to 5 A with realistic instrument noise: a force sensor with 1 mN
-// resolution and about 4 mN of scatter, an ammeter read to 0.01 A.
+// simulateBench joins like a station laptop and submits the group's
+// simulated readings one at a time, at the class's pace.
 func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code string, b demoBench, pace time.Duration, rng *rand.Rand) error {
 	if err := sleep(ctx, time.Duration(rng.Float64()*3*float64(pace))); err != nil {
 		return err
@@ -167,17 +173,9 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 	if err != nil {
 		return err
 	}
-	slope := b.turns * b.field * b.length * b.trueScale
-	for i := 0; i <= 10; i++ {
-		I := 0.5 * float64(i)
-		shownI := math.Round((I+0.005*rng.NormFloat64())*100) / 100
-		F := math.Round((slope*I+b.offset+0.004*rng.NormFloat64())*1000) / 1000
+	for i, r := range b.group.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i),
-			Values: map[string]*pb.Quantity{
-				"current": {Value: shownI, Unit: "A"},
-				"force":   {Value: F, Unit: "N"},
-			}}
+			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: quantitiesPB(r.Values)}
 		if err := submitWithRetry(ctx, st, req); err != nil {
 			return err
 		}
@@ -186,6 +184,14 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 		}
 	}
 	return nil
+}
+
+func quantitiesPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
+	out := make(map[string]*pb.Quantity, len(m))
+	for k, q := range m {
+		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+	}
+	return out
 }
 
 // submitWithRetry resends a reading until the server answers; the reading id
@@ -291,7 +297,7 @@ func roomSummary(now time.Time, states map[uint64]*pb.BenchState) string {
 		if s.LastReadingAt != nil {
 			ago = fmt.Sprintf("%.0f s ago", now.Sub(s.LastReadingAt.AsTime()).Seconds())
 		}
-		fmt.Fprintf(&sb, "  %-4s %-10s %2d readings  %-9s %s\n", s.Bench.Label, s.VerdictLabel, s.ReadingCount, ago, s.Reason)
+		fmt.Fprintf(&sb, "  %-4s %-13s %-10s %2d readings  %-9s %s\n", s.Bench.Label, s.Bench.Experiment, s.VerdictLabel, s.ReadingCount, ago, s.Reason)
 	}
 	return sb.String()
 }

@@ -3,11 +3,14 @@ package main
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"io"
 	"regexp"
 	"strings"
 	"sync"
 	"testing"
+
+	"example.com/fluxroom/domain"
 )
 
 // lockedBuffer is a bytes.Buffer safe for the demo's printing goroutine.
@@ -28,9 +31,9 @@ func (l *lockedBuffer) String() string {
 	return l.b.String()
 }
 
-// TestDemoRunsAClass runs the real demo command at a fast pace: twelve
-// simulated benches join and submit over native gRPC, and the last room
-// summary shows the seeded mistakes where they were seeded.
+// TestDemoRunsAClass runs the real demo command at a fast pace: fifteen
+// simulated benches on five experiments join and submit over native gRPC,
+// and the last room summary shows each seeded mistake where it was seeded.
 func TestDemoRunsAClass(t *testing.T) {
 	var out lockedBuffer
 	m := NewMain(&out, io.Discard)
@@ -50,26 +53,50 @@ func TestDemoRunsAClass(t *testing.T) {
 			lines[f[0]] = l
 		}
 	}
-	if len(lines) != 12 {
-		t.Fatalf("last summary has %d benches, want 12:\n%s", len(lines), last)
+	if len(lines) != 15 {
+		t.Fatalf("last summary has %d benches, want 15:\n%s", len(lines), last)
 	}
-	for _, tc := range []struct{ bench, want string }{
-		{"B2", "check"}, // force sensor not zeroed
-		{"C3", "off"},   // shorter coil than the bench's L
-		{"A4", "check"}, // magnet weaker than its label
-		{"A1", "consistent"},
-		{"C4", "consistent"},
-	} {
-		if f := strings.Fields(lines[tc.bench]); len(f) < 2 || f[1] != tc.want {
-			t.Errorf("%s: %q, want verdict %s", tc.bench, lines[tc.bench], tc.want)
+	for label, l := range lines {
+		f := strings.Fields(l)
+		want, code := "consistent", demoMistakes[label]
+		switch {
+		case label == demoUnsafe:
+			want = "unsafe"
+		case code == domain.CodeLengthDoubled || code == domain.CodeProbeAtEnd || code == domain.CodeWireBackground:
+			want = "off"
+		case code != "":
+			want = "check"
+		}
+		if len(f) < 3 || f[2] != want {
+			t.Errorf("%s: %q, want verdict %s", label, l, want)
+		}
+		if code != "" && !strings.Contains(l, causeOf(code)) {
+			t.Errorf("%s: reason does not name the seeded cause %q: %q", label, causeOf(code), l)
+		}
+		if !strings.Contains(l, fmt.Sprintf("%d readings", readingsOf(t, label))) {
+			t.Errorf("%s did not finish its run: %q", label, l)
 		}
 	}
-	if !strings.Contains(lines["B2"], "not zeroed") {
-		t.Errorf("B2 reason does not name the skipped zero: %q", lines["B2"])
-	}
-	for b, l := range lines {
-		if !strings.Contains(l, "11 readings") {
-			t.Errorf("%s did not finish its run of 11 readings: %q", b, l)
+}
+
+func causeOf(code string) string {
+	for _, e := range domain.Catalogue() {
+		if e.Code == code {
+			return e.Cause
 		}
 	}
+	return code
+}
+
+func readingsOf(t *testing.T, label string) int {
+	class, err := demoClass(2026)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, b := range class {
+		if b.label == label {
+			return len(b.group.Readings)
+		}
+	}
+	return -1
 }

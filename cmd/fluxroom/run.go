@@ -50,6 +50,9 @@ const helpText = `fluxroom: live oversight for magnetism teaching labs.
 Commands:
   serve   run the server: native gRPC for stations, the dashboard for instructors
   demo    run the server with a simulated class of benches, and print the room
+  analyze judge a readings CSV with the same engine: fluxroom analyze [--json] FILE.csv
+  submit  send a readings CSV to a live session: fluxroom submit --server HOST:PORT --code CODE --bench LABEL FILE.csv
+  catalogue list every diagnosis code with its cause and suggested action
   help    show this text
 
 Run "fluxroom COMMAND -h" for a command's flags. Every flag can also be set
@@ -68,6 +71,12 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.serve(ctx, args[1:])
 	case "demo":
 		return m.demo(ctx, args[1:])
+	case "analyze":
+		return m.analyzeCmd(ctx, args[1:])
+	case "submit":
+		return m.submitCmd(ctx, args[1:])
+	case "catalogue":
+		return m.catalogueCmd(ctx, args[1:])
 	case "help", "-h", "--help":
 		fmt.Fprint(m.Stdout, helpText)
 		return nil
@@ -83,8 +92,20 @@ func (m *Main) newFlags(name string) *flag.FlagSet {
 	return fs
 }
 
-// parse parses args after applying FLUXROOM_* environment defaults.
+// parse parses args after applying FLUXROOM_* environment defaults and
+// allows no positional arguments.
 func parse(fs *flag.FlagSet, args []string) error {
+	if err := parseArgs(fs, args); err != nil {
+		return err
+	}
+	if fs.NArg() > 0 {
+		return usageError{fmt.Sprintf("%s: unexpected argument %q", fs.Name(), fs.Arg(0))}
+	}
+	return nil
+}
+
+// parseArgs parses args after applying FLUXROOM_* environment defaults.
+func parseArgs(fs *flag.FlagSet, args []string) error {
 	var envErr error
 	fs.VisitAll(func(f *flag.Flag) {
 		key := "FLUXROOM_" + strings.ToUpper(strings.ReplaceAll(f.Name, "-", "_"))
@@ -102,9 +123,6 @@ func parse(fs *flag.FlagSet, args []string) error {
 			return usageError{"help shown"}
 		}
 		return usageError{err.Error()}
-	}
-	if fs.NArg() > 0 {
-		return usageError{fmt.Sprintf("%s: unexpected argument %q", fs.Name(), fs.Arg(0))}
 	}
 	return nil
 }

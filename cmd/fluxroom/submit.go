@@ -1,0 +1,92 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials/insecure"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+)
+
+// submitCmd sends a CSV's rows for one bench to a live session as readings
+// over native gRPC. Each row's reading id comes from its content, so running
+// it twice stores nothing twice.
+func (m *Main) submitCmd(ctx context.Context, args []string) error {
+	fs := m.newFlags("submit")
+	addr := fs.String("server", "127.0.0.1:8080", "the fluxroom server, host:port")
+	code := fs.String("code", "", "the session's join code")
+	bench := fs.String("bench", "", "the bench label; rows of other benches are skipped")
+	if err := parseArgs(fs, args); err != nil {
+		return err
+	}
+	switch {
+	case fs.NArg() != 1:
+		return usageError{"submit: give one readings CSV file"}
+	case *code == "":
+		return usageError{"submit: --code is required (the join code on the instructor's screen)"}
+	case *bench == "":
+		return usageError{"submit: --bench is required"}
+	}
+	f, err := os.Open(fs.Arg(0))
+	if err != nil {
+		return err
+	}
+	benches, errs, err := readCSV(f)
+	f.Close()
+	if err != nil {
+		return fmt.Errorf("%s: %w", fs.Arg(0), err)
+	}
+	for _, e := range errs {
+		fmt.Fprintf(m.Stderr, "%s: %s (not sent)\n", fs.Arg(0), e)
+	}
+	var rows *csvBench
+	for _, b := range benches {
+		if b.label == *bench || len(benches) == 1 && b.label == "bench" {
+			rows = b
+		}
+	}
+	if rows == nil {
+		return fmt.Errorf("%s has no rows for bench %q", fs.Arg(0), *bench)
+	}
+	conn, err := grpc.NewClient(*addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	st := rpcpb.NewStationServiceClient(conn)
+	cctx, cancel := context.WithTimeout(ctx, 30*time.Second)
+	defer cancel()
+	join, err := st.JoinBench(cctx, &pb.JoinBenchRequest{JoinCode: *code, BenchLabel: *bench})
+	if err != nil {
+		return fmt.Errorf("join bench %s: %w", *bench, err)
+	}
+	if join.Bench.Experiment != rows.bench.Experiment {
+		return fmt.Errorf("bench %s is set up for %s, but the file's rows are %s", *bench, join.Bench.Experiment, rows.bench.Experiment)
+	}
+	var stored, dup int
+	var last *pb.SubmitReadingResponse
+	for i, r := range rows.readings {
+		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
+			ReadingId: "csv-" + rows.keys[i], Values: quantitiesPB(r.Values)}
+		last, err = st.SubmitReading(cctx, req)
+		if err != nil {
+			return fmt.Errorf("line %d: %w", rows.lines[i], err)
+		}
+		if last.Duplicate {
+			dup++
+		} else {
+			stored++
+		}
+	}
+	fmt.Fprintf(m.Stdout, "bench %s: %d readings stored, %d already there; now %s: %s\n", *bench, stored, dup,
+		last.GetState().GetVerdictLabel(), last.GetState().GetReason())
+	if len(errs) > 0 {
+		return fmt.Errorf("%d bad rows or cells were not sent", len(errs))
+	}
+	return nil
+}
