@@ -27,7 +27,7 @@ type Room struct {
 	session  *pb.Session
 	benches  map[uint64]*pb.BenchState
 	findings []*pb.RoomFinding
-	lastSeq uint64
+	lastSeq  uint64
 	// link is the state of the stream in words: "connecting", "live", or why
 	// it is reconnecting.
 	link string
