@@ -169,3 +169,30 @@ func TestUnits(t *testing.T) {
 		}
 	}
 }
+
+// TestEOverMLinearForms: readings of the derived table on one line of each
+// form give CODATA back from the fitted slope [derived from PHYSICS.md §2(b)].
+func TestEOverMLinearForms(t *testing.T) {
+	b, _ := ValidateBench("b", Bench{Label: "E1", Experiment: "e_over_m"})
+	var rs []Reading
+	add := func(V, I float64) {
+		d := 2 * orbitRadius(V, I)
+		rs = append(rs, Reading{Values: map[string]Quantity{"anode_voltage": qty(V, "V"), "coil_current": qty(I, "A"), "beam_diameter": qty(d, "m")}})
+	}
+	for _, V := range []float64{150, 200, 250, 300} {
+		add(V, 1.5)
+	}
+	for _, I := range []float64{1.2, 1.8, 2.0} {
+		add(200, I)
+	}
+	a := Assess(b, rs, DefaultTolerance)
+	var forms int
+	for _, n := range a.Notes {
+		if contains(n, "r² against V at 1.50 A (4 points): e/m (1.758820") || contains(n, "1/r against I at 200 V (4 points): e/m (1.758820") {
+			forms++
+		}
+	}
+	if forms != 2 {
+		t.Errorf("notes = %q, want both linear forms giving 1.7588e11", a.Notes)
+	}
+}

@@ -102,6 +102,9 @@ type Assessment struct {
 	Budget []BudgetItem
 	// Caution is the safety text for an unsafe bench.
 	Caution string
+	// Notes are further results in words, such as an experiment's linear
+	// forms fitted on their own.
+	Notes []string
 	// Fit is the line fitted to the readings, when there is one.
 	Fit *Fit
 	// FitX and FitY name the fitted values; their units are SI.

@@ -72,6 +72,7 @@ func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
 		Caution:           a.Caution,
 		ExperimentTitle:   a.ExperimentTitle,
 		ResultName:        a.ResultName,
+		Notes:             a.Notes,
 	}
 	for _, b := range a.Budget {
 		st.Budget = append(st.Budget, &pb.BudgetItem{Input: b.Input, RelativeUncertainty: b.RelU, Share: b.Share})

@@ -49,6 +49,7 @@ type analyzeBench struct {
 	Reason      string             `json:"reason"`
 	Caution     string             `json:"caution,omitempty"`
 	Diagnoses   []analyzeDiagnosis `json:"diagnoses"`
+	Notes       []string           `json:"notes"`
 }
 
 type analyzeFinding struct {
@@ -77,7 +78,7 @@ func analyze(r io.Reader) (analyzeReport, error) {
 		results = append(results, domain.ResultOf(b.bench, a, b.readings))
 		ab := analyzeBench{Bench: b.label, Experiment: b.bench.Experiment, Readings: a.ReadingCount, Z: a.Z,
 			PercentDiff: a.PercentDiff, Verdict: a.Verdict.Label(), Reason: a.Reason, Caution: a.Caution,
-			Diagnoses: []analyzeDiagnosis{}}
+			Diagnoses: []analyzeDiagnosis{}, Notes: append([]string{}, a.Notes...)}
 		if a.ResultUnit != "" {
 			ab.Result = &analyzeValue{Name: a.ResultName, Value: a.Measured.Value, Uncertainty: a.Measured.Uncertainty, Unit: a.ResultUnit}
 			ab.Prediction = &analyzeValue{Value: a.Predicted.Value, Uncertainty: a.Predicted.Uncertainty, Unit: a.ResultUnit}

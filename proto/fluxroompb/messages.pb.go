@@ -824,7 +824,9 @@ type BenchState struct {
 	// What measured is: "slope", "e/m", "B/B_theory".
 	ResultName string `protobuf:"bytes,14,opt,name=result_name,json=resultName,proto3" json:"result_name,omitempty"`
 	// Which inputs dominate the uncertainty, largest first.
-	Budget        []*BudgetItem `protobuf:"bytes,15,rep,name=budget,proto3" json:"budget,omitempty"`
+	Budget []*BudgetItem `protobuf:"bytes,15,rep,name=budget,proto3" json:"budget,omitempty"`
+	// Further results in words, such as an experiment's linear forms.
+	Notes         []string `protobuf:"bytes,16,rep,name=notes,proto3" json:"notes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -960,6 +962,13 @@ func (x *BenchState) GetResultName() string {
 func (x *BenchState) GetBudget() []*BudgetItem {
 	if x != nil {
 		return x.Budget
+	}
+	return nil
+}
+
+func (x *BenchState) GetNotes() []string {
+	if x != nil {
+		return x.Notes
 	}
 	return nil
 }
@@ -2006,7 +2015,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\xfe\x04\n" +
+	" \x01(\tR\x05yName\"\x94\x05\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -2025,7 +2034,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x10experiment_title\x18\r \x01(\tR\x0fexperimentTitle\x12\x1f\n" +
 	"\vresult_name\x18\x0e \x01(\tR\n" +
 	"resultName\x12/\n" +
-	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\"\x92\x01\n" +
+	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\x12\x14\n" +
+	"\x05notes\x18\x10 \x03(\tR\x05notes\"\x92\x01\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
