@@ -16,6 +16,81 @@ type Session struct {
 	Title     string
 	JoinCode  string
 	CreatedAt time.Time
+	// Tolerance is the session's verdict rule; the zero value means
+	// DefaultTolerance.
+	Tolerance Tolerance
+	// StationsSeeVerdicts lets a bench's laptop see its own verdict and hint.
+	StationsSeeVerdicts bool
+}
+
+// EffectiveTolerance is the session's tolerance with defaults filled in.
+func (s Session) EffectiveTolerance() Tolerance {
+	t := s.Tolerance
+	d := DefaultTolerance
+	if t.ZConsistent == 0 {
+		t.ZConsistent = d.ZConsistent
+	}
+	if t.ZOff == 0 {
+		t.ZOff = d.ZOff
+	}
+	if t.GoodPercent == 0 {
+		t.GoodPercent = d.GoodPercent
+	}
+	if t.AcceptablePercent == 0 {
+		t.AcceptablePercent = d.AcceptablePercent
+	}
+	return t
+}
+
+// ValidateTolerance checks a tolerance profile; zero fields mean "default".
+func ValidateTolerance(prefix string, t Tolerance) error {
+	var vs violations
+	e := t
+	full := Session{Tolerance: t}.EffectiveTolerance()
+	for _, f := range []struct {
+		name string
+		v    float64
+		max  float64
+	}{{"z_consistent", e.ZConsistent, 10}, {"z_off", e.ZOff, 20}, {"good_percent", e.GoodPercent, 100}, {"acceptable_percent", e.AcceptablePercent, 100}} {
+		if math.IsNaN(f.v) || f.v < 0 || f.v > f.max {
+			vs.add(prefix+"."+f.name, "must be between 0 (the default) and %g, got %v", f.max, f.v)
+		}
+	}
+	if len(vs) == 0 && full.ZOff < full.ZConsistent {
+		vs.add(prefix+".z_off", "must be at least z_consistent (%g), got %g", full.ZConsistent, full.ZOff)
+	}
+	if len(vs) == 0 && full.AcceptablePercent < full.GoodPercent {
+		vs.add(prefix+".acceptable_percent", "must be at least good_percent (%g), got %g", full.GoodPercent, full.AcceptablePercent)
+	}
+	return vs.err()
+}
+
+// Note is an instructor's note or acknowledgement on a bench.
+type Note struct {
+	BenchID uint64
+	// Kind is NoteKindNote or NoteKindAcknowledged.
+	Kind   string
+	Text   string
+	Author string
+	At     time.Time
+}
+
+// Note kinds.
+const (
+	NoteKindNote         = "note"
+	NoteKindAcknowledged = "acknowledged"
+)
+
+// ValidateNote checks a note's text and author.
+func ValidateNote(n Note) error {
+	var vs violations
+	if t := strings.TrimSpace(n.Text); n.Kind == NoteKindNote && (t == "" || utf8.RuneCountInString(t) > 1000 || !utf8.ValidString(t)) {
+		vs.add("text", "must be 1–1000 characters")
+	}
+	if utf8.RuneCountInString(n.Author) > 80 || !utf8.ValidString(n.Author) {
+		vs.add("author", "must be at most 80 characters")
+	}
+	return vs.err()
 }
 
 // Bench is one station in the room with its equipment constants, as typed.
@@ -34,6 +109,19 @@ type Reading struct {
 	Values     map[string]Quantity
 	ReceivedAt time.Time
 	Sequence   uint64
+	// Supersedes is the id of an earlier reading this one corrects.
+	Supersedes string
+}
+
+// Superseded returns the ids of readings that a later reading corrects.
+func Superseded(rs []Reading) map[string]bool {
+	out := map[string]bool{}
+	for _, r := range rs {
+		if r.Supersedes != "" {
+			out[r.Supersedes] = true
+		}
+	}
+	return out
 }
 
 // QuantitySpec declares one bench constant or one reading value of an

@@ -128,7 +128,11 @@ func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
 	}
 	rs := make([]siReading, 0, len(readings))
 	var last time.Time
+	gone := Superseded(readings)
 	for _, r := range readings {
+		if gone[r.ID] {
+			continue // corrected by a later reading; kept for the record
+		}
 		v, err := e.convertReading("values", r.Values)
 		if err != nil {
 			continue // rejected at submission; never stored

@@ -25,8 +25,14 @@ func quantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
 	return out
 }
 
+func toleranceFromPB(t *pb.Tolerance) domain.Tolerance {
+	return domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()}
+}
+
 func sessionToPB(s domain.Session) *pb.Session {
-	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode}
+	t := s.EffectiveTolerance()
+	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, StationsSeeVerdicts: s.StationsSeeVerdicts,
+		Tolerance: &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
 	if !s.CreatedAt.IsZero() {
 		out.CreatedAt = timestamppb.New(s.CreatedAt)
 	}
@@ -44,7 +50,7 @@ func benchToPB(b domain.Bench) *pb.Bench {
 }
 
 func readingToPB(r domain.Reading) *pb.Reading {
-	out := &pb.Reading{ReadingId: r.ID, Values: quantitiesToPB(r.Values), Sequence: r.Sequence}
+	out := &pb.Reading{ReadingId: r.ID, Values: quantitiesToPB(r.Values), Sequence: r.Sequence, Supersedes: r.Supersedes}
 	if !r.ReceivedAt.IsZero() {
 		out.ReceivedAt = timestamppb.New(r.ReceivedAt)
 	}
@@ -116,6 +122,33 @@ func findingsToPB(fs []domain.RoomFinding) []*pb.RoomFinding {
 	for _, f := range fs {
 		out = append(out, &pb.RoomFinding{Code: f.Code, Experiment: f.Experiment, Message: f.Message, BenchIds: f.BenchIDs,
 			MedianRatio: f.MedianRatio, Spread: f.Spread, Groups: int32(f.Groups)})
+	}
+	return out
+}
+
+func noteToPB(n domain.Note) *pb.Note {
+	out := &pb.Note{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author}
+	if !n.At.IsZero() {
+		out.At = timestamppb.New(n.At)
+	}
+	return out
+}
+
+func specsToPB(specs []domain.QuantitySpec) []*pb.QuantitySpec {
+	out := make([]*pb.QuantitySpec, 0, len(specs))
+	for _, s := range specs {
+		out = append(out, &pb.QuantitySpec{Name: s.Name, Label: s.Label, Unit: s.Unit, Units: domain.UnitsFor(s.Dim),
+			DefaultValue: s.Default, Optional: s.Optional})
+	}
+	return out
+}
+
+func experimentsToPB() []*pb.ExperimentSpec {
+	var out []*pb.ExperimentSpec
+	for _, id := range domain.ExperimentIDs() {
+		e, _ := domain.LookupExperiment(id)
+		out = append(out, &pb.ExperimentSpec{Id: e.ID, Title: e.Title, Constants: specsToPB(e.Constants),
+			Values: specsToPB(e.Values), MinReadings: int32(e.MinReadings)})
 	}
 	return out
 }

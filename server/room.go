@@ -44,6 +44,12 @@ func (r *rooms) put(sessionID uint64, rs *roomState) {
 	r.m[sessionID] = rs
 }
 
+func (r *rooms) drop(sessionID uint64) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	delete(r.m, sessionID)
+}
+
 func (r *rooms) sessions() []uint64 {
 	r.mu.Lock()
 	defer r.mu.Unlock()

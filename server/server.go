@@ -216,8 +216,86 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}
-	a := domain.Assess(b, rs, s.tol)
-	return stateToPB(b, a), a, rs, nil
+	sess, err := s.db.Session(sessionID)
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
+	}
+	tol := s.tol
+	if sess.Tolerance != (domain.Tolerance{}) {
+		tol = sess.EffectiveTolerance()
+	}
+	a := domain.Assess(b, rs, tol)
+	st := stateToPB(b, a)
+	if a.Verdict == domain.Unsafe {
+		notes, err := s.db.Notes(sessionID)
+		if err != nil {
+			return nil, domain.Assessment{}, nil, err
+		}
+		for _, n := range notes {
+			if n.BenchID == benchID && n.Kind == domain.NoteKindAcknowledged && !n.At.Before(a.LastReadingAt) {
+				st.AlertAcknowledged = true
+			}
+		}
+	}
+	return st, a, rs, nil
+}
+
+// checkSupersedes makes sure a correction names an earlier reading of the
+// same bench.
+func (s *Server) checkSupersedes(sessionID, benchID uint64, readingID, supersedes string) error {
+	if err := domain.ValidateReadingID("supersedes", supersedes); err != nil {
+		return err
+	}
+	if supersedes == readingID {
+		return domain.Invalid("supersedes", "a reading cannot correct itself")
+	}
+	_, rs, err := s.db.BenchReadings(sessionID, benchID)
+	if err != nil {
+		return err
+	}
+	for _, r := range rs {
+		if r.ID == supersedes {
+			return nil
+		}
+	}
+	return domain.Invalid("supersedes", "bench %d has no reading %q to correct", benchID, supersedes)
+}
+
+// note stores an audit-log entry and republishes the bench, whose alert
+// state may have changed.
+func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
+	if _, err := s.bench(sessionID, n.BenchID); err != nil {
+		return nil, err
+	}
+	if err := domain.ValidateNote(n); err != nil {
+		return nil, err
+	}
+	if err := s.db.AppendNote(sessionID, n); err != nil {
+		return nil, err
+	}
+	if _, err := s.publishBench(sessionID, n.BenchID); err != nil {
+		return nil, err
+	}
+	return noteToPB(n), nil
+}
+
+// rejudgeRoom drops a session's cached room and judges every bench again,
+// after a change that affects them all (the tolerance profile).
+func (s *Server) rejudgeRoom(sessionID uint64) error {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	s.rooms.drop(sessionID)
+	mu.Unlock()
+	benches, err := s.db.Benches(sessionID)
+	if err != nil {
+		return err
+	}
+	for _, b := range benches {
+		if _, err := s.publishBench(sessionID, b.ID); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // publishBench judges a bench after a change and sends its state, and the

@@ -5,6 +5,7 @@ import (
 	"crypto/rand"
 	"errors"
 	"fmt"
+	"sort"
 	"strings"
 	"unicode/utf8"
 
@@ -65,7 +66,12 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	if err := domain.ValidateReading("values", bench, values); err != nil {
 		return nil, err
 	}
-	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now()}
+	if sup := req.GetSupersedes(); sup != "" {
+		if err := st.s.checkSupersedes(req.GetSessionId(), req.GetBenchId(), req.GetReadingId(), sup); err != nil {
+			return nil, err
+		}
+	}
+	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now(), Supersedes: req.GetSupersedes()}
 	stored, dup, err := st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
 	if err != nil {
 		return nil, err
@@ -78,11 +84,34 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 }
 
 func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
-	state, _, _, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
+	state, _, rs, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
 		return nil, err
 	}
-	return &pb.GetBenchStateResponse{State: state}, nil
+	sess, err := st.s.db.Session(req.GetSessionId())
+	if err != nil {
+		return nil, err
+	}
+	out := &pb.GetBenchStateResponse{State: forStation(state, sess.StationsSeeVerdicts)}
+	for _, r := range rs {
+		out.Readings = append(out.Readings, readingToPB(r))
+	}
+	return out, nil
+}
+
+// forStation is what a bench's own laptop sees of its state: everything
+// when the session allows it, otherwise its bench and progress only. An
+// unsafe verdict and its caution are always shown: safety is not a grade.
+func forStation(st *pb.BenchState, seeVerdicts bool) *pb.BenchState {
+	if seeVerdicts || st.GetVerdict() == pb.Verdict_VERDICT_UNSAFE {
+		return st
+	}
+	return &pb.BenchState{Bench: st.GetBench(), ReadingCount: st.GetReadingCount(), LastReadingAt: st.GetLastReadingAt(),
+		ExperimentTitle: st.GetExperimentTitle(), VerdictLabel: "shown after class", Verdict: pb.Verdict_VERDICT_UNSPECIFIED}
+}
+
+func (st stationService) ListExperiments(ctx context.Context, req *pb.ListExperimentsRequest) (*pb.ListExperimentsResponse, error) {
+	return &pb.ListExperimentsResponse{Experiments: experimentsToPB()}, nil
 }
 
 // joinCodeAlphabet leaves out 0/O and 1/I/L, which are misread on a projector.
@@ -102,8 +131,13 @@ func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSes
 	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) {
 		return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
 	}
+	tol := toleranceFromPB(req.GetTolerance())
+	if err := domain.ValidateTolerance("tolerance", tol); err != nil {
+		return nil, err
+	}
 	for range 5 {
-		s, err := in.s.db.CreateSession(domain.Session{Title: title, JoinCode: newJoinCode(), CreatedAt: in.s.now()})
+		s, err := in.s.db.CreateSession(domain.Session{Title: title, JoinCode: newJoinCode(), CreatedAt: in.s.now(),
+			Tolerance: tol, StationsSeeVerdicts: req.GetStationsSeeVerdicts()})
 		if errors.Is(err, store.ErrConflict) {
 			continue // a join code clash: draw another
 		}
@@ -237,5 +271,67 @@ func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBench
 	for _, r := range rs {
 		d.Readings = append(d.Readings, readingToPB(r))
 	}
+	for id := range domain.Superseded(rs) {
+		d.Superseded = append(d.Superseded, id)
+	}
+	sort.Strings(d.Superseded)
+	notes, err := in.s.db.Notes(req.GetSessionId())
+	if err != nil {
+		return nil, err
+	}
+	for _, n := range notes {
+		if n.BenchID == req.GetBenchId() {
+			d.Notes = append(d.Notes, noteToPB(n))
+		}
+	}
 	return &pb.GetBenchDetailResponse{Detail: d}, nil
+}
+
+func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSessionRequest) (*pb.UpdateSessionResponse, error) {
+	sess, err := in.s.db.Session(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	if t := strings.TrimSpace(req.GetTitle()); t != "" {
+		if utf8.RuneCountInString(t) > 80 || !utf8.ValidString(t) {
+			return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
+		}
+		sess.Title = t
+	}
+	sess.Tolerance = toleranceFromPB(req.GetTolerance())
+	if err := domain.ValidateTolerance("tolerance", sess.Tolerance); err != nil {
+		return nil, err
+	}
+	sess.StationsSeeVerdicts = req.GetStationsSeeVerdicts()
+	sess, err = in.s.db.UpdateSession(sess)
+	if err != nil {
+		return nil, err
+	}
+	if err := in.s.rejudgeRoom(sess.ID); err != nil {
+		return nil, err
+	}
+	return &pb.UpdateSessionResponse{Session: sessionToPB(sess)}, nil
+}
+
+func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest) (*pb.AddNoteResponse, error) {
+	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindNote, Text: strings.TrimSpace(req.GetText()),
+		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}
+	note, err := in.s.note(req.GetSessionId(), n)
+	if err != nil {
+		return nil, err
+	}
+	return &pb.AddNoteResponse{Note: note}, nil
+}
+
+func (in instructorService) AcknowledgeAlert(ctx context.Context, req *pb.AcknowledgeAlertRequest) (*pb.AcknowledgeAlertResponse, error) {
+	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindAcknowledged, Text: "unsafe alert acknowledged",
+		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}
+	note, err := in.s.note(req.GetSessionId(), n)
+	if err != nil {
+		return nil, err
+	}
+	return &pb.AcknowledgeAlertResponse{Note: note}, nil
 }

@@ -23,8 +23,11 @@ var (
 	bucketReadings = []byte("readings")
 	// bucketReadingIDs: readingIDKey → reading sequence (uint64 big-endian).
 	bucketReadingIDs = []byte("reading_ids")
+	// bucketEvents: eventKey → recordpb.Event, a session's audit log of
+	// notes and acknowledged alerts. Append-only.
+	bucketEvents = []byte("events")
 
-	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketReadingIDs}
+	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketReadingIDs, bucketEvents}
 
 	keySchemaVersion = []byte("schema_version")
 )
@@ -85,4 +88,12 @@ func readingIDKey(sessionID, benchID uint64, readingID string) []byte {
 	binary.BigEndian.PutUint64(k[0:8], sessionID)
 	binary.BigEndian.PutUint64(k[8:16], benchID)
 	return append(k, readingID...)
+}
+
+// eventKey is session id (0–7) | sequence (8–15), big-endian.
+func eventKey(sessionID, seq uint64) []byte {
+	k := make([]byte, 16)
+	binary.BigEndian.PutUint64(k[0:8], sessionID)
+	binary.BigEndian.PutUint64(k[8:16], seq)
+	return k
 }

@@ -41,11 +41,25 @@ func quantitiesFromRecord(m map[string]*recordpb.Quantity) map[string]domain.Qua
 }
 
 func sessionRecord(s domain.Session) *recordpb.Session {
-	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt)}
+	t := s.Tolerance
+	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt),
+		Tolerance: &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
+		StationsSeeVerdicts: s.StationsSeeVerdicts}
 }
 
 func sessionFromRecord(r *recordpb.Session) domain.Session {
-	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano())}
+	t := r.GetTolerance()
+	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano()),
+		Tolerance:           domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()},
+		StationsSeeVerdicts: r.GetStationsSeeVerdicts()}
+}
+
+func eventRecord(n domain.Note) *recordpb.Event {
+	return &recordpb.Event{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author, AtUnixNano: unixNano(n.At)}
+}
+
+func noteFromRecord(r *recordpb.Event) domain.Note {
+	return domain.Note{BenchID: r.GetBenchId(), Kind: r.GetKind(), Text: r.GetText(), Author: r.GetAuthor(), At: fromUnixNano(r.GetAtUnixNano())}
 }
 
 func benchRecord(b domain.Bench) *recordpb.Bench {
@@ -60,10 +74,10 @@ func benchFromRecord(r *recordpb.Bench) domain.Bench {
 
 func readingRecord(r domain.Reading) *recordpb.Reading {
 	return &recordpb.Reading{ReadingId: r.ID, Values: quantitiesRecord(r.Values),
-		ReceivedUnixNano: unixNano(r.ReceivedAt), Sequence: r.Sequence}
+		ReceivedUnixNano: unixNano(r.ReceivedAt), Sequence: r.Sequence, Supersedes: r.Supersedes}
 }
 
 func readingFromRecord(r *recordpb.Reading) domain.Reading {
 	return domain.Reading{ID: r.GetReadingId(), Values: quantitiesFromRecord(r.GetValues()),
-		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence()}
+		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence(), Supersedes: r.GetSupersedes()}
 }

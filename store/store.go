@@ -115,6 +115,65 @@ func (db *DB) CreateSession(s domain.Session) (domain.Session, error) {
 	return s, nil
 }
 
+// UpdateSession rewrites a session's title, tolerance and station
+// visibility; its id, join code and creation time stay.
+func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
+	var out domain.Session
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		old, err := getSession(tx, s.ID)
+		if err != nil {
+			return err
+		}
+		old.Title, old.Tolerance, old.StationsSeeVerdicts = s.Title, s.Tolerance, s.StationsSeeVerdicts
+		out = old
+		return putRecord(tx.Bucket(bucketSessions), sessionKey(s.ID), sessionRecord(old))
+	})
+	if err != nil {
+		return domain.Session{}, fmt.Errorf("store: update session: %w", err)
+	}
+	return out, nil
+}
+
+// AppendNote adds a note or acknowledgement to a session's audit log.
+func (db *DB) AppendNote(sessionID uint64, n domain.Note) error {
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		if _, err := getBench(tx, sessionID, n.BenchID); err != nil {
+			return err
+		}
+		ev := tx.Bucket(bucketEvents)
+		seq, err := ev.NextSequence()
+		if err != nil {
+			return err
+		}
+		return putRecord(ev, eventKey(sessionID, seq), eventRecord(n))
+	})
+	if err != nil {
+		return fmt.Errorf("store: append note: %w", err)
+	}
+	return nil
+}
+
+// Notes returns a session's audit log in order.
+func (db *DB) Notes(sessionID uint64) ([]domain.Note, error) {
+	var out []domain.Note
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		prefix := sessionKey(sessionID)
+		c := tx.Bucket(bucketEvents).Cursor()
+		for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
+			if len(k) != 16 {
+				return fmt.Errorf("store: corrupt event key of %d bytes", len(k))
+			}
+			var r recordpb.Event
+			if err := proto.Unmarshal(v, &r); err != nil {
+				return fmt.Errorf("store: decode event: %w", err)
+			}
+			out = append(out, noteFromRecord(&r))
+		}
+		return nil
+	})
+	return out, err
+}
+
 // Session returns one session.
 func (db *DB) Session(id uint64) (domain.Session, error) {
 	var s domain.Session

@@ -171,3 +171,39 @@ func TestLockedFileFailsFast(t *testing.T) {
 		t.Error("second Open of a locked file succeeded")
 	}
 }
+
+func TestSessionUpdateAndNotesSurviveReopen(t *testing.T) {
+	db, path := openTemp(t)
+	s, _ := db.CreateSession(domain.Session{Title: "t", JoinCode: "CCCCCC", CreatedAt: t0})
+	bs, _ := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}})
+	tol := domain.Tolerance{ZConsistent: 1.5, ZOff: 2.5, GoodPercent: 3, AcceptablePercent: 8}
+	if _, err := db.UpdateSession(domain.Session{ID: s.ID, Title: "renamed", Tolerance: tol, StationsSeeVerdicts: true}); err != nil {
+		t.Fatal(err)
+	}
+	note := domain.Note{BenchID: bs[0].ID, Kind: domain.NoteKindNote, Text: "re-zeroed at 14:10", Author: "TA", At: t0.Add(time.Hour)}
+	if err := db.AppendNote(s.ID, note); err != nil {
+		t.Fatal(err)
+	}
+	if err := db.AppendNote(s.ID, domain.Note{BenchID: 999, Kind: domain.NoteKindNote, Text: "x"}); !errors.Is(err, ErrNotFound) {
+		t.Errorf("note on an unknown bench: %v, want ErrNotFound", err)
+	}
+	db.Close()
+	db, err := Open(path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	got, _ := db.Session(s.ID)
+	want := s
+	want.Title, want.Tolerance, want.StationsSeeVerdicts = "renamed", tol, true
+	if diff := cmp.Diff(got, want); diff != "" {
+		t.Errorf("session (-got +want):\n%s", diff)
+	}
+	notes, _ := db.Notes(s.ID)
+	if diff := cmp.Diff(notes, []domain.Note{note}); diff != "" {
+		t.Errorf("notes (-got +want):\n%s", diff)
+	}
+	if err := db.Check(); err != nil {
+		t.Error(err)
+	}
+}

@@ -166,10 +166,15 @@ type Session struct {
 	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
 	Title     string                 `protobuf:"bytes,2,opt,name=title,proto3" json:"title,omitempty"`
 	// Join code that station laptops type to reach their bench.
-	JoinCode      string                 `protobuf:"bytes,3,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
-	CreatedAt     *timestamppb.Timestamp `protobuf:"bytes,4,opt,name=created_at,json=createdAt,proto3" json:"created_at,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	JoinCode  string                 `protobuf:"bytes,3,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
+	CreatedAt *timestamppb.Timestamp `protobuf:"bytes,4,opt,name=created_at,json=createdAt,proto3" json:"created_at,omitempty"`
+	// How discrepancies become verdicts in this session; unset fields take
+	// the documented defaults.
+	Tolerance *Tolerance `protobuf:"bytes,5,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	// Whether station laptops see their own verdict and hint.
+	StationsSeeVerdicts bool `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
 }
 
 func (x *Session) Reset() {
@@ -230,6 +235,335 @@ func (x *Session) GetCreatedAt() *timestamppb.Timestamp {
 	return nil
 }
 
+func (x *Session) GetTolerance() *Tolerance {
+	if x != nil {
+		return x.Tolerance
+	}
+	return nil
+}
+
+func (x *Session) GetStationsSeeVerdicts() bool {
+	if x != nil {
+		return x.StationsSeeVerdicts
+	}
+	return false
+}
+
+// Tolerance is a course's rule for verdicts: consistent when |z| ≤
+// z_consistent or within good_percent; off when |z| > z_off and beyond
+// acceptable_percent; check in between.
+type Tolerance struct {
+	state             protoimpl.MessageState `protogen:"open.v1"`
+	ZConsistent       float64                `protobuf:"fixed64,1,opt,name=z_consistent,json=zConsistent,proto3" json:"z_consistent,omitempty"`
+	ZOff              float64                `protobuf:"fixed64,2,opt,name=z_off,json=zOff,proto3" json:"z_off,omitempty"`
+	GoodPercent       float64                `protobuf:"fixed64,3,opt,name=good_percent,json=goodPercent,proto3" json:"good_percent,omitempty"`
+	AcceptablePercent float64                `protobuf:"fixed64,4,opt,name=acceptable_percent,json=acceptablePercent,proto3" json:"acceptable_percent,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
+}
+
+func (x *Tolerance) Reset() {
+	*x = Tolerance{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[2]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Tolerance) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Tolerance) ProtoMessage() {}
+
+func (x *Tolerance) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[2]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Tolerance.ProtoReflect.Descriptor instead.
+func (*Tolerance) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{2}
+}
+
+func (x *Tolerance) GetZConsistent() float64 {
+	if x != nil {
+		return x.ZConsistent
+	}
+	return 0
+}
+
+func (x *Tolerance) GetZOff() float64 {
+	if x != nil {
+		return x.ZOff
+	}
+	return 0
+}
+
+func (x *Tolerance) GetGoodPercent() float64 {
+	if x != nil {
+		return x.GoodPercent
+	}
+	return 0
+}
+
+func (x *Tolerance) GetAcceptablePercent() float64 {
+	if x != nil {
+		return x.AcceptablePercent
+	}
+	return 0
+}
+
+// QuantitySpec describes one bench constant or reading value of an
+// experiment, for forms.
+type QuantitySpec struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Name  string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Label string                 `protobuf:"bytes,2,opt,name=label,proto3" json:"label,omitempty"`
+	// The unit offered first, and every unit accepted.
+	Unit  string   `protobuf:"bytes,3,opt,name=unit,proto3" json:"unit,omitempty"`
+	Units []string `protobuf:"bytes,4,rep,name=units,proto3" json:"units,omitempty"`
+	// Default in unit (constants only).
+	DefaultValue  float64 `protobuf:"fixed64,5,opt,name=default_value,json=defaultValue,proto3" json:"default_value,omitempty"`
+	Optional      bool    `protobuf:"varint,6,opt,name=optional,proto3" json:"optional,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *QuantitySpec) Reset() {
+	*x = QuantitySpec{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[3]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *QuantitySpec) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*QuantitySpec) ProtoMessage() {}
+
+func (x *QuantitySpec) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[3]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use QuantitySpec.ProtoReflect.Descriptor instead.
+func (*QuantitySpec) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{3}
+}
+
+func (x *QuantitySpec) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *QuantitySpec) GetLabel() string {
+	if x != nil {
+		return x.Label
+	}
+	return ""
+}
+
+func (x *QuantitySpec) GetUnit() string {
+	if x != nil {
+		return x.Unit
+	}
+	return ""
+}
+
+func (x *QuantitySpec) GetUnits() []string {
+	if x != nil {
+		return x.Units
+	}
+	return nil
+}
+
+func (x *QuantitySpec) GetDefaultValue() float64 {
+	if x != nil {
+		return x.DefaultValue
+	}
+	return 0
+}
+
+func (x *QuantitySpec) GetOptional() bool {
+	if x != nil {
+		return x.Optional
+	}
+	return false
+}
+
+// ExperimentSpec is what an experiment asks of the instructor and the group.
+type ExperimentSpec struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Id            string                 `protobuf:"bytes,1,opt,name=id,proto3" json:"id,omitempty"`
+	Title         string                 `protobuf:"bytes,2,opt,name=title,proto3" json:"title,omitempty"`
+	Constants     []*QuantitySpec        `protobuf:"bytes,3,rep,name=constants,proto3" json:"constants,omitempty"`
+	Values        []*QuantitySpec        `protobuf:"bytes,4,rep,name=values,proto3" json:"values,omitempty"`
+	MinReadings   int32                  `protobuf:"varint,5,opt,name=min_readings,json=minReadings,proto3" json:"min_readings,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ExperimentSpec) Reset() {
+	*x = ExperimentSpec{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[4]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ExperimentSpec) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ExperimentSpec) ProtoMessage() {}
+
+func (x *ExperimentSpec) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[4]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ExperimentSpec.ProtoReflect.Descriptor instead.
+func (*ExperimentSpec) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{4}
+}
+
+func (x *ExperimentSpec) GetId() string {
+	if x != nil {
+		return x.Id
+	}
+	return ""
+}
+
+func (x *ExperimentSpec) GetTitle() string {
+	if x != nil {
+		return x.Title
+	}
+	return ""
+}
+
+func (x *ExperimentSpec) GetConstants() []*QuantitySpec {
+	if x != nil {
+		return x.Constants
+	}
+	return nil
+}
+
+func (x *ExperimentSpec) GetValues() []*QuantitySpec {
+	if x != nil {
+		return x.Values
+	}
+	return nil
+}
+
+func (x *ExperimentSpec) GetMinReadings() int32 {
+	if x != nil {
+		return x.MinReadings
+	}
+	return 0
+}
+
+// Note is an instructor's note or acknowledgement on a bench, kept in the
+// session's audit log.
+type Note struct {
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	BenchId uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	// "note" or "acknowledged".
+	Kind          string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
+	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	At            *timestamppb.Timestamp `protobuf:"bytes,5,opt,name=at,proto3" json:"at,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Note) Reset() {
+	*x = Note{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Note) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Note) ProtoMessage() {}
+
+func (x *Note) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Note.ProtoReflect.Descriptor instead.
+func (*Note) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{5}
+}
+
+func (x *Note) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *Note) GetKind() string {
+	if x != nil {
+		return x.Kind
+	}
+	return ""
+}
+
+func (x *Note) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
+func (x *Note) GetAuthor() string {
+	if x != nil {
+		return x.Author
+	}
+	return ""
+}
+
+func (x *Note) GetAt() *timestamppb.Timestamp {
+	if x != nil {
+		return x.At
+	}
+	return nil
+}
+
 // Bench is one station in the room, with its equipment constants.
 type Bench struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
@@ -249,7 +583,7 @@ type Bench struct {
 
 func (x *Bench) Reset() {
 	*x = Bench{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[2]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -261,7 +595,7 @@ func (x *Bench) String() string {
 func (*Bench) ProtoMessage() {}
 
 func (x *Bench) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[2]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -274,7 +608,7 @@ func (x *Bench) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Bench.ProtoReflect.Descriptor instead.
 func (*Bench) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{2}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *Bench) GetBenchId() uint64 {
@@ -328,14 +662,17 @@ type Reading struct {
 	Values     map[string]*Quantity   `protobuf:"bytes,2,rep,name=values,proto3" json:"values,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
 	ReceivedAt *timestamppb.Timestamp `protobuf:"bytes,3,opt,name=received_at,json=receivedAt,proto3" json:"received_at,omitempty"`
 	// Server-assigned order of arrival.
-	Sequence      uint64 `protobuf:"varint,4,opt,name=sequence,proto3" json:"sequence,omitempty"`
+	Sequence uint64 `protobuf:"varint,4,opt,name=sequence,proto3" json:"sequence,omitempty"`
+	// The reading id this one corrects; the corrected reading stays stored
+	// but no longer counts.
+	Supersedes    string `protobuf:"bytes,5,opt,name=supersedes,proto3" json:"supersedes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Reading) Reset() {
 	*x = Reading{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[3]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -347,7 +684,7 @@ func (x *Reading) String() string {
 func (*Reading) ProtoMessage() {}
 
 func (x *Reading) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[3]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -360,7 +697,7 @@ func (x *Reading) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Reading.ProtoReflect.Descriptor instead.
 func (*Reading) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{3}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{7}
 }
 
 func (x *Reading) GetReadingId() string {
@@ -391,6 +728,13 @@ func (x *Reading) GetSequence() uint64 {
 	return 0
 }
 
+func (x *Reading) GetSupersedes() string {
+	if x != nil {
+		return x.Supersedes
+	}
+	return ""
+}
+
 // Diagnosis is a likely cause of a discrepancy, with its evidence.
 type Diagnosis struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
@@ -412,7 +756,7 @@ type Diagnosis struct {
 
 func (x *Diagnosis) Reset() {
 	*x = Diagnosis{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[4]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -424,7 +768,7 @@ func (x *Diagnosis) String() string {
 func (*Diagnosis) ProtoMessage() {}
 
 func (x *Diagnosis) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[4]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -437,7 +781,7 @@ func (x *Diagnosis) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Diagnosis.ProtoReflect.Descriptor instead.
 func (*Diagnosis) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{4}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{8}
 }
 
 func (x *Diagnosis) GetCode() string {
@@ -496,7 +840,7 @@ type BudgetItem struct {
 
 func (x *BudgetItem) Reset() {
 	*x = BudgetItem{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -508,7 +852,7 @@ func (x *BudgetItem) String() string {
 func (*BudgetItem) ProtoMessage() {}
 
 func (x *BudgetItem) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[5]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -521,7 +865,7 @@ func (x *BudgetItem) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BudgetItem.ProtoReflect.Descriptor instead.
 func (*BudgetItem) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{5}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{9}
 }
 
 func (x *BudgetItem) GetInput() string {
@@ -562,7 +906,7 @@ type RoomFinding struct {
 
 func (x *RoomFinding) Reset() {
 	*x = RoomFinding{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -574,7 +918,7 @@ func (x *RoomFinding) String() string {
 func (*RoomFinding) ProtoMessage() {}
 
 func (x *RoomFinding) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[6]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -587,7 +931,7 @@ func (x *RoomFinding) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RoomFinding.ProtoReflect.Descriptor instead.
 func (*RoomFinding) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{6}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{10}
 }
 
 func (x *RoomFinding) GetCode() string {
@@ -649,7 +993,7 @@ type RoomFindings struct {
 
 func (x *RoomFindings) Reset() {
 	*x = RoomFindings{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -661,7 +1005,7 @@ func (x *RoomFindings) String() string {
 func (*RoomFindings) ProtoMessage() {}
 
 func (x *RoomFindings) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[7]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -674,7 +1018,7 @@ func (x *RoomFindings) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RoomFindings.ProtoReflect.Descriptor instead.
 func (*RoomFindings) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{7}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{11}
 }
 
 func (x *RoomFindings) GetFindings() []*RoomFinding {
@@ -703,7 +1047,7 @@ type Fit struct {
 
 func (x *Fit) Reset() {
 	*x = Fit{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -715,7 +1059,7 @@ func (x *Fit) String() string {
 func (*Fit) ProtoMessage() {}
 
 func (x *Fit) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[8]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -728,7 +1072,7 @@ func (x *Fit) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Fit.ProtoReflect.Descriptor instead.
 func (*Fit) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{8}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{12}
 }
 
 func (x *Fit) GetSlope() float64 {
@@ -826,14 +1170,17 @@ type BenchState struct {
 	// Which inputs dominate the uncertainty, largest first.
 	Budget []*BudgetItem `protobuf:"bytes,15,rep,name=budget,proto3" json:"budget,omitempty"`
 	// Further results in words, such as an experiment's linear forms.
-	Notes         []string `protobuf:"bytes,16,rep,name=notes,proto3" json:"notes,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Notes []string `protobuf:"bytes,16,rep,name=notes,proto3" json:"notes,omitempty"`
+	// True when an instructor acknowledged the unsafe alert after the last
+	// reading.
+	AlertAcknowledged bool `protobuf:"varint,17,opt,name=alert_acknowledged,json=alertAcknowledged,proto3" json:"alert_acknowledged,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *BenchState) Reset() {
 	*x = BenchState{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -845,7 +1192,7 @@ func (x *BenchState) String() string {
 func (*BenchState) ProtoMessage() {}
 
 func (x *BenchState) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[9]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -858,7 +1205,7 @@ func (x *BenchState) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BenchState.ProtoReflect.Descriptor instead.
 func (*BenchState) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{9}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{13}
 }
 
 func (x *BenchState) GetBench() *Bench {
@@ -973,19 +1320,29 @@ func (x *BenchState) GetNotes() []string {
 	return nil
 }
 
+func (x *BenchState) GetAlertAcknowledged() bool {
+	if x != nil {
+		return x.AlertAcknowledged
+	}
+	return false
+}
+
 // BenchDetail is everything known about one bench.
 type BenchDetail struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	State         *BenchState            `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
-	Readings      []*Reading             `protobuf:"bytes,2,rep,name=readings,proto3" json:"readings,omitempty"`
-	Fit           *Fit                   `protobuf:"bytes,3,opt,name=fit,proto3" json:"fit,omitempty"`
+	state    protoimpl.MessageState `protogen:"open.v1"`
+	State    *BenchState            `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
+	Readings []*Reading             `protobuf:"bytes,2,rep,name=readings,proto3" json:"readings,omitempty"`
+	Fit      *Fit                   `protobuf:"bytes,3,opt,name=fit,proto3" json:"fit,omitempty"`
+	Notes    []*Note                `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
+	// Reading ids that a later reading corrects.
+	Superseded    []string `protobuf:"bytes,5,rep,name=superseded,proto3" json:"superseded,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *BenchDetail) Reset() {
 	*x = BenchDetail{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -997,7 +1354,7 @@ func (x *BenchDetail) String() string {
 func (*BenchDetail) ProtoMessage() {}
 
 func (x *BenchDetail) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[10]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1010,7 +1367,7 @@ func (x *BenchDetail) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BenchDetail.ProtoReflect.Descriptor instead.
 func (*BenchDetail) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{10}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{14}
 }
 
 func (x *BenchDetail) GetState() *BenchState {
@@ -1034,6 +1391,20 @@ func (x *BenchDetail) GetFit() *Fit {
 	return nil
 }
 
+func (x *BenchDetail) GetNotes() []*Note {
+	if x != nil {
+		return x.Notes
+	}
+	return nil
+}
+
+func (x *BenchDetail) GetSuperseded() []string {
+	if x != nil {
+		return x.Superseded
+	}
+	return nil
+}
+
 // RoomSnapshot is the whole room at one moment.
 type RoomSnapshot struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -1046,7 +1417,7 @@ type RoomSnapshot struct {
 
 func (x *RoomSnapshot) Reset() {
 	*x = RoomSnapshot{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1058,7 +1429,7 @@ func (x *RoomSnapshot) String() string {
 func (*RoomSnapshot) ProtoMessage() {}
 
 func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[11]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1071,7 +1442,7 @@ func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RoomSnapshot.ProtoReflect.Descriptor instead.
 func (*RoomSnapshot) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{11}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
 }
 
 func (x *RoomSnapshot) GetSession() *Session {
@@ -1105,7 +1476,7 @@ type JoinBenchRequest struct {
 
 func (x *JoinBenchRequest) Reset() {
 	*x = JoinBenchRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1117,7 +1488,7 @@ func (x *JoinBenchRequest) String() string {
 func (*JoinBenchRequest) ProtoMessage() {}
 
 func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[12]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1130,7 +1501,7 @@ func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchRequest.ProtoReflect.Descriptor instead.
 func (*JoinBenchRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{12}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
 }
 
 func (x *JoinBenchRequest) GetJoinCode() string {
@@ -1157,7 +1528,7 @@ type JoinBenchResponse struct {
 
 func (x *JoinBenchResponse) Reset() {
 	*x = JoinBenchResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1169,7 +1540,7 @@ func (x *JoinBenchResponse) String() string {
 func (*JoinBenchResponse) ProtoMessage() {}
 
 func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[13]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1182,7 +1553,7 @@ func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchResponse.ProtoReflect.Descriptor instead.
 func (*JoinBenchResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{13}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *JoinBenchResponse) GetSessionId() uint64 {
@@ -1200,18 +1571,20 @@ func (x *JoinBenchResponse) GetBench() *Bench {
 }
 
 type SubmitReadingRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	ReadingId     string                 `protobuf:"bytes,3,opt,name=reading_id,json=readingId,proto3" json:"reading_id,omitempty"`
-	Values        map[string]*Quantity   `protobuf:"bytes,4,rep,name=values,proto3" json:"values,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId   uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	ReadingId string                 `protobuf:"bytes,3,opt,name=reading_id,json=readingId,proto3" json:"reading_id,omitempty"`
+	Values    map[string]*Quantity   `protobuf:"bytes,4,rep,name=values,proto3" json:"values,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	// Set to correct an earlier reading of the same bench.
+	Supersedes    string `protobuf:"bytes,5,opt,name=supersedes,proto3" json:"supersedes,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *SubmitReadingRequest) Reset() {
 	*x = SubmitReadingRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1223,7 +1596,7 @@ func (x *SubmitReadingRequest) String() string {
 func (*SubmitReadingRequest) ProtoMessage() {}
 
 func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[14]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1236,7 +1609,7 @@ func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingRequest.ProtoReflect.Descriptor instead.
 func (*SubmitReadingRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{14}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *SubmitReadingRequest) GetSessionId() uint64 {
@@ -1267,6 +1640,13 @@ func (x *SubmitReadingRequest) GetValues() map[string]*Quantity {
 	return nil
 }
 
+func (x *SubmitReadingRequest) GetSupersedes() string {
+	if x != nil {
+		return x.Supersedes
+	}
+	return ""
+}
+
 type SubmitReadingResponse struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
 	Reading *Reading               `protobuf:"bytes,1,opt,name=reading,proto3" json:"reading,omitempty"`
@@ -1279,7 +1659,7 @@ type SubmitReadingResponse struct {
 
 func (x *SubmitReadingResponse) Reset() {
 	*x = SubmitReadingResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1291,7 +1671,7 @@ func (x *SubmitReadingResponse) String() string {
 func (*SubmitReadingResponse) ProtoMessage() {}
 
 func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1304,7 +1684,7 @@ func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingResponse.ProtoReflect.Descriptor instead.
 func (*SubmitReadingResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *SubmitReadingResponse) GetReading() *Reading {
@@ -1338,7 +1718,7 @@ type GetBenchStateRequest struct {
 
 func (x *GetBenchStateRequest) Reset() {
 	*x = GetBenchStateRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1350,7 +1730,7 @@ func (x *GetBenchStateRequest) String() string {
 func (*GetBenchStateRequest) ProtoMessage() {}
 
 func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1363,7 +1743,7 @@ func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchStateRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
 }
 
 func (x *GetBenchStateRequest) GetSessionId() uint64 {
@@ -1381,15 +1761,18 @@ func (x *GetBenchStateRequest) GetBenchId() uint64 {
 }
 
 type GetBenchStateResponse struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	State         *BenchState            `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
+	state protoimpl.MessageState `protogen:"open.v1"`
+	// The verdict, reason and diagnoses are left out unless the session lets
+	// stations see them.
+	State         *BenchState `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
+	Readings      []*Reading  `protobuf:"bytes,2,rep,name=readings,proto3" json:"readings,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
 func (x *GetBenchStateResponse) Reset() {
 	*x = GetBenchStateResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1401,7 +1784,7 @@ func (x *GetBenchStateResponse) String() string {
 func (*GetBenchStateResponse) ProtoMessage() {}
 
 func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1414,7 +1797,7 @@ func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchStateResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *GetBenchStateResponse) GetState() *BenchState {
@@ -1424,16 +1807,434 @@ func (x *GetBenchStateResponse) GetState() *BenchState {
 	return nil
 }
 
-type CreateSessionRequest struct {
+func (x *GetBenchStateResponse) GetReadings() []*Reading {
+	if x != nil {
+		return x.Readings
+	}
+	return nil
+}
+
+type ListExperimentsRequest struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
-	Title         string                 `protobuf:"bytes,1,opt,name=title,proto3" json:"title,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
 
+func (x *ListExperimentsRequest) Reset() {
+	*x = ListExperimentsRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExperimentsRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExperimentsRequest) ProtoMessage() {}
+
+func (x *ListExperimentsRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExperimentsRequest.ProtoReflect.Descriptor instead.
+func (*ListExperimentsRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
+}
+
+type ListExperimentsResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Experiments   []*ExperimentSpec      `protobuf:"bytes,1,rep,name=experiments,proto3" json:"experiments,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListExperimentsResponse) Reset() {
+	*x = ListExperimentsResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListExperimentsResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListExperimentsResponse) ProtoMessage() {}
+
+func (x *ListExperimentsResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListExperimentsResponse.ProtoReflect.Descriptor instead.
+func (*ListExperimentsResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
+}
+
+func (x *ListExperimentsResponse) GetExperiments() []*ExperimentSpec {
+	if x != nil {
+		return x.Experiments
+	}
+	return nil
+}
+
+type UpdateSessionRequest struct {
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	// Empty leaves the title as it is.
+	Title               string     `protobuf:"bytes,2,opt,name=title,proto3" json:"title,omitempty"`
+	Tolerance           *Tolerance `protobuf:"bytes,3,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	StationsSeeVerdicts bool       `protobuf:"varint,4,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
+}
+
+func (x *UpdateSessionRequest) Reset() {
+	*x = UpdateSessionRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *UpdateSessionRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*UpdateSessionRequest) ProtoMessage() {}
+
+func (x *UpdateSessionRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use UpdateSessionRequest.ProtoReflect.Descriptor instead.
+func (*UpdateSessionRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
+}
+
+func (x *UpdateSessionRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *UpdateSessionRequest) GetTitle() string {
+	if x != nil {
+		return x.Title
+	}
+	return ""
+}
+
+func (x *UpdateSessionRequest) GetTolerance() *Tolerance {
+	if x != nil {
+		return x.Tolerance
+	}
+	return nil
+}
+
+func (x *UpdateSessionRequest) GetStationsSeeVerdicts() bool {
+	if x != nil {
+		return x.StationsSeeVerdicts
+	}
+	return false
+}
+
+type UpdateSessionResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Session       *Session               `protobuf:"bytes,1,opt,name=session,proto3" json:"session,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *UpdateSessionResponse) Reset() {
+	*x = UpdateSessionResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *UpdateSessionResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*UpdateSessionResponse) ProtoMessage() {}
+
+func (x *UpdateSessionResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use UpdateSessionResponse.ProtoReflect.Descriptor instead.
+func (*UpdateSessionResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
+}
+
+func (x *UpdateSessionResponse) GetSession() *Session {
+	if x != nil {
+		return x.Session
+	}
+	return nil
+}
+
+type AddNoteRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AddNoteRequest) Reset() {
+	*x = AddNoteRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AddNoteRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AddNoteRequest) ProtoMessage() {}
+
+func (x *AddNoteRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AddNoteRequest.ProtoReflect.Descriptor instead.
+func (*AddNoteRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
+}
+
+func (x *AddNoteRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *AddNoteRequest) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *AddNoteRequest) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
+func (x *AddNoteRequest) GetAuthor() string {
+	if x != nil {
+		return x.Author
+	}
+	return ""
+}
+
+type AddNoteResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Note          *Note                  `protobuf:"bytes,1,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AddNoteResponse) Reset() {
+	*x = AddNoteResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AddNoteResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AddNoteResponse) ProtoMessage() {}
+
+func (x *AddNoteResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AddNoteResponse.ProtoReflect.Descriptor instead.
+func (*AddNoteResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
+}
+
+func (x *AddNoteResponse) GetNote() *Note {
+	if x != nil {
+		return x.Note
+	}
+	return nil
+}
+
+type AcknowledgeAlertRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Author        string                 `protobuf:"bytes,3,opt,name=author,proto3" json:"author,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AcknowledgeAlertRequest) Reset() {
+	*x = AcknowledgeAlertRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AcknowledgeAlertRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AcknowledgeAlertRequest) ProtoMessage() {}
+
+func (x *AcknowledgeAlertRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AcknowledgeAlertRequest.ProtoReflect.Descriptor instead.
+func (*AcknowledgeAlertRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{28}
+}
+
+func (x *AcknowledgeAlertRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *AcknowledgeAlertRequest) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *AcknowledgeAlertRequest) GetAuthor() string {
+	if x != nil {
+		return x.Author
+	}
+	return ""
+}
+
+type AcknowledgeAlertResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Note          *Note                  `protobuf:"bytes,1,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AcknowledgeAlertResponse) Reset() {
+	*x = AcknowledgeAlertResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AcknowledgeAlertResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AcknowledgeAlertResponse) ProtoMessage() {}
+
+func (x *AcknowledgeAlertResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AcknowledgeAlertResponse.ProtoReflect.Descriptor instead.
+func (*AcknowledgeAlertResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{29}
+}
+
+func (x *AcknowledgeAlertResponse) GetNote() *Note {
+	if x != nil {
+		return x.Note
+	}
+	return nil
+}
+
+type CreateSessionRequest struct {
+	state               protoimpl.MessageState `protogen:"open.v1"`
+	Title               string                 `protobuf:"bytes,1,opt,name=title,proto3" json:"title,omitempty"`
+	Tolerance           *Tolerance             `protobuf:"bytes,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	StationsSeeVerdicts bool                   `protobuf:"varint,3,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
+}
+
 func (x *CreateSessionRequest) Reset() {
 	*x = CreateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1445,7 +2246,7 @@ func (x *CreateSessionRequest) String() string {
 func (*CreateSessionRequest) ProtoMessage() {}
 
 func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1458,7 +2259,7 @@ func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionRequest.ProtoReflect.Descriptor instead.
 func (*CreateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{30}
 }
 
 func (x *CreateSessionRequest) GetTitle() string {
@@ -1466,6 +2267,20 @@ func (x *CreateSessionRequest) GetTitle() string {
 		return x.Title
 	}
 	return ""
+}
+
+func (x *CreateSessionRequest) GetTolerance() *Tolerance {
+	if x != nil {
+		return x.Tolerance
+	}
+	return nil
+}
+
+func (x *CreateSessionRequest) GetStationsSeeVerdicts() bool {
+	if x != nil {
+		return x.StationsSeeVerdicts
+	}
+	return false
 }
 
 type CreateSessionResponse struct {
@@ -1477,7 +2292,7 @@ type CreateSessionResponse struct {
 
 func (x *CreateSessionResponse) Reset() {
 	*x = CreateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1489,7 +2304,7 @@ func (x *CreateSessionResponse) String() string {
 func (*CreateSessionResponse) ProtoMessage() {}
 
 func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1502,7 +2317,7 @@ func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionResponse.ProtoReflect.Descriptor instead.
 func (*CreateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{31}
 }
 
 func (x *CreateSessionResponse) GetSession() *Session {
@@ -1520,7 +2335,7 @@ type ListSessionsRequest struct {
 
 func (x *ListSessionsRequest) Reset() {
 	*x = ListSessionsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1532,7 +2347,7 @@ func (x *ListSessionsRequest) String() string {
 func (*ListSessionsRequest) ProtoMessage() {}
 
 func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1545,7 +2360,7 @@ func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsRequest.ProtoReflect.Descriptor instead.
 func (*ListSessionsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{32}
 }
 
 type ListSessionsResponse struct {
@@ -1558,7 +2373,7 @@ type ListSessionsResponse struct {
 
 func (x *ListSessionsResponse) Reset() {
 	*x = ListSessionsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1570,7 +2385,7 @@ func (x *ListSessionsResponse) String() string {
 func (*ListSessionsResponse) ProtoMessage() {}
 
 func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1583,7 +2398,7 @@ func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsResponse.ProtoReflect.Descriptor instead.
 func (*ListSessionsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{33}
 }
 
 func (x *ListSessionsResponse) GetSessions() []*Session {
@@ -1605,7 +2420,7 @@ type SetBenchesRequest struct {
 
 func (x *SetBenchesRequest) Reset() {
 	*x = SetBenchesRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1617,7 +2432,7 @@ func (x *SetBenchesRequest) String() string {
 func (*SetBenchesRequest) ProtoMessage() {}
 
 func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1630,7 +2445,7 @@ func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesRequest.ProtoReflect.Descriptor instead.
 func (*SetBenchesRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{34}
 }
 
 func (x *SetBenchesRequest) GetSessionId() uint64 {
@@ -1657,7 +2472,7 @@ type SetBenchesResponse struct {
 
 func (x *SetBenchesResponse) Reset() {
 	*x = SetBenchesResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1669,7 +2484,7 @@ func (x *SetBenchesResponse) String() string {
 func (*SetBenchesResponse) ProtoMessage() {}
 
 func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1682,7 +2497,7 @@ func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesResponse.ProtoReflect.Descriptor instead.
 func (*SetBenchesResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{35}
 }
 
 func (x *SetBenchesResponse) GetBenches() []*Bench {
@@ -1701,7 +2516,7 @@ type WatchRoomRequest struct {
 
 func (x *WatchRoomRequest) Reset() {
 	*x = WatchRoomRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1713,7 +2528,7 @@ func (x *WatchRoomRequest) String() string {
 func (*WatchRoomRequest) ProtoMessage() {}
 
 func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1726,7 +2541,7 @@ func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomRequest.ProtoReflect.Descriptor instead.
 func (*WatchRoomRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{36}
 }
 
 func (x *WatchRoomRequest) GetSessionId() uint64 {
@@ -1754,7 +2569,7 @@ type WatchRoomResponse struct {
 
 func (x *WatchRoomResponse) Reset() {
 	*x = WatchRoomResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1766,7 +2581,7 @@ func (x *WatchRoomResponse) String() string {
 func (*WatchRoomResponse) ProtoMessage() {}
 
 func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1779,7 +2594,7 @@ func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomResponse.ProtoReflect.Descriptor instead.
 func (*WatchRoomResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{37}
 }
 
 func (x *WatchRoomResponse) GetSequence() uint64 {
@@ -1855,7 +2670,7 @@ type GetBenchDetailRequest struct {
 
 func (x *GetBenchDetailRequest) Reset() {
 	*x = GetBenchDetailRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1867,7 +2682,7 @@ func (x *GetBenchDetailRequest) String() string {
 func (*GetBenchDetailRequest) ProtoMessage() {}
 
 func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1880,7 +2695,7 @@ func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{38}
 }
 
 func (x *GetBenchDetailRequest) GetSessionId() uint64 {
@@ -1906,7 +2721,7 @@ type GetBenchDetailResponse struct {
 
 func (x *GetBenchDetailResponse) Reset() {
 	*x = GetBenchDetailResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1918,7 +2733,7 @@ func (x *GetBenchDetailResponse) String() string {
 func (*GetBenchDetailResponse) ProtoMessage() {}
 
 func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1931,7 +2746,7 @@ func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{39}
 }
 
 func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
@@ -1949,14 +2764,40 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\x96\x01\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\x80\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
 	"\x05title\x18\x02 \x01(\tR\x05title\x12\x1b\n" +
 	"\tjoin_code\x18\x03 \x01(\tR\bjoinCode\x129\n" +
 	"\n" +
-	"created_at\x18\x04 \x01(\v2\x1a.google.protobuf.TimestampR\tcreatedAt\"\x98\x02\n" +
+	"created_at\x18\x04 \x01(\v2\x1a.google.protobuf.TimestampR\tcreatedAt\x124\n" +
+	"\ttolerance\x18\x05 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
+	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\"\x95\x01\n" +
+	"\tTolerance\x12!\n" +
+	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
+	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
+	"\fgood_percent\x18\x03 \x01(\x01R\vgoodPercent\x12-\n" +
+	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\xa3\x01\n" +
+	"\fQuantitySpec\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12\x14\n" +
+	"\x05label\x18\x02 \x01(\tR\x05label\x12\x12\n" +
+	"\x04unit\x18\x03 \x01(\tR\x04unit\x12\x14\n" +
+	"\x05units\x18\x04 \x03(\tR\x05units\x12#\n" +
+	"\rdefault_value\x18\x05 \x01(\x01R\fdefaultValue\x12\x1a\n" +
+	"\boptional\x18\x06 \x01(\bR\boptional\"\xc5\x01\n" +
+	"\x0eExperimentSpec\x12\x0e\n" +
+	"\x02id\x18\x01 \x01(\tR\x02id\x12\x14\n" +
+	"\x05title\x18\x02 \x01(\tR\x05title\x127\n" +
+	"\tconstants\x18\x03 \x03(\v2\x19.fluxroom.v1.QuantitySpecR\tconstants\x121\n" +
+	"\x06values\x18\x04 \x03(\v2\x19.fluxroom.v1.QuantitySpecR\x06values\x12!\n" +
+	"\fmin_readings\x18\x05 \x01(\x05R\vminReadings\"\x8d\x01\n" +
+	"\x04Note\x12\x19\n" +
+	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x12\n" +
+	"\x04kind\x18\x02 \x01(\tR\x04kind\x12\x12\n" +
+	"\x04text\x18\x03 \x01(\tR\x04text\x12\x16\n" +
+	"\x06author\x18\x04 \x01(\tR\x06author\x12*\n" +
+	"\x02at\x18\x05 \x01(\v2\x1a.google.protobuf.TimestampR\x02at\"\x98\x02\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -1968,14 +2809,17 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tconstants\x18\x06 \x03(\v2!.fluxroom.v1.Bench.ConstantsEntryR\tconstants\x1aS\n" +
 	"\x0eConstantsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
-	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\x8d\x02\n" +
+	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xad\x02\n" +
 	"\aReading\x12\x1d\n" +
 	"\n" +
 	"reading_id\x18\x01 \x01(\tR\treadingId\x128\n" +
 	"\x06values\x18\x02 \x03(\v2 .fluxroom.v1.Reading.ValuesEntryR\x06values\x12;\n" +
 	"\vreceived_at\x18\x03 \x01(\v2\x1a.google.protobuf.TimestampR\n" +
 	"receivedAt\x12\x1a\n" +
-	"\bsequence\x18\x04 \x01(\x04R\bsequence\x1aP\n" +
+	"\bsequence\x18\x04 \x01(\x04R\bsequence\x12\x1e\n" +
+	"\n" +
+	"supersedes\x18\x05 \x01(\tR\n" +
+	"supersedes\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
 	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xa3\x01\n" +
@@ -2015,7 +2859,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\x94\x05\n" +
+	" \x01(\tR\x05yName\"\xc3\x05\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -2035,11 +2879,16 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\vresult_name\x18\x0e \x01(\tR\n" +
 	"resultName\x12/\n" +
 	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\x12\x14\n" +
-	"\x05notes\x18\x10 \x03(\tR\x05notes\"\x92\x01\n" +
+	"\x05notes\x18\x10 \x03(\tR\x05notes\x12-\n" +
+	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\"\xdb\x01\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
-	"\x03fit\x18\x03 \x01(\v2\x10.fluxroom.v1.FitR\x03fit\"\xa7\x01\n" +
+	"\x03fit\x18\x03 \x01(\v2\x10.fluxroom.v1.FitR\x03fit\x12'\n" +
+	"\x05notes\x18\x04 \x03(\v2\x11.fluxroom.v1.NoteR\x05notes\x12\x1e\n" +
+	"\n" +
+	"superseded\x18\x05 \x03(\tR\n" +
+	"superseded\"\xa7\x01\n" +
 	"\fRoomSnapshot\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\x121\n" +
 	"\abenches\x18\x02 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\x124\n" +
@@ -2051,14 +2900,17 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x11JoinBenchResponse\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12(\n" +
-	"\x05bench\x18\x02 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\"\x88\x02\n" +
+	"\x05bench\x18\x02 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\"\xa8\x02\n" +
 	"\x14SubmitReadingRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
 	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x1d\n" +
 	"\n" +
 	"reading_id\x18\x03 \x01(\tR\treadingId\x12E\n" +
-	"\x06values\x18\x04 \x03(\v2-.fluxroom.v1.SubmitReadingRequest.ValuesEntryR\x06values\x1aP\n" +
+	"\x06values\x18\x04 \x03(\v2-.fluxroom.v1.SubmitReadingRequest.ValuesEntryR\x06values\x12\x1e\n" +
+	"\n" +
+	"supersedes\x18\x05 \x01(\tR\n" +
+	"supersedes\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
 	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\x94\x01\n" +
@@ -2069,11 +2921,40 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x14GetBenchStateRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
-	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"F\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"x\n" +
 	"\x15GetBenchStateResponse\x12-\n" +
-	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\",\n" +
+	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
+	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\"\x18\n" +
+	"\x16ListExperimentsRequest\"X\n" +
+	"\x17ListExperimentsResponse\x12=\n" +
+	"\vexperiments\x18\x01 \x03(\v2\x1b.fluxroom.v1.ExperimentSpecR\vexperiments\"\xb5\x01\n" +
+	"\x14UpdateSessionRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
+	"\x05title\x18\x02 \x01(\tR\x05title\x124\n" +
+	"\ttolerance\x18\x03 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
+	"\x15stations_see_verdicts\x18\x04 \x01(\bR\x13stationsSeeVerdicts\"G\n" +
+	"\x15UpdateSessionResponse\x12.\n" +
+	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\"v\n" +
+	"\x0eAddNoteRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x12\n" +
+	"\x04text\x18\x03 \x01(\tR\x04text\x12\x16\n" +
+	"\x06author\x18\x04 \x01(\tR\x06author\"8\n" +
+	"\x0fAddNoteResponse\x12%\n" +
+	"\x04note\x18\x01 \x01(\v2\x11.fluxroom.v1.NoteR\x04note\"k\n" +
+	"\x17AcknowledgeAlertRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x16\n" +
+	"\x06author\x18\x03 \x01(\tR\x06author\"A\n" +
+	"\x18AcknowledgeAlertResponse\x12%\n" +
+	"\x04note\x18\x01 \x01(\v2\x11.fluxroom.v1.NoteR\x04note\"\x96\x01\n" +
 	"\x14CreateSessionRequest\x12\x14\n" +
-	"\x05title\x18\x01 \x01(\tR\x05title\"G\n" +
+	"\x05title\x18\x01 \x01(\tR\x05title\x124\n" +
+	"\ttolerance\x18\x02 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
+	"\x15stations_see_verdicts\x18\x03 \x01(\bR\x13stationsSeeVerdicts\"G\n" +
 	"\x15CreateSessionResponse\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\"\x15\n" +
 	"\x13ListSessionsRequest\"H\n" +
@@ -2122,82 +3003,106 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 31)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 43)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
-	(Verdict)(0),                   // 0: fluxroom.v1.Verdict
-	(*Quantity)(nil),               // 1: fluxroom.v1.Quantity
-	(*Session)(nil),                // 2: fluxroom.v1.Session
-	(*Bench)(nil),                  // 3: fluxroom.v1.Bench
-	(*Reading)(nil),                // 4: fluxroom.v1.Reading
-	(*Diagnosis)(nil),              // 5: fluxroom.v1.Diagnosis
-	(*BudgetItem)(nil),             // 6: fluxroom.v1.BudgetItem
-	(*RoomFinding)(nil),            // 7: fluxroom.v1.RoomFinding
-	(*RoomFindings)(nil),           // 8: fluxroom.v1.RoomFindings
-	(*Fit)(nil),                    // 9: fluxroom.v1.Fit
-	(*BenchState)(nil),             // 10: fluxroom.v1.BenchState
-	(*BenchDetail)(nil),            // 11: fluxroom.v1.BenchDetail
-	(*RoomSnapshot)(nil),           // 12: fluxroom.v1.RoomSnapshot
-	(*JoinBenchRequest)(nil),       // 13: fluxroom.v1.JoinBenchRequest
-	(*JoinBenchResponse)(nil),      // 14: fluxroom.v1.JoinBenchResponse
-	(*SubmitReadingRequest)(nil),   // 15: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),  // 16: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),   // 17: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),  // 18: fluxroom.v1.GetBenchStateResponse
-	(*CreateSessionRequest)(nil),   // 19: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),  // 20: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),    // 21: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),   // 22: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),      // 23: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),     // 24: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),       // 25: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),      // 26: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),  // 27: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil), // 28: fluxroom.v1.GetBenchDetailResponse
-	nil,                            // 29: fluxroom.v1.Bench.ConstantsEntry
-	nil,                            // 30: fluxroom.v1.Reading.ValuesEntry
-	nil,                            // 31: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),  // 32: google.protobuf.Timestamp
+	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
+	(*Quantity)(nil),                 // 1: fluxroom.v1.Quantity
+	(*Session)(nil),                  // 2: fluxroom.v1.Session
+	(*Tolerance)(nil),                // 3: fluxroom.v1.Tolerance
+	(*QuantitySpec)(nil),             // 4: fluxroom.v1.QuantitySpec
+	(*ExperimentSpec)(nil),           // 5: fluxroom.v1.ExperimentSpec
+	(*Note)(nil),                     // 6: fluxroom.v1.Note
+	(*Bench)(nil),                    // 7: fluxroom.v1.Bench
+	(*Reading)(nil),                  // 8: fluxroom.v1.Reading
+	(*Diagnosis)(nil),                // 9: fluxroom.v1.Diagnosis
+	(*BudgetItem)(nil),               // 10: fluxroom.v1.BudgetItem
+	(*RoomFinding)(nil),              // 11: fluxroom.v1.RoomFinding
+	(*RoomFindings)(nil),             // 12: fluxroom.v1.RoomFindings
+	(*Fit)(nil),                      // 13: fluxroom.v1.Fit
+	(*BenchState)(nil),               // 14: fluxroom.v1.BenchState
+	(*BenchDetail)(nil),              // 15: fluxroom.v1.BenchDetail
+	(*RoomSnapshot)(nil),             // 16: fluxroom.v1.RoomSnapshot
+	(*JoinBenchRequest)(nil),         // 17: fluxroom.v1.JoinBenchRequest
+	(*JoinBenchResponse)(nil),        // 18: fluxroom.v1.JoinBenchResponse
+	(*SubmitReadingRequest)(nil),     // 19: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),    // 20: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),     // 21: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),    // 22: fluxroom.v1.GetBenchStateResponse
+	(*ListExperimentsRequest)(nil),   // 23: fluxroom.v1.ListExperimentsRequest
+	(*ListExperimentsResponse)(nil),  // 24: fluxroom.v1.ListExperimentsResponse
+	(*UpdateSessionRequest)(nil),     // 25: fluxroom.v1.UpdateSessionRequest
+	(*UpdateSessionResponse)(nil),    // 26: fluxroom.v1.UpdateSessionResponse
+	(*AddNoteRequest)(nil),           // 27: fluxroom.v1.AddNoteRequest
+	(*AddNoteResponse)(nil),          // 28: fluxroom.v1.AddNoteResponse
+	(*AcknowledgeAlertRequest)(nil),  // 29: fluxroom.v1.AcknowledgeAlertRequest
+	(*AcknowledgeAlertResponse)(nil), // 30: fluxroom.v1.AcknowledgeAlertResponse
+	(*CreateSessionRequest)(nil),     // 31: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),    // 32: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),      // 33: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),     // 34: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),        // 35: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),       // 36: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),         // 37: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),        // 38: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),    // 39: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 40: fluxroom.v1.GetBenchDetailResponse
+	nil,                              // 41: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 42: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 43: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 44: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	32, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
-	29, // 1: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	30, // 2: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	32, // 3: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
-	7,  // 4: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
-	3,  // 5: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
-	0,  // 6: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
-	5,  // 7: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	32, // 8: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
-	1,  // 9: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
-	1,  // 10: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
-	6,  // 11: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
-	10, // 12: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
-	4,  // 13: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
-	9,  // 14: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
-	2,  // 15: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
-	10, // 16: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
-	7,  // 17: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
-	3,  // 18: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	31, // 19: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	4,  // 20: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	10, // 21: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	10, // 22: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	2,  // 23: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	2,  // 24: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	3,  // 25: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	3,  // 26: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	12, // 27: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	10, // 28: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	8,  // 29: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	11, // 30: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	1,  // 31: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 32: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 33: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	34, // [34:34] is the sub-list for method output_type
-	34, // [34:34] is the sub-list for method input_type
-	34, // [34:34] is the sub-list for extension type_name
-	34, // [34:34] is the sub-list for extension extendee
-	0,  // [0:34] is the sub-list for field type_name
+	44, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	3,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
+	4,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
+	4,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
+	44, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	41, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	42, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	44, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	11, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
+	7,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
+	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
+	9,  // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
+	44, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	1,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
+	1,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
+	10, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
+	14, // 16: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
+	8,  // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
+	13, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
+	6,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
+	2,  // 20: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
+	14, // 21: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
+	11, // 22: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
+	7,  // 23: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
+	43, // 24: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	8,  // 25: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	14, // 26: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
+	14, // 27: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	8,  // 28: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	5,  // 29: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	3,  // 30: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	2,  // 31: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	6,  // 32: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	6,  // 33: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	3,  // 34: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	2,  // 35: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	2,  // 36: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	7,  // 37: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	7,  // 38: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	16, // 39: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	14, // 40: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	12, // 41: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	15, // 42: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	1,  // 43: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 44: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 45: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	46, // [46:46] is the sub-list for method output_type
+	46, // [46:46] is the sub-list for method input_type
+	46, // [46:46] is the sub-list for extension type_name
+	46, // [46:46] is the sub-list for extension extendee
+	0,  // [0:46] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -2205,7 +3110,7 @@ func file_fluxroom_v1_messages_proto_init() {
 	if File_fluxroom_v1_messages_proto != nil {
 		return
 	}
-	file_fluxroom_v1_messages_proto_msgTypes[25].OneofWrappers = []any{
+	file_fluxroom_v1_messages_proto_msgTypes[37].OneofWrappers = []any{
 		(*WatchRoomResponse_Snapshot)(nil),
 		(*WatchRoomResponse_Bench)(nil),
 		(*WatchRoomResponse_Findings)(nil),
@@ -2216,7 +3121,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      1,
-			NumMessages:   31,
+			NumMessages:   43,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -87,13 +87,15 @@ func (x *Quantity) GetUncertainty() float64 {
 }
 
 type Session struct {
-	state           protoimpl.MessageState `protogen:"open.v1"`
-	SessionId       uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	Title           string                 `protobuf:"bytes,2,opt,name=title,proto3" json:"title,omitempty"`
-	JoinCode        string                 `protobuf:"bytes,3,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
-	CreatedUnixNano int64                  `protobuf:"varint,4,opt,name=created_unix_nano,json=createdUnixNano,proto3" json:"created_unix_nano,omitempty"`
-	unknownFields   protoimpl.UnknownFields
-	sizeCache       protoimpl.SizeCache
+	state               protoimpl.MessageState `protogen:"open.v1"`
+	SessionId           uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	Title               string                 `protobuf:"bytes,2,opt,name=title,proto3" json:"title,omitempty"`
+	JoinCode            string                 `protobuf:"bytes,3,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
+	CreatedUnixNano     int64                  `protobuf:"varint,4,opt,name=created_unix_nano,json=createdUnixNano,proto3" json:"created_unix_nano,omitempty"`
+	Tolerance           *Tolerance             `protobuf:"bytes,5,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
+	StationsSeeVerdicts bool                   `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
+	unknownFields       protoimpl.UnknownFields
+	sizeCache           protoimpl.SizeCache
 }
 
 func (x *Session) Reset() {
@@ -154,6 +156,166 @@ func (x *Session) GetCreatedUnixNano() int64 {
 	return 0
 }
 
+func (x *Session) GetTolerance() *Tolerance {
+	if x != nil {
+		return x.Tolerance
+	}
+	return nil
+}
+
+func (x *Session) GetStationsSeeVerdicts() bool {
+	if x != nil {
+		return x.StationsSeeVerdicts
+	}
+	return false
+}
+
+type Tolerance struct {
+	state             protoimpl.MessageState `protogen:"open.v1"`
+	ZConsistent       float64                `protobuf:"fixed64,1,opt,name=z_consistent,json=zConsistent,proto3" json:"z_consistent,omitempty"`
+	ZOff              float64                `protobuf:"fixed64,2,opt,name=z_off,json=zOff,proto3" json:"z_off,omitempty"`
+	GoodPercent       float64                `protobuf:"fixed64,3,opt,name=good_percent,json=goodPercent,proto3" json:"good_percent,omitempty"`
+	AcceptablePercent float64                `protobuf:"fixed64,4,opt,name=acceptable_percent,json=acceptablePercent,proto3" json:"acceptable_percent,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
+}
+
+func (x *Tolerance) Reset() {
+	*x = Tolerance{}
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Tolerance) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Tolerance) ProtoMessage() {}
+
+func (x *Tolerance) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Tolerance.ProtoReflect.Descriptor instead.
+func (*Tolerance) Descriptor() ([]byte, []int) {
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{2}
+}
+
+func (x *Tolerance) GetZConsistent() float64 {
+	if x != nil {
+		return x.ZConsistent
+	}
+	return 0
+}
+
+func (x *Tolerance) GetZOff() float64 {
+	if x != nil {
+		return x.ZOff
+	}
+	return 0
+}
+
+func (x *Tolerance) GetGoodPercent() float64 {
+	if x != nil {
+		return x.GoodPercent
+	}
+	return 0
+}
+
+func (x *Tolerance) GetAcceptablePercent() float64 {
+	if x != nil {
+		return x.AcceptablePercent
+	}
+	return 0
+}
+
+// Event is one entry of a session's audit log: a note or an acknowledged
+// alert.
+type Event struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	BenchId       uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Kind          string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
+	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	AtUnixNano    int64                  `protobuf:"varint,5,opt,name=at_unix_nano,json=atUnixNano,proto3" json:"at_unix_nano,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Event) Reset() {
+	*x = Event{}
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Event) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Event) ProtoMessage() {}
+
+func (x *Event) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Event.ProtoReflect.Descriptor instead.
+func (*Event) Descriptor() ([]byte, []int) {
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{3}
+}
+
+func (x *Event) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *Event) GetKind() string {
+	if x != nil {
+		return x.Kind
+	}
+	return ""
+}
+
+func (x *Event) GetText() string {
+	if x != nil {
+		return x.Text
+	}
+	return ""
+}
+
+func (x *Event) GetAuthor() string {
+	if x != nil {
+		return x.Author
+	}
+	return ""
+}
+
+func (x *Event) GetAtUnixNano() int64 {
+	if x != nil {
+		return x.AtUnixNano
+	}
+	return 0
+}
+
 type Bench struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
 	BenchId       uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
@@ -168,7 +330,7 @@ type Bench struct {
 
 func (x *Bench) Reset() {
 	*x = Bench{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -180,7 +342,7 @@ func (x *Bench) String() string {
 func (*Bench) ProtoMessage() {}
 
 func (x *Bench) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -193,7 +355,7 @@ func (x *Bench) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Bench.ProtoReflect.Descriptor instead.
 func (*Bench) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{2}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{4}
 }
 
 func (x *Bench) GetBenchId() uint64 {
@@ -244,13 +406,14 @@ type Reading struct {
 	Values           map[string]*Quantity   `protobuf:"bytes,2,rep,name=values,proto3" json:"values,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
 	ReceivedUnixNano int64                  `protobuf:"varint,3,opt,name=received_unix_nano,json=receivedUnixNano,proto3" json:"received_unix_nano,omitempty"`
 	Sequence         uint64                 `protobuf:"varint,4,opt,name=sequence,proto3" json:"sequence,omitempty"`
+	Supersedes       string                 `protobuf:"bytes,5,opt,name=supersedes,proto3" json:"supersedes,omitempty"`
 	unknownFields    protoimpl.UnknownFields
 	sizeCache        protoimpl.SizeCache
 }
 
 func (x *Reading) Reset() {
 	*x = Reading{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -262,7 +425,7 @@ func (x *Reading) String() string {
 func (*Reading) ProtoMessage() {}
 
 func (x *Reading) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -275,7 +438,7 @@ func (x *Reading) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Reading.ProtoReflect.Descriptor instead.
 func (*Reading) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{3}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{5}
 }
 
 func (x *Reading) GetReadingId() string {
@@ -306,6 +469,13 @@ func (x *Reading) GetSequence() uint64 {
 	return 0
 }
 
+func (x *Reading) GetSupersedes() string {
+	if x != nil {
+		return x.Supersedes
+	}
+	return ""
+}
+
 var File_fluxroom_record_v1_records_proto protoreflect.FileDescriptor
 
 const file_fluxroom_record_v1_records_proto_rawDesc = "" +
@@ -314,13 +484,27 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\x87\x01\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xf8\x01\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
 	"\x05title\x18\x02 \x01(\tR\x05title\x12\x1b\n" +
 	"\tjoin_code\x18\x03 \x01(\tR\bjoinCode\x12*\n" +
-	"\x11created_unix_nano\x18\x04 \x01(\x03R\x0fcreatedUnixNano\"\xa6\x02\n" +
+	"\x11created_unix_nano\x18\x04 \x01(\x03R\x0fcreatedUnixNano\x12;\n" +
+	"\ttolerance\x18\x05 \x01(\v2\x1d.fluxroom.record.v1.ToleranceR\ttolerance\x122\n" +
+	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\"\x95\x01\n" +
+	"\tTolerance\x12!\n" +
+	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
+	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
+	"\fgood_percent\x18\x03 \x01(\x01R\vgoodPercent\x12-\n" +
+	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\x84\x01\n" +
+	"\x05Event\x12\x19\n" +
+	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x12\n" +
+	"\x04kind\x18\x02 \x01(\tR\x04kind\x12\x12\n" +
+	"\x04text\x18\x03 \x01(\tR\x04text\x12\x16\n" +
+	"\x06author\x18\x04 \x01(\tR\x06author\x12 \n" +
+	"\fat_unix_nano\x18\x05 \x01(\x03R\n" +
+	"atUnixNano\"\xa6\x02\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -332,13 +516,16 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\tconstants\x18\x06 \x03(\v2(.fluxroom.record.v1.Bench.ConstantsEntryR\tconstants\x1aZ\n" +
 	"\x0eConstantsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
-	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\x8c\x02\n" +
+	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\xac\x02\n" +
 	"\aReading\x12\x1d\n" +
 	"\n" +
 	"reading_id\x18\x01 \x01(\tR\treadingId\x12?\n" +
 	"\x06values\x18\x02 \x03(\v2'.fluxroom.record.v1.Reading.ValuesEntryR\x06values\x12,\n" +
 	"\x12received_unix_nano\x18\x03 \x01(\x03R\x10receivedUnixNano\x12\x1a\n" +
-	"\bsequence\x18\x04 \x01(\x04R\bsequence\x1aW\n" +
+	"\bsequence\x18\x04 \x01(\x04R\bsequence\x12\x1e\n" +
+	"\n" +
+	"supersedes\x18\x05 \x01(\tR\n" +
+	"supersedes\x1aW\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
 	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01B.Z,example.com/fluxroom/proto/recordpb;recordpbb\x06proto3"
@@ -355,25 +542,28 @@ func file_fluxroom_record_v1_records_proto_rawDescGZIP() []byte {
 	return file_fluxroom_record_v1_records_proto_rawDescData
 }
 
-var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 6)
+var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 8)
 var file_fluxroom_record_v1_records_proto_goTypes = []any{
-	(*Quantity)(nil), // 0: fluxroom.record.v1.Quantity
-	(*Session)(nil),  // 1: fluxroom.record.v1.Session
-	(*Bench)(nil),    // 2: fluxroom.record.v1.Bench
-	(*Reading)(nil),  // 3: fluxroom.record.v1.Reading
-	nil,              // 4: fluxroom.record.v1.Bench.ConstantsEntry
-	nil,              // 5: fluxroom.record.v1.Reading.ValuesEntry
+	(*Quantity)(nil),  // 0: fluxroom.record.v1.Quantity
+	(*Session)(nil),   // 1: fluxroom.record.v1.Session
+	(*Tolerance)(nil), // 2: fluxroom.record.v1.Tolerance
+	(*Event)(nil),     // 3: fluxroom.record.v1.Event
+	(*Bench)(nil),     // 4: fluxroom.record.v1.Bench
+	(*Reading)(nil),   // 5: fluxroom.record.v1.Reading
+	nil,               // 6: fluxroom.record.v1.Bench.ConstantsEntry
+	nil,               // 7: fluxroom.record.v1.Reading.ValuesEntry
 }
 var file_fluxroom_record_v1_records_proto_depIdxs = []int32{
-	4, // 0: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.Bench.ConstantsEntry
-	5, // 1: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.Reading.ValuesEntry
-	0, // 2: fluxroom.record.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.record.v1.Quantity
-	0, // 3: fluxroom.record.v1.Reading.ValuesEntry.value:type_name -> fluxroom.record.v1.Quantity
-	4, // [4:4] is the sub-list for method output_type
-	4, // [4:4] is the sub-list for method input_type
-	4, // [4:4] is the sub-list for extension type_name
-	4, // [4:4] is the sub-list for extension extendee
-	0, // [0:4] is the sub-list for field type_name
+	2, // 0: fluxroom.record.v1.Session.tolerance:type_name -> fluxroom.record.v1.Tolerance
+	6, // 1: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.Bench.ConstantsEntry
+	7, // 2: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.Reading.ValuesEntry
+	0, // 3: fluxroom.record.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.record.v1.Quantity
+	0, // 4: fluxroom.record.v1.Reading.ValuesEntry.value:type_name -> fluxroom.record.v1.Quantity
+	5, // [5:5] is the sub-list for method output_type
+	5, // [5:5] is the sub-list for method input_type
+	5, // [5:5] is the sub-list for extension type_name
+	5, // [5:5] is the sub-list for extension extendee
+	0, // [0:5] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_record_v1_records_proto_init() }
@@ -387,7 +577,7 @@ func file_fluxroom_record_v1_records_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_record_v1_records_proto_rawDesc), len(file_fluxroom_record_v1_records_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   6,
+			NumMessages:   8,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

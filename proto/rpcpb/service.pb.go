@@ -30,56 +30,76 @@ var File_fluxroom_v1_service_proto protoreflect.FileDescriptor
 
 const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\n" +
-	"\x19fluxroom/v1/service.proto\x12\vfluxroom.v1\x1a\x1afluxroom/v1/messages.proto2\x8c\x02\n" +
+	"\x19fluxroom/v1/service.proto\x12\vfluxroom.v1\x1a\x1afluxroom/v1/messages.proto2\xea\x02\n" +
 	"\x0eStationService\x12J\n" +
 	"\tJoinBench\x12\x1d.fluxroom.v1.JoinBenchRequest\x1a\x1e.fluxroom.v1.JoinBenchResponse\x12V\n" +
 	"\rSubmitReading\x12!.fluxroom.v1.SubmitReadingRequest\x1a\".fluxroom.v1.SubmitReadingResponse\x12V\n" +
-	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse2\xb8\x03\n" +
+	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse\x12\\\n" +
+	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xb7\x05\n" +
 	"\x11InstructorService\x12V\n" +
 	"\rCreateSession\x12!.fluxroom.v1.CreateSessionRequest\x1a\".fluxroom.v1.CreateSessionResponse\x12S\n" +
 	"\fListSessions\x12 .fluxroom.v1.ListSessionsRequest\x1a!.fluxroom.v1.ListSessionsResponse\x12M\n" +
 	"\n" +
 	"SetBenches\x12\x1e.fluxroom.v1.SetBenchesRequest\x1a\x1f.fluxroom.v1.SetBenchesResponse\x12L\n" +
 	"\tWatchRoom\x12\x1d.fluxroom.v1.WatchRoomRequest\x1a\x1e.fluxroom.v1.WatchRoomResponse0\x01\x12Y\n" +
-	"\x0eGetBenchDetail\x12\".fluxroom.v1.GetBenchDetailRequest\x1a#.fluxroom.v1.GetBenchDetailResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
+	"\x0eGetBenchDetail\x12\".fluxroom.v1.GetBenchDetailRequest\x1a#.fluxroom.v1.GetBenchDetailResponse\x12V\n" +
+	"\rUpdateSession\x12!.fluxroom.v1.UpdateSessionRequest\x1a\".fluxroom.v1.UpdateSessionResponse\x12D\n" +
+	"\aAddNote\x12\x1b.fluxroom.v1.AddNoteRequest\x1a\x1c.fluxroom.v1.AddNoteResponse\x12_\n" +
+	"\x10AcknowledgeAlert\x12$.fluxroom.v1.AcknowledgeAlertRequest\x1a%.fluxroom.v1.AcknowledgeAlertResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
 
 var file_fluxroom_v1_service_proto_goTypes = []any{
-	(*fluxroompb.JoinBenchRequest)(nil),       // 0: fluxroom.v1.JoinBenchRequest
-	(*fluxroompb.SubmitReadingRequest)(nil),   // 1: fluxroom.v1.SubmitReadingRequest
-	(*fluxroompb.GetBenchStateRequest)(nil),   // 2: fluxroom.v1.GetBenchStateRequest
-	(*fluxroompb.CreateSessionRequest)(nil),   // 3: fluxroom.v1.CreateSessionRequest
-	(*fluxroompb.ListSessionsRequest)(nil),    // 4: fluxroom.v1.ListSessionsRequest
-	(*fluxroompb.SetBenchesRequest)(nil),      // 5: fluxroom.v1.SetBenchesRequest
-	(*fluxroompb.WatchRoomRequest)(nil),       // 6: fluxroom.v1.WatchRoomRequest
-	(*fluxroompb.GetBenchDetailRequest)(nil),  // 7: fluxroom.v1.GetBenchDetailRequest
-	(*fluxroompb.JoinBenchResponse)(nil),      // 8: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),  // 9: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),  // 10: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.CreateSessionResponse)(nil),  // 11: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),   // 12: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),     // 13: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),      // 14: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil), // 15: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.JoinBenchRequest)(nil),         // 0: fluxroom.v1.JoinBenchRequest
+	(*fluxroompb.SubmitReadingRequest)(nil),     // 1: fluxroom.v1.SubmitReadingRequest
+	(*fluxroompb.GetBenchStateRequest)(nil),     // 2: fluxroom.v1.GetBenchStateRequest
+	(*fluxroompb.ListExperimentsRequest)(nil),   // 3: fluxroom.v1.ListExperimentsRequest
+	(*fluxroompb.CreateSessionRequest)(nil),     // 4: fluxroom.v1.CreateSessionRequest
+	(*fluxroompb.ListSessionsRequest)(nil),      // 5: fluxroom.v1.ListSessionsRequest
+	(*fluxroompb.SetBenchesRequest)(nil),        // 6: fluxroom.v1.SetBenchesRequest
+	(*fluxroompb.WatchRoomRequest)(nil),         // 7: fluxroom.v1.WatchRoomRequest
+	(*fluxroompb.GetBenchDetailRequest)(nil),    // 8: fluxroom.v1.GetBenchDetailRequest
+	(*fluxroompb.UpdateSessionRequest)(nil),     // 9: fluxroom.v1.UpdateSessionRequest
+	(*fluxroompb.AddNoteRequest)(nil),           // 10: fluxroom.v1.AddNoteRequest
+	(*fluxroompb.AcknowledgeAlertRequest)(nil),  // 11: fluxroom.v1.AcknowledgeAlertRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 12: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 13: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 14: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 15: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 16: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 17: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 18: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 19: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 20: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 21: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 22: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 23: fluxroom.v1.AcknowledgeAlertResponse
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
 	1,  // 1: fluxroom.v1.StationService.SubmitReading:input_type -> fluxroom.v1.SubmitReadingRequest
 	2,  // 2: fluxroom.v1.StationService.GetBenchState:input_type -> fluxroom.v1.GetBenchStateRequest
-	3,  // 3: fluxroom.v1.InstructorService.CreateSession:input_type -> fluxroom.v1.CreateSessionRequest
-	4,  // 4: fluxroom.v1.InstructorService.ListSessions:input_type -> fluxroom.v1.ListSessionsRequest
-	5,  // 5: fluxroom.v1.InstructorService.SetBenches:input_type -> fluxroom.v1.SetBenchesRequest
-	6,  // 6: fluxroom.v1.InstructorService.WatchRoom:input_type -> fluxroom.v1.WatchRoomRequest
-	7,  // 7: fluxroom.v1.InstructorService.GetBenchDetail:input_type -> fluxroom.v1.GetBenchDetailRequest
-	8,  // 8: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	9,  // 9: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	10, // 10: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	11, // 11: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	12, // 12: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	13, // 13: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	14, // 14: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	15, // 15: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	8,  // [8:16] is the sub-list for method output_type
-	0,  // [0:8] is the sub-list for method input_type
+	3,  // 3: fluxroom.v1.StationService.ListExperiments:input_type -> fluxroom.v1.ListExperimentsRequest
+	4,  // 4: fluxroom.v1.InstructorService.CreateSession:input_type -> fluxroom.v1.CreateSessionRequest
+	5,  // 5: fluxroom.v1.InstructorService.ListSessions:input_type -> fluxroom.v1.ListSessionsRequest
+	6,  // 6: fluxroom.v1.InstructorService.SetBenches:input_type -> fluxroom.v1.SetBenchesRequest
+	7,  // 7: fluxroom.v1.InstructorService.WatchRoom:input_type -> fluxroom.v1.WatchRoomRequest
+	8,  // 8: fluxroom.v1.InstructorService.GetBenchDetail:input_type -> fluxroom.v1.GetBenchDetailRequest
+	9,  // 9: fluxroom.v1.InstructorService.UpdateSession:input_type -> fluxroom.v1.UpdateSessionRequest
+	10, // 10: fluxroom.v1.InstructorService.AddNote:input_type -> fluxroom.v1.AddNoteRequest
+	11, // 11: fluxroom.v1.InstructorService.AcknowledgeAlert:input_type -> fluxroom.v1.AcknowledgeAlertRequest
+	12, // 12: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	13, // 13: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	14, // 14: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	15, // 15: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	16, // 16: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	17, // 17: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	18, // 18: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	19, // 19: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	20, // 20: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	21, // 21: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	22, // 22: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	23, // 23: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	12, // [12:24] is the sub-list for method output_type
+	0,  // [0:12] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name

@@ -25,9 +25,10 @@ import (
 const _ = grpc.SupportPackageIsVersion9
 
 const (
-	StationService_JoinBench_FullMethodName     = "/fluxroom.v1.StationService/JoinBench"
-	StationService_SubmitReading_FullMethodName = "/fluxroom.v1.StationService/SubmitReading"
-	StationService_GetBenchState_FullMethodName = "/fluxroom.v1.StationService/GetBenchState"
+	StationService_JoinBench_FullMethodName       = "/fluxroom.v1.StationService/JoinBench"
+	StationService_SubmitReading_FullMethodName   = "/fluxroom.v1.StationService/SubmitReading"
+	StationService_GetBenchState_FullMethodName   = "/fluxroom.v1.StationService/GetBenchState"
+	StationService_ListExperiments_FullMethodName = "/fluxroom.v1.StationService/ListExperiments"
 )
 
 // StationServiceClient is the client API for StationService service.
@@ -41,8 +42,11 @@ type StationServiceClient interface {
 	JoinBench(ctx context.Context, in *fluxroompb.JoinBenchRequest, opts ...grpc.CallOption) (*fluxroompb.JoinBenchResponse, error)
 	// SubmitReading stores one reading and returns the bench's new state.
 	SubmitReading(ctx context.Context, in *fluxroompb.SubmitReadingRequest, opts ...grpc.CallOption) (*fluxroompb.SubmitReadingResponse, error)
-	// GetBenchState returns the bench's current state.
+	// GetBenchState returns the bench's own readings, and its state as far
+	// as the session shows it to stations.
 	GetBenchState(ctx context.Context, in *fluxroompb.GetBenchStateRequest, opts ...grpc.CallOption) (*fluxroompb.GetBenchStateResponse, error)
+	// ListExperiments describes every experiment's constants and readings.
+	ListExperiments(ctx context.Context, in *fluxroompb.ListExperimentsRequest, opts ...grpc.CallOption) (*fluxroompb.ListExperimentsResponse, error)
 }
 
 type stationServiceClient struct {
@@ -83,6 +87,16 @@ func (c *stationServiceClient) GetBenchState(ctx context.Context, in *fluxroompb
 	return out, nil
 }
 
+func (c *stationServiceClient) ListExperiments(ctx context.Context, in *fluxroompb.ListExperimentsRequest, opts ...grpc.CallOption) (*fluxroompb.ListExperimentsResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.ListExperimentsResponse)
+	err := c.cc.Invoke(ctx, StationService_ListExperiments_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // StationServiceServer is the server API for StationService service.
 // All implementations must embed UnimplementedStationServiceServer
 // for forward compatibility.
@@ -94,8 +108,11 @@ type StationServiceServer interface {
 	JoinBench(context.Context, *fluxroompb.JoinBenchRequest) (*fluxroompb.JoinBenchResponse, error)
 	// SubmitReading stores one reading and returns the bench's new state.
 	SubmitReading(context.Context, *fluxroompb.SubmitReadingRequest) (*fluxroompb.SubmitReadingResponse, error)
-	// GetBenchState returns the bench's current state.
+	// GetBenchState returns the bench's own readings, and its state as far
+	// as the session shows it to stations.
 	GetBenchState(context.Context, *fluxroompb.GetBenchStateRequest) (*fluxroompb.GetBenchStateResponse, error)
+	// ListExperiments describes every experiment's constants and readings.
+	ListExperiments(context.Context, *fluxroompb.ListExperimentsRequest) (*fluxroompb.ListExperimentsResponse, error)
 	mustEmbedUnimplementedStationServiceServer()
 }
 
@@ -114,6 +131,9 @@ func (UnimplementedStationServiceServer) SubmitReading(context.Context, *fluxroo
 }
 func (UnimplementedStationServiceServer) GetBenchState(context.Context, *fluxroompb.GetBenchStateRequest) (*fluxroompb.GetBenchStateResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method GetBenchState not implemented")
+}
+func (UnimplementedStationServiceServer) ListExperiments(context.Context, *fluxroompb.ListExperimentsRequest) (*fluxroompb.ListExperimentsResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListExperiments not implemented")
 }
 func (UnimplementedStationServiceServer) mustEmbedUnimplementedStationServiceServer() {}
 func (UnimplementedStationServiceServer) testEmbeddedByValue()                        {}
@@ -190,6 +210,24 @@ func _StationService_GetBenchState_Handler(srv interface{}, ctx context.Context,
 	return interceptor(ctx, in, info, handler)
 }
 
+func _StationService_ListExperiments_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.ListExperimentsRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StationServiceServer).ListExperiments(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StationService_ListExperiments_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StationServiceServer).ListExperiments(ctx, req.(*fluxroompb.ListExperimentsRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // StationService_ServiceDesc is the grpc.ServiceDesc for StationService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -209,17 +247,24 @@ var StationService_ServiceDesc = grpc.ServiceDesc{
 			MethodName: "GetBenchState",
 			Handler:    _StationService_GetBenchState_Handler,
 		},
+		{
+			MethodName: "ListExperiments",
+			Handler:    _StationService_ListExperiments_Handler,
+		},
 	},
 	Streams:  []grpc.StreamDesc{},
 	Metadata: "fluxroom/v1/service.proto",
 }
 
 const (
-	InstructorService_CreateSession_FullMethodName  = "/fluxroom.v1.InstructorService/CreateSession"
-	InstructorService_ListSessions_FullMethodName   = "/fluxroom.v1.InstructorService/ListSessions"
-	InstructorService_SetBenches_FullMethodName     = "/fluxroom.v1.InstructorService/SetBenches"
-	InstructorService_WatchRoom_FullMethodName      = "/fluxroom.v1.InstructorService/WatchRoom"
-	InstructorService_GetBenchDetail_FullMethodName = "/fluxroom.v1.InstructorService/GetBenchDetail"
+	InstructorService_CreateSession_FullMethodName    = "/fluxroom.v1.InstructorService/CreateSession"
+	InstructorService_ListSessions_FullMethodName     = "/fluxroom.v1.InstructorService/ListSessions"
+	InstructorService_SetBenches_FullMethodName       = "/fluxroom.v1.InstructorService/SetBenches"
+	InstructorService_WatchRoom_FullMethodName        = "/fluxroom.v1.InstructorService/WatchRoom"
+	InstructorService_GetBenchDetail_FullMethodName   = "/fluxroom.v1.InstructorService/GetBenchDetail"
+	InstructorService_UpdateSession_FullMethodName    = "/fluxroom.v1.InstructorService/UpdateSession"
+	InstructorService_AddNote_FullMethodName          = "/fluxroom.v1.InstructorService/AddNote"
+	InstructorService_AcknowledgeAlert_FullMethodName = "/fluxroom.v1.InstructorService/AcknowledgeAlert"
 )
 
 // InstructorServiceClient is the client API for InstructorService service.
@@ -234,6 +279,12 @@ type InstructorServiceClient interface {
 	// WatchRoom streams a snapshot of the room, then every bench change.
 	WatchRoom(ctx context.Context, in *fluxroompb.WatchRoomRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[fluxroompb.WatchRoomResponse], error)
 	GetBenchDetail(ctx context.Context, in *fluxroompb.GetBenchDetailRequest, opts ...grpc.CallOption) (*fluxroompb.GetBenchDetailResponse, error)
+	UpdateSession(ctx context.Context, in *fluxroompb.UpdateSessionRequest, opts ...grpc.CallOption) (*fluxroompb.UpdateSessionResponse, error)
+	// AddNote stores a timestamped note on a bench in the audit log.
+	AddNote(ctx context.Context, in *fluxroompb.AddNoteRequest, opts ...grpc.CallOption) (*fluxroompb.AddNoteResponse, error)
+	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
+	// alert; a later unsafe reading raises it again.
+	AcknowledgeAlert(ctx context.Context, in *fluxroompb.AcknowledgeAlertRequest, opts ...grpc.CallOption) (*fluxroompb.AcknowledgeAlertResponse, error)
 }
 
 type instructorServiceClient struct {
@@ -303,6 +354,36 @@ func (c *instructorServiceClient) GetBenchDetail(ctx context.Context, in *fluxro
 	return out, nil
 }
 
+func (c *instructorServiceClient) UpdateSession(ctx context.Context, in *fluxroompb.UpdateSessionRequest, opts ...grpc.CallOption) (*fluxroompb.UpdateSessionResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.UpdateSessionResponse)
+	err := c.cc.Invoke(ctx, InstructorService_UpdateSession_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *instructorServiceClient) AddNote(ctx context.Context, in *fluxroompb.AddNoteRequest, opts ...grpc.CallOption) (*fluxroompb.AddNoteResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.AddNoteResponse)
+	err := c.cc.Invoke(ctx, InstructorService_AddNote_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *instructorServiceClient) AcknowledgeAlert(ctx context.Context, in *fluxroompb.AcknowledgeAlertRequest, opts ...grpc.CallOption) (*fluxroompb.AcknowledgeAlertResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.AcknowledgeAlertResponse)
+	err := c.cc.Invoke(ctx, InstructorService_AcknowledgeAlert_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // InstructorServiceServer is the server API for InstructorService service.
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
@@ -315,6 +396,12 @@ type InstructorServiceServer interface {
 	// WatchRoom streams a snapshot of the room, then every bench change.
 	WatchRoom(*fluxroompb.WatchRoomRequest, grpc.ServerStreamingServer[fluxroompb.WatchRoomResponse]) error
 	GetBenchDetail(context.Context, *fluxroompb.GetBenchDetailRequest) (*fluxroompb.GetBenchDetailResponse, error)
+	UpdateSession(context.Context, *fluxroompb.UpdateSessionRequest) (*fluxroompb.UpdateSessionResponse, error)
+	// AddNote stores a timestamped note on a bench in the audit log.
+	AddNote(context.Context, *fluxroompb.AddNoteRequest) (*fluxroompb.AddNoteResponse, error)
+	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
+	// alert; a later unsafe reading raises it again.
+	AcknowledgeAlert(context.Context, *fluxroompb.AcknowledgeAlertRequest) (*fluxroompb.AcknowledgeAlertResponse, error)
 	mustEmbedUnimplementedInstructorServiceServer()
 }
 
@@ -339,6 +426,15 @@ func (UnimplementedInstructorServiceServer) WatchRoom(*fluxroompb.WatchRoomReque
 }
 func (UnimplementedInstructorServiceServer) GetBenchDetail(context.Context, *fluxroompb.GetBenchDetailRequest) (*fluxroompb.GetBenchDetailResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method GetBenchDetail not implemented")
+}
+func (UnimplementedInstructorServiceServer) UpdateSession(context.Context, *fluxroompb.UpdateSessionRequest) (*fluxroompb.UpdateSessionResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method UpdateSession not implemented")
+}
+func (UnimplementedInstructorServiceServer) AddNote(context.Context, *fluxroompb.AddNoteRequest) (*fluxroompb.AddNoteResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method AddNote not implemented")
+}
+func (UnimplementedInstructorServiceServer) AcknowledgeAlert(context.Context, *fluxroompb.AcknowledgeAlertRequest) (*fluxroompb.AcknowledgeAlertResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method AcknowledgeAlert not implemented")
 }
 func (UnimplementedInstructorServiceServer) mustEmbedUnimplementedInstructorServiceServer() {}
 func (UnimplementedInstructorServiceServer) testEmbeddedByValue()                           {}
@@ -444,6 +540,60 @@ func _InstructorService_GetBenchDetail_Handler(srv interface{}, ctx context.Cont
 	return interceptor(ctx, in, info, handler)
 }
 
+func _InstructorService_UpdateSession_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.UpdateSessionRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).UpdateSession(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_UpdateSession_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).UpdateSession(ctx, req.(*fluxroompb.UpdateSessionRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _InstructorService_AddNote_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.AddNoteRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).AddNote(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_AddNote_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).AddNote(ctx, req.(*fluxroompb.AddNoteRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _InstructorService_AcknowledgeAlert_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.AcknowledgeAlertRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).AcknowledgeAlert(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_AcknowledgeAlert_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).AcknowledgeAlert(ctx, req.(*fluxroompb.AcknowledgeAlertRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // InstructorService_ServiceDesc is the grpc.ServiceDesc for InstructorService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -466,6 +616,18 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "GetBenchDetail",
 			Handler:    _InstructorService_GetBenchDetail_Handler,
+		},
+		{
+			MethodName: "UpdateSession",
+			Handler:    _InstructorService_UpdateSession_Handler,
+		},
+		{
+			MethodName: "AddNote",
+			Handler:    _InstructorService_AddNote_Handler,
+		},
+		{
+			MethodName: "AcknowledgeAlert",
+			Handler:    _InstructorService_AcknowledgeAlert_Handler,
 		},
 	},
 	Streams: []grpc.StreamDesc{
