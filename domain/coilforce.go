@@ -126,6 +126,13 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) (A
 		FormatMeasurement(slope.Value, slope.Uncertainty, "N/A"),
 		FormatMeasurement(predicted.Value, predicted.Uncertainty, ""), pct, z)
 
+	pts := make([]PlotPoint, len(rs))
+	for i := range rs {
+		pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, fit.ResidualSD), ReadingID: rs[i].id}
+	}
+	plot := linePlot("current I (A)", "force F (N)", pts, fit.Intercept, fit.Slope, pred, tol.GoodPercent)
+	a.Plot = &plot
+
 	var fs findings
 	rho := slope.Value / pred
 	uRel := math.Hypot(slope.RelUncertainty(), predicted.RelUncertainty())

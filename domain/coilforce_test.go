@@ -195,3 +195,24 @@ func TestFormatMeasurement(t *testing.T) {
 		}
 	}
 }
+
+func TestPlotOfEveryExperiment(t *testing.T) {
+	for _, exp := range SimulatedExperiments() {
+		g := simulate(t, exp, "", 11)
+		a := Assess(g.Bench, g.Readings, DefaultTolerance)
+		if a.Plot == nil || len(a.Plot.Points) != len(g.Readings) {
+			t.Errorf("%s: plot %+v, want %d points", exp, a.Plot, len(g.Readings))
+			continue
+		}
+		for _, l := range [][]XY{a.Plot.Theory, a.Plot.Fit, a.Plot.BandLow, a.Plot.BandHigh} {
+			if len(l) < 2 {
+				t.Errorf("%s: a line of the plot has %d vertices", exp, len(l))
+			}
+		}
+		for _, p := range a.Plot.Points {
+			if math.IsNaN(p.X) || math.IsNaN(p.Y) || !(p.UY > 0) || p.ReadingID == "" {
+				t.Errorf("%s: point %+v", exp, p)
+			}
+		}
+	}
+}

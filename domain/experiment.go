@@ -174,6 +174,7 @@ type Experiment struct {
 type siReading struct {
 	values map[string]Measurement
 	at     time.Time
+	id     string
 }
 
 // has reports whether the reading carries the optional value name.

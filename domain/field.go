@@ -63,6 +63,13 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what 
 	a.Reason = fmt.Sprintf("%s: B/B_theory %s (%+.1f %%, z = %+.1f), %d readings",
 		what, FormatMeasurement(rho, se, ""), pct, z, len(pts))
 
+	pp := make([]PlotPoint, len(pts))
+	for i, p := range pts {
+		pp[i] = PlotPoint{X: p.theory, Y: p.measured, UY: u[i], ReadingID: p.reading.id}
+	}
+	plot := linePlot("B_theory (T)", "B measured (T)", pp, 0, rho, 1, tol.GoodPercent)
+	a.Plot = &plot
+
 	var fs findings
 	uRel := math.Hypot(se/math.Abs(rho), modelRelU)
 	if v != Consistent {

@@ -102,6 +102,8 @@ type Assessment struct {
 	Budget []BudgetItem
 	// Caution is the safety text for an unsafe bench.
 	Caution string
+	// Plot is what the bench detail draws.
+	Plot *Plot
 	// Notes are further results in words, such as an experiment's linear
 	// forms fitted on their own.
 	Notes []string
@@ -137,7 +139,7 @@ func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
 		if err != nil {
 			continue // rejected at submission; never stored
 		}
-		rs = append(rs, siReading{values: v, at: r.ReceivedAt})
+		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID})
 		if r.ReceivedAt.After(last) {
 			last = r.ReceivedAt
 		}

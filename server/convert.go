@@ -152,3 +152,22 @@ func experimentsToPB() []*pb.ExperimentSpec {
 	}
 	return out
 }
+
+func plotToPB(p *domain.Plot) *pb.Plot {
+	if p == nil {
+		return nil
+	}
+	line := func(xs []domain.XY) []*pb.PlotPoint {
+		out := make([]*pb.PlotPoint, len(xs))
+		for i, v := range xs {
+			out[i] = &pb.PlotPoint{X: v.X, Y: v.Y}
+		}
+		return out
+	}
+	out := &pb.Plot{XLabel: p.XLabel, YLabel: p.YLabel, Theory: line(p.Theory), Fit: line(p.Fit),
+		BandLow: line(p.BandLow), BandHigh: line(p.BandHigh)}
+	for _, pt := range p.Points {
+		out.Points = append(out.Points, &pb.PlotPoint{X: pt.X, Y: pt.Y, YUncertainty: pt.UY, ReadingId: pt.ReadingID})
+	}
+	return out
+}

@@ -267,7 +267,7 @@ func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBench
 	if err != nil {
 		return nil, err
 	}
-	d := &pb.BenchDetail{State: state, Fit: fitToPB(a)}
+	d := &pb.BenchDetail{State: state, Fit: fitToPB(a), Plot: plotToPB(a.Plot)}
 	for _, r := range rs {
 		d.Readings = append(d.Readings, readingToPB(r))
 	}

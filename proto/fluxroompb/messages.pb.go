@@ -1336,6 +1336,7 @@ type BenchDetail struct {
 	Notes    []*Note                `protobuf:"bytes,4,rep,name=notes,proto3" json:"notes,omitempty"`
 	// Reading ids that a later reading corrects.
 	Superseded    []string `protobuf:"bytes,5,rep,name=superseded,proto3" json:"superseded,omitempty"`
+	Plot          *Plot    `protobuf:"bytes,6,opt,name=plot,proto3" json:"plot,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1405,6 +1406,175 @@ func (x *BenchDetail) GetSuperseded() []string {
 	return nil
 }
 
+func (x *BenchDetail) GetPlot() *Plot {
+	if x != nil {
+		return x.Plot
+	}
+	return nil
+}
+
+// Plot is what the bench detail draws, in SI: the readings with error bars,
+// the fitted line, the theory line and the tolerance band.
+type Plot struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	XLabel        string                 `protobuf:"bytes,1,opt,name=x_label,json=xLabel,proto3" json:"x_label,omitempty"`
+	YLabel        string                 `protobuf:"bytes,2,opt,name=y_label,json=yLabel,proto3" json:"y_label,omitempty"`
+	Points        []*PlotPoint           `protobuf:"bytes,3,rep,name=points,proto3" json:"points,omitempty"`
+	Theory        []*PlotPoint           `protobuf:"bytes,4,rep,name=theory,proto3" json:"theory,omitempty"`
+	Fit           []*PlotPoint           `protobuf:"bytes,5,rep,name=fit,proto3" json:"fit,omitempty"`
+	BandLow       []*PlotPoint           `protobuf:"bytes,6,rep,name=band_low,json=bandLow,proto3" json:"band_low,omitempty"`
+	BandHigh      []*PlotPoint           `protobuf:"bytes,7,rep,name=band_high,json=bandHigh,proto3" json:"band_high,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *Plot) Reset() {
+	*x = Plot{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Plot) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Plot) ProtoMessage() {}
+
+func (x *Plot) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Plot.ProtoReflect.Descriptor instead.
+func (*Plot) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
+}
+
+func (x *Plot) GetXLabel() string {
+	if x != nil {
+		return x.XLabel
+	}
+	return ""
+}
+
+func (x *Plot) GetYLabel() string {
+	if x != nil {
+		return x.YLabel
+	}
+	return ""
+}
+
+func (x *Plot) GetPoints() []*PlotPoint {
+	if x != nil {
+		return x.Points
+	}
+	return nil
+}
+
+func (x *Plot) GetTheory() []*PlotPoint {
+	if x != nil {
+		return x.Theory
+	}
+	return nil
+}
+
+func (x *Plot) GetFit() []*PlotPoint {
+	if x != nil {
+		return x.Fit
+	}
+	return nil
+}
+
+func (x *Plot) GetBandLow() []*PlotPoint {
+	if x != nil {
+		return x.BandLow
+	}
+	return nil
+}
+
+func (x *Plot) GetBandHigh() []*PlotPoint {
+	if x != nil {
+		return x.BandHigh
+	}
+	return nil
+}
+
+type PlotPoint struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	X             float64                `protobuf:"fixed64,1,opt,name=x,proto3" json:"x,omitempty"`
+	Y             float64                `protobuf:"fixed64,2,opt,name=y,proto3" json:"y,omitempty"`
+	YUncertainty  float64                `protobuf:"fixed64,3,opt,name=y_uncertainty,json=yUncertainty,proto3" json:"y_uncertainty,omitempty"`
+	ReadingId     string                 `protobuf:"bytes,4,opt,name=reading_id,json=readingId,proto3" json:"reading_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *PlotPoint) Reset() {
+	*x = PlotPoint{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *PlotPoint) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*PlotPoint) ProtoMessage() {}
+
+func (x *PlotPoint) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use PlotPoint.ProtoReflect.Descriptor instead.
+func (*PlotPoint) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
+}
+
+func (x *PlotPoint) GetX() float64 {
+	if x != nil {
+		return x.X
+	}
+	return 0
+}
+
+func (x *PlotPoint) GetY() float64 {
+	if x != nil {
+		return x.Y
+	}
+	return 0
+}
+
+func (x *PlotPoint) GetYUncertainty() float64 {
+	if x != nil {
+		return x.YUncertainty
+	}
+	return 0
+}
+
+func (x *PlotPoint) GetReadingId() string {
+	if x != nil {
+		return x.ReadingId
+	}
+	return ""
+}
+
 // RoomSnapshot is the whole room at one moment.
 type RoomSnapshot struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -1417,7 +1587,7 @@ type RoomSnapshot struct {
 
 func (x *RoomSnapshot) Reset() {
 	*x = RoomSnapshot{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1429,7 +1599,7 @@ func (x *RoomSnapshot) String() string {
 func (*RoomSnapshot) ProtoMessage() {}
 
 func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[15]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1442,7 +1612,7 @@ func (x *RoomSnapshot) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RoomSnapshot.ProtoReflect.Descriptor instead.
 func (*RoomSnapshot) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{15}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
 }
 
 func (x *RoomSnapshot) GetSession() *Session {
@@ -1476,7 +1646,7 @@ type JoinBenchRequest struct {
 
 func (x *JoinBenchRequest) Reset() {
 	*x = JoinBenchRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1488,7 +1658,7 @@ func (x *JoinBenchRequest) String() string {
 func (*JoinBenchRequest) ProtoMessage() {}
 
 func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[16]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1501,7 +1671,7 @@ func (x *JoinBenchRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchRequest.ProtoReflect.Descriptor instead.
 func (*JoinBenchRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{16}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
 }
 
 func (x *JoinBenchRequest) GetJoinCode() string {
@@ -1528,7 +1698,7 @@ type JoinBenchResponse struct {
 
 func (x *JoinBenchResponse) Reset() {
 	*x = JoinBenchResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1540,7 +1710,7 @@ func (x *JoinBenchResponse) String() string {
 func (*JoinBenchResponse) ProtoMessage() {}
 
 func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[17]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1553,7 +1723,7 @@ func (x *JoinBenchResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use JoinBenchResponse.ProtoReflect.Descriptor instead.
 func (*JoinBenchResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{17}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
 }
 
 func (x *JoinBenchResponse) GetSessionId() uint64 {
@@ -1584,7 +1754,7 @@ type SubmitReadingRequest struct {
 
 func (x *SubmitReadingRequest) Reset() {
 	*x = SubmitReadingRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1596,7 +1766,7 @@ func (x *SubmitReadingRequest) String() string {
 func (*SubmitReadingRequest) ProtoMessage() {}
 
 func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[18]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1609,7 +1779,7 @@ func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingRequest.ProtoReflect.Descriptor instead.
 func (*SubmitReadingRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{18}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
 }
 
 func (x *SubmitReadingRequest) GetSessionId() uint64 {
@@ -1659,7 +1829,7 @@ type SubmitReadingResponse struct {
 
 func (x *SubmitReadingResponse) Reset() {
 	*x = SubmitReadingResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1671,7 +1841,7 @@ func (x *SubmitReadingResponse) String() string {
 func (*SubmitReadingResponse) ProtoMessage() {}
 
 func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[19]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1684,7 +1854,7 @@ func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingResponse.ProtoReflect.Descriptor instead.
 func (*SubmitReadingResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{19}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
 }
 
 func (x *SubmitReadingResponse) GetReading() *Reading {
@@ -1718,7 +1888,7 @@ type GetBenchStateRequest struct {
 
 func (x *GetBenchStateRequest) Reset() {
 	*x = GetBenchStateRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1730,7 +1900,7 @@ func (x *GetBenchStateRequest) String() string {
 func (*GetBenchStateRequest) ProtoMessage() {}
 
 func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1743,7 +1913,7 @@ func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchStateRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *GetBenchStateRequest) GetSessionId() uint64 {
@@ -1772,7 +1942,7 @@ type GetBenchStateResponse struct {
 
 func (x *GetBenchStateResponse) Reset() {
 	*x = GetBenchStateResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1784,7 +1954,7 @@ func (x *GetBenchStateResponse) String() string {
 func (*GetBenchStateResponse) ProtoMessage() {}
 
 func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1797,7 +1967,7 @@ func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchStateResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
 }
 
 func (x *GetBenchStateResponse) GetState() *BenchState {
@@ -1822,7 +1992,7 @@ type ListExperimentsRequest struct {
 
 func (x *ListExperimentsRequest) Reset() {
 	*x = ListExperimentsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1834,7 +2004,7 @@ func (x *ListExperimentsRequest) String() string {
 func (*ListExperimentsRequest) ProtoMessage() {}
 
 func (x *ListExperimentsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1847,7 +2017,7 @@ func (x *ListExperimentsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListExperimentsRequest.ProtoReflect.Descriptor instead.
 func (*ListExperimentsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
 }
 
 type ListExperimentsResponse struct {
@@ -1859,7 +2029,7 @@ type ListExperimentsResponse struct {
 
 func (x *ListExperimentsResponse) Reset() {
 	*x = ListExperimentsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1871,7 +2041,7 @@ func (x *ListExperimentsResponse) String() string {
 func (*ListExperimentsResponse) ProtoMessage() {}
 
 func (x *ListExperimentsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1884,7 +2054,7 @@ func (x *ListExperimentsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListExperimentsResponse.ProtoReflect.Descriptor instead.
 func (*ListExperimentsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
 }
 
 func (x *ListExperimentsResponse) GetExperiments() []*ExperimentSpec {
@@ -1907,7 +2077,7 @@ type UpdateSessionRequest struct {
 
 func (x *UpdateSessionRequest) Reset() {
 	*x = UpdateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1919,7 +2089,7 @@ func (x *UpdateSessionRequest) String() string {
 func (*UpdateSessionRequest) ProtoMessage() {}
 
 func (x *UpdateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1932,7 +2102,7 @@ func (x *UpdateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpdateSessionRequest.ProtoReflect.Descriptor instead.
 func (*UpdateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
 }
 
 func (x *UpdateSessionRequest) GetSessionId() uint64 {
@@ -1972,7 +2142,7 @@ type UpdateSessionResponse struct {
 
 func (x *UpdateSessionResponse) Reset() {
 	*x = UpdateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1984,7 +2154,7 @@ func (x *UpdateSessionResponse) String() string {
 func (*UpdateSessionResponse) ProtoMessage() {}
 
 func (x *UpdateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1997,7 +2167,7 @@ func (x *UpdateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpdateSessionResponse.ProtoReflect.Descriptor instead.
 func (*UpdateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
 }
 
 func (x *UpdateSessionResponse) GetSession() *Session {
@@ -2019,7 +2189,7 @@ type AddNoteRequest struct {
 
 func (x *AddNoteRequest) Reset() {
 	*x = AddNoteRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2031,7 +2201,7 @@ func (x *AddNoteRequest) String() string {
 func (*AddNoteRequest) ProtoMessage() {}
 
 func (x *AddNoteRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2044,7 +2214,7 @@ func (x *AddNoteRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddNoteRequest.ProtoReflect.Descriptor instead.
 func (*AddNoteRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{28}
 }
 
 func (x *AddNoteRequest) GetSessionId() uint64 {
@@ -2084,7 +2254,7 @@ type AddNoteResponse struct {
 
 func (x *AddNoteResponse) Reset() {
 	*x = AddNoteResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2096,7 +2266,7 @@ func (x *AddNoteResponse) String() string {
 func (*AddNoteResponse) ProtoMessage() {}
 
 func (x *AddNoteResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2109,7 +2279,7 @@ func (x *AddNoteResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddNoteResponse.ProtoReflect.Descriptor instead.
 func (*AddNoteResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{29}
 }
 
 func (x *AddNoteResponse) GetNote() *Note {
@@ -2130,7 +2300,7 @@ type AcknowledgeAlertRequest struct {
 
 func (x *AcknowledgeAlertRequest) Reset() {
 	*x = AcknowledgeAlertRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2142,7 +2312,7 @@ func (x *AcknowledgeAlertRequest) String() string {
 func (*AcknowledgeAlertRequest) ProtoMessage() {}
 
 func (x *AcknowledgeAlertRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2155,7 +2325,7 @@ func (x *AcknowledgeAlertRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AcknowledgeAlertRequest.ProtoReflect.Descriptor instead.
 func (*AcknowledgeAlertRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{28}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{30}
 }
 
 func (x *AcknowledgeAlertRequest) GetSessionId() uint64 {
@@ -2188,7 +2358,7 @@ type AcknowledgeAlertResponse struct {
 
 func (x *AcknowledgeAlertResponse) Reset() {
 	*x = AcknowledgeAlertResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2200,7 +2370,7 @@ func (x *AcknowledgeAlertResponse) String() string {
 func (*AcknowledgeAlertResponse) ProtoMessage() {}
 
 func (x *AcknowledgeAlertResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2213,7 +2383,7 @@ func (x *AcknowledgeAlertResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AcknowledgeAlertResponse.ProtoReflect.Descriptor instead.
 func (*AcknowledgeAlertResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{29}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{31}
 }
 
 func (x *AcknowledgeAlertResponse) GetNote() *Note {
@@ -2234,7 +2404,7 @@ type CreateSessionRequest struct {
 
 func (x *CreateSessionRequest) Reset() {
 	*x = CreateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2246,7 +2416,7 @@ func (x *CreateSessionRequest) String() string {
 func (*CreateSessionRequest) ProtoMessage() {}
 
 func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2259,7 +2429,7 @@ func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionRequest.ProtoReflect.Descriptor instead.
 func (*CreateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{30}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{32}
 }
 
 func (x *CreateSessionRequest) GetTitle() string {
@@ -2292,7 +2462,7 @@ type CreateSessionResponse struct {
 
 func (x *CreateSessionResponse) Reset() {
 	*x = CreateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2304,7 +2474,7 @@ func (x *CreateSessionResponse) String() string {
 func (*CreateSessionResponse) ProtoMessage() {}
 
 func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2317,7 +2487,7 @@ func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionResponse.ProtoReflect.Descriptor instead.
 func (*CreateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{31}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{33}
 }
 
 func (x *CreateSessionResponse) GetSession() *Session {
@@ -2335,7 +2505,7 @@ type ListSessionsRequest struct {
 
 func (x *ListSessionsRequest) Reset() {
 	*x = ListSessionsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2347,7 +2517,7 @@ func (x *ListSessionsRequest) String() string {
 func (*ListSessionsRequest) ProtoMessage() {}
 
 func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2360,7 +2530,7 @@ func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsRequest.ProtoReflect.Descriptor instead.
 func (*ListSessionsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{32}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{34}
 }
 
 type ListSessionsResponse struct {
@@ -2373,7 +2543,7 @@ type ListSessionsResponse struct {
 
 func (x *ListSessionsResponse) Reset() {
 	*x = ListSessionsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2385,7 +2555,7 @@ func (x *ListSessionsResponse) String() string {
 func (*ListSessionsResponse) ProtoMessage() {}
 
 func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2398,7 +2568,7 @@ func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsResponse.ProtoReflect.Descriptor instead.
 func (*ListSessionsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{33}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{35}
 }
 
 func (x *ListSessionsResponse) GetSessions() []*Session {
@@ -2420,7 +2590,7 @@ type SetBenchesRequest struct {
 
 func (x *SetBenchesRequest) Reset() {
 	*x = SetBenchesRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2432,7 +2602,7 @@ func (x *SetBenchesRequest) String() string {
 func (*SetBenchesRequest) ProtoMessage() {}
 
 func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2445,7 +2615,7 @@ func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesRequest.ProtoReflect.Descriptor instead.
 func (*SetBenchesRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{34}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{36}
 }
 
 func (x *SetBenchesRequest) GetSessionId() uint64 {
@@ -2472,7 +2642,7 @@ type SetBenchesResponse struct {
 
 func (x *SetBenchesResponse) Reset() {
 	*x = SetBenchesResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2484,7 +2654,7 @@ func (x *SetBenchesResponse) String() string {
 func (*SetBenchesResponse) ProtoMessage() {}
 
 func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2497,7 +2667,7 @@ func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesResponse.ProtoReflect.Descriptor instead.
 func (*SetBenchesResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{35}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{37}
 }
 
 func (x *SetBenchesResponse) GetBenches() []*Bench {
@@ -2516,7 +2686,7 @@ type WatchRoomRequest struct {
 
 func (x *WatchRoomRequest) Reset() {
 	*x = WatchRoomRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2528,7 +2698,7 @@ func (x *WatchRoomRequest) String() string {
 func (*WatchRoomRequest) ProtoMessage() {}
 
 func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2541,7 +2711,7 @@ func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomRequest.ProtoReflect.Descriptor instead.
 func (*WatchRoomRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{36}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{38}
 }
 
 func (x *WatchRoomRequest) GetSessionId() uint64 {
@@ -2569,7 +2739,7 @@ type WatchRoomResponse struct {
 
 func (x *WatchRoomResponse) Reset() {
 	*x = WatchRoomResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2581,7 +2751,7 @@ func (x *WatchRoomResponse) String() string {
 func (*WatchRoomResponse) ProtoMessage() {}
 
 func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2594,7 +2764,7 @@ func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomResponse.ProtoReflect.Descriptor instead.
 func (*WatchRoomResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{37}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{39}
 }
 
 func (x *WatchRoomResponse) GetSequence() uint64 {
@@ -2670,7 +2840,7 @@ type GetBenchDetailRequest struct {
 
 func (x *GetBenchDetailRequest) Reset() {
 	*x = GetBenchDetailRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2682,7 +2852,7 @@ func (x *GetBenchDetailRequest) String() string {
 func (*GetBenchDetailRequest) ProtoMessage() {}
 
 func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2695,7 +2865,7 @@ func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{38}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{40}
 }
 
 func (x *GetBenchDetailRequest) GetSessionId() uint64 {
@@ -2721,7 +2891,7 @@ type GetBenchDetailResponse struct {
 
 func (x *GetBenchDetailResponse) Reset() {
 	*x = GetBenchDetailResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2733,7 +2903,7 @@ func (x *GetBenchDetailResponse) String() string {
 func (*GetBenchDetailResponse) ProtoMessage() {}
 
 func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2746,7 +2916,7 @@ func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{39}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{41}
 }
 
 func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
@@ -2880,7 +3050,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"resultName\x12/\n" +
 	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\x12\x14\n" +
 	"\x05notes\x18\x10 \x03(\tR\x05notes\x12-\n" +
-	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\"\xdb\x01\n" +
+	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\"\x82\x02\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
@@ -2888,7 +3058,22 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x05notes\x18\x04 \x03(\v2\x11.fluxroom.v1.NoteR\x05notes\x12\x1e\n" +
 	"\n" +
 	"superseded\x18\x05 \x03(\tR\n" +
-	"superseded\"\xa7\x01\n" +
+	"superseded\x12%\n" +
+	"\x04plot\x18\x06 \x01(\v2\x11.fluxroom.v1.PlotR\x04plot\"\xaa\x02\n" +
+	"\x04Plot\x12\x17\n" +
+	"\ax_label\x18\x01 \x01(\tR\x06xLabel\x12\x17\n" +
+	"\ay_label\x18\x02 \x01(\tR\x06yLabel\x12.\n" +
+	"\x06points\x18\x03 \x03(\v2\x16.fluxroom.v1.PlotPointR\x06points\x12.\n" +
+	"\x06theory\x18\x04 \x03(\v2\x16.fluxroom.v1.PlotPointR\x06theory\x12(\n" +
+	"\x03fit\x18\x05 \x03(\v2\x16.fluxroom.v1.PlotPointR\x03fit\x121\n" +
+	"\bband_low\x18\x06 \x03(\v2\x16.fluxroom.v1.PlotPointR\abandLow\x123\n" +
+	"\tband_high\x18\a \x03(\v2\x16.fluxroom.v1.PlotPointR\bbandHigh\"k\n" +
+	"\tPlotPoint\x12\f\n" +
+	"\x01x\x18\x01 \x01(\x01R\x01x\x12\f\n" +
+	"\x01y\x18\x02 \x01(\x01R\x01y\x12#\n" +
+	"\ry_uncertainty\x18\x03 \x01(\x01R\fyUncertainty\x12\x1d\n" +
+	"\n" +
+	"reading_id\x18\x04 \x01(\tR\treadingId\"\xa7\x01\n" +
 	"\fRoomSnapshot\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\x121\n" +
 	"\abenches\x18\x02 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\x124\n" +
@@ -3003,7 +3188,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 43)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 45)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(*Quantity)(nil),                 // 1: fluxroom.v1.Quantity
@@ -3021,50 +3206,52 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*Fit)(nil),                      // 13: fluxroom.v1.Fit
 	(*BenchState)(nil),               // 14: fluxroom.v1.BenchState
 	(*BenchDetail)(nil),              // 15: fluxroom.v1.BenchDetail
-	(*RoomSnapshot)(nil),             // 16: fluxroom.v1.RoomSnapshot
-	(*JoinBenchRequest)(nil),         // 17: fluxroom.v1.JoinBenchRequest
-	(*JoinBenchResponse)(nil),        // 18: fluxroom.v1.JoinBenchResponse
-	(*SubmitReadingRequest)(nil),     // 19: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),    // 20: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),     // 21: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),    // 22: fluxroom.v1.GetBenchStateResponse
-	(*ListExperimentsRequest)(nil),   // 23: fluxroom.v1.ListExperimentsRequest
-	(*ListExperimentsResponse)(nil),  // 24: fluxroom.v1.ListExperimentsResponse
-	(*UpdateSessionRequest)(nil),     // 25: fluxroom.v1.UpdateSessionRequest
-	(*UpdateSessionResponse)(nil),    // 26: fluxroom.v1.UpdateSessionResponse
-	(*AddNoteRequest)(nil),           // 27: fluxroom.v1.AddNoteRequest
-	(*AddNoteResponse)(nil),          // 28: fluxroom.v1.AddNoteResponse
-	(*AcknowledgeAlertRequest)(nil),  // 29: fluxroom.v1.AcknowledgeAlertRequest
-	(*AcknowledgeAlertResponse)(nil), // 30: fluxroom.v1.AcknowledgeAlertResponse
-	(*CreateSessionRequest)(nil),     // 31: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),    // 32: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),      // 33: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),     // 34: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),        // 35: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),       // 36: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),         // 37: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),        // 38: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),    // 39: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil),   // 40: fluxroom.v1.GetBenchDetailResponse
-	nil,                              // 41: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 42: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 43: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 44: google.protobuf.Timestamp
+	(*Plot)(nil),                     // 16: fluxroom.v1.Plot
+	(*PlotPoint)(nil),                // 17: fluxroom.v1.PlotPoint
+	(*RoomSnapshot)(nil),             // 18: fluxroom.v1.RoomSnapshot
+	(*JoinBenchRequest)(nil),         // 19: fluxroom.v1.JoinBenchRequest
+	(*JoinBenchResponse)(nil),        // 20: fluxroom.v1.JoinBenchResponse
+	(*SubmitReadingRequest)(nil),     // 21: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),    // 22: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),     // 23: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),    // 24: fluxroom.v1.GetBenchStateResponse
+	(*ListExperimentsRequest)(nil),   // 25: fluxroom.v1.ListExperimentsRequest
+	(*ListExperimentsResponse)(nil),  // 26: fluxroom.v1.ListExperimentsResponse
+	(*UpdateSessionRequest)(nil),     // 27: fluxroom.v1.UpdateSessionRequest
+	(*UpdateSessionResponse)(nil),    // 28: fluxroom.v1.UpdateSessionResponse
+	(*AddNoteRequest)(nil),           // 29: fluxroom.v1.AddNoteRequest
+	(*AddNoteResponse)(nil),          // 30: fluxroom.v1.AddNoteResponse
+	(*AcknowledgeAlertRequest)(nil),  // 31: fluxroom.v1.AcknowledgeAlertRequest
+	(*AcknowledgeAlertResponse)(nil), // 32: fluxroom.v1.AcknowledgeAlertResponse
+	(*CreateSessionRequest)(nil),     // 33: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),    // 34: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),      // 35: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),     // 36: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),        // 37: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),       // 38: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),         // 39: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),        // 40: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),    // 41: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 42: fluxroom.v1.GetBenchDetailResponse
+	nil,                              // 43: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 44: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 45: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 46: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	44, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	46, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
 	3,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
 	4,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
 	4,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	44, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	41, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	42, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	44, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	46, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	43, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	44, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	46, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
 	11, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
 	7,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
 	9,  // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	44, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	46, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
 	1,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
 	1,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
 	10, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
@@ -3072,37 +3259,43 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	8,  // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
 	13, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
 	6,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
-	2,  // 20: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
-	14, // 21: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
-	11, // 22: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
-	7,  // 23: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	43, // 24: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	8,  // 25: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	14, // 26: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	14, // 27: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	8,  // 28: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	5,  // 29: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	3,  // 30: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	2,  // 31: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	6,  // 32: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	6,  // 33: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	3,  // 34: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	2,  // 35: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	2,  // 36: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	7,  // 37: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	7,  // 38: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	16, // 39: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	14, // 40: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	12, // 41: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	15, // 42: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	1,  // 43: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 44: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 45: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	46, // [46:46] is the sub-list for method output_type
-	46, // [46:46] is the sub-list for method input_type
-	46, // [46:46] is the sub-list for extension type_name
-	46, // [46:46] is the sub-list for extension extendee
-	0,  // [0:46] is the sub-list for field type_name
+	16, // 20: fluxroom.v1.BenchDetail.plot:type_name -> fluxroom.v1.Plot
+	17, // 21: fluxroom.v1.Plot.points:type_name -> fluxroom.v1.PlotPoint
+	17, // 22: fluxroom.v1.Plot.theory:type_name -> fluxroom.v1.PlotPoint
+	17, // 23: fluxroom.v1.Plot.fit:type_name -> fluxroom.v1.PlotPoint
+	17, // 24: fluxroom.v1.Plot.band_low:type_name -> fluxroom.v1.PlotPoint
+	17, // 25: fluxroom.v1.Plot.band_high:type_name -> fluxroom.v1.PlotPoint
+	2,  // 26: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
+	14, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
+	11, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
+	7,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
+	45, // 30: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	8,  // 31: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	14, // 32: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
+	14, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	8,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	5,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	3,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	2,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	6,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	6,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	3,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	2,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	2,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	7,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	7,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	18, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	14, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	12, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	15, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	1,  // 49: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 50: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	1,  // 51: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	52, // [52:52] is the sub-list for method output_type
+	52, // [52:52] is the sub-list for method input_type
+	52, // [52:52] is the sub-list for extension type_name
+	52, // [52:52] is the sub-list for extension extendee
+	0,  // [0:52] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -3110,7 +3303,7 @@ func file_fluxroom_v1_messages_proto_init() {
 	if File_fluxroom_v1_messages_proto != nil {
 		return
 	}
-	file_fluxroom_v1_messages_proto_msgTypes[37].OneofWrappers = []any{
+	file_fluxroom_v1_messages_proto_msgTypes[39].OneofWrappers = []any{
 		(*WatchRoomResponse_Snapshot)(nil),
 		(*WatchRoomResponse_Bench)(nil),
 		(*WatchRoomResponse_Findings)(nil),
@@ -3121,7 +3314,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      1,
-			NumMessages:   43,
+			NumMessages:   45,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
