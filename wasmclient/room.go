@@ -19,11 +19,18 @@ const (
 	backoffMax   = 5 * time.Second
 )
 
+// Actions the room's children post to it.
+const (
+	actionOpenBench  = "fluxroom.open-bench"
+	actionCloseBench = "fluxroom.close-bench"
+)
+
 // Room is the instructor's view of the whole room: one tile per bench in its
-// room position, fed live by the room stream.
+// room position, fed live by the one room stream of this tab.
 type Room struct {
 	app.Compo
 
+	client   *api
 	session  *pb.Session
 	benches  map[uint64]*pb.BenchState
 	findings []*pb.RoomFinding
@@ -32,6 +39,14 @@ type Room struct {
 	// it is reconnecting.
 	link string
 	now  time.Time
+
+	attentionFirst bool
+	largeType      bool
+	// open is the bench whose detail is shown, 0 for none.
+	open   uint64
+	detail *pb.BenchDetail
+	// detailErr says why the detail could not be loaded.
+	detailErr string
 }
 
 // OnMount starts the room stream and the clock that ages the tiles. Both
@@ -40,13 +55,23 @@ func (r *Room) OnMount(ctx app.Context) {
 	r.benches = map[uint64]*pb.BenchState{}
 	r.link = "connecting"
 	r.now = time.Now()
-	base := app.Window().URL()
-	base.Path, base.RawQuery, base.Fragment = "", "", ""
+	u := app.Window().URL()
 	var sessionID uint64
-	if s := app.Window().URL().Query().Get("session"); s != "" {
+	if s := u.Query().Get("session"); s != "" {
 		sessionID, _ = strconv.ParseUint(s, 10, 64)
 	}
-	client := newAPI(base.String())
+	r.largeType = u.Query().Get("large") == "1"
+	ctx.LocalStorage().Get("fluxroom.largeType", &r.largeType)
+	base := *u
+	base.Path, base.RawQuery, base.Fragment = "", "", ""
+	r.client = newAPI(base.String())
+	ctx.Handle(actionOpenBench, func(ctx app.Context, a app.Action) {
+		if id, ok := a.Value.(uint64); ok {
+			r.openBench(ctx, id)
+		}
+	})
+	ctx.Handle(actionCloseBench, func(ctx app.Context, a app.Action) { r.open, r.detail = 0, nil })
+	client := r.client
 	ctx.Async(func() { r.watch(ctx, client, sessionID) })
 	ctx.Async(func() {
 		t := time.NewTicker(time.Second)
@@ -86,14 +111,14 @@ func (r *Room) watch(ctx app.Context, c *api, sessionID uint64) {
 
 func (r *Room) streamOnce(ctx app.Context, c *api, sessionID uint64, gotEvent func()) error {
 	if sessionID == 0 {
-		list, err := c.listSessions.CallUnary(ctx, connect.NewRequest(&pb.ListSessionsRequest{}))
+		list, err := unary[pb.ListSessionsRequest, pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
 		if err != nil {
 			return err
 		}
-		if len(list.Msg.Sessions) == 0 {
+		if len(list.Sessions) == 0 {
 			return connect.NewError(connect.CodeNotFound, fmt.Errorf("no session yet"))
 		}
-		sessionID = list.Msg.Sessions[0].SessionId
+		sessionID = list.Sessions[0].SessionId
 	}
 	stream, err := c.watchRoom.CallServerStream(ctx, connect.NewRequest(&pb.WatchRoomRequest{SessionId: sessionID}))
 	if err != nil {
@@ -109,13 +134,29 @@ func (r *Room) streamOnce(ctx app.Context, c *api, sessionID uint64, gotEvent fu
 		want++
 		gotEvent()
 		// Component state changes only on the UI goroutine.
-		ctx.Dispatch(func(app.Context) { r.apply(ev) })
+		ctx.Dispatch(func(ctx app.Context) {
+			start := time.Now()
+			r.apply(ctx, ev)
+			ctx.Defer(func(app.Context) { recordRender(time.Since(start)) })
+		})
 	}
 	return stream.Err()
 }
 
+// recordRender keeps how long applying and rendering an event took, for the
+// in-browser render benchmark (window.fluxroomRenderMs).
+func recordRender(d time.Duration) {
+	w := app.Window()
+	arr := w.Get("fluxroomRenderMs")
+	if !arr.Truthy() {
+		arr = app.Window().Get("Array").New()
+		w.Set("fluxroomRenderMs", arr)
+	}
+	arr.Call("push", float64(d.Microseconds())/1000)
+}
+
 // apply folds one stream event into the room.
-func (r *Room) apply(ev *pb.WatchRoomResponse) {
+func (r *Room) apply(ctx app.Context, ev *pb.WatchRoomResponse) {
 	r.lastSeq = ev.Sequence
 	r.link = "live"
 	switch e := ev.Event.(type) {
@@ -128,63 +169,130 @@ func (r *Room) apply(ev *pb.WatchRoomResponse) {
 		}
 	case *pb.WatchRoomResponse_Bench:
 		r.benches[e.Bench.Bench.BenchId] = e.Bench
+		if e.Bench.Bench.BenchId == r.open {
+			r.openBench(ctx, r.open) // refresh the open detail
+		}
 	case *pb.WatchRoomResponse_Findings:
 		r.findings = e.Findings.Findings
 	}
 }
 
-// Render draws the header and the room grid.
+// openBench shows a bench's detail, fetched off the UI goroutine.
+func (r *Room) openBench(ctx app.Context, id uint64) {
+	r.open = id
+	if r.session == nil {
+		return
+	}
+	sid, c := r.session.SessionId, r.client
+	ctx.Async(func() {
+		d, err := unary[pb.GetBenchDetailRequest, pb.GetBenchDetailResponse](ctx, c, ProcGetBenchDetail,
+			&pb.GetBenchDetailRequest{SessionId: sid, BenchId: id})
+		ctx.Dispatch(func(app.Context) {
+			if r.open != id {
+				return
+			}
+			if err != nil {
+				r.detailErr = err.Error()
+				return
+			}
+			r.detail, r.detailErr = d.Detail, ""
+		})
+	})
+}
+
+func (r *Room) acknowledge(ctx app.Context, id uint64) {
+	if r.session == nil {
+		return
+	}
+	sid, c := r.session.SessionId, r.client
+	ctx.Async(func() {
+		unary[pb.AcknowledgeAlertRequest, pb.AcknowledgeAlertResponse](ctx, c, ProcAcknowledgeAlert,
+			&pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: id, Author: "instructor"})
+	})
+}
+
+// Render draws the header, the unsafe banner, the room grid, the findings
+// and, when a bench is open, its detail.
 func (r *Room) Render() app.UI {
 	title, code := "fluxroom", ""
 	if r.session != nil {
 		title, code = r.session.Title, r.session.JoinCode
 	}
 	tiles, rows, cols := r.tiles()
-	return app.Main().Class("room").Body(
+	mainClass := "room"
+	if r.largeType {
+		mainClass += " large"
+	}
+	order := "room order"
+	if r.attentionFirst {
+		order = "needs attention first"
+	}
+	grid := app.Div().Class("grid").ID("room-grid").Attr("data-order", order)
+	if r.attentionFirst {
+		grid = grid.Class("by-attention")
+	} else {
+		grid = grid.Style("grid-template-columns", fmt.Sprintf("repeat(%d, minmax(11rem, 1fr))", cols)).
+			Style("grid-template-rows", fmt.Sprintf("repeat(%d, auto)", rows))
+	}
+	return app.Main().Class(mainClass).Body(
 		app.Header().Class("room-head").Body(
 			app.H1().Text(title),
 			app.If(code != "", app.Div().Class("join").Body(
 				app.Span().Class("join-label").Text("join code"),
 				app.Span().Class("join-code").ID("join-code").Text(code),
 			)),
+			app.Nav().Class("controls").Body(
+				app.Button().ID("toggle-order").Aria("pressed", strconv.FormatBool(r.attentionFirst)).
+					Text("Order: "+order).OnClick(func(ctx app.Context, e app.Event) { r.attentionFirst = !r.attentionFirst }),
+				app.Button().ID("toggle-large").Aria("pressed", strconv.FormatBool(r.largeType)).
+					Text("Large type").OnClick(func(ctx app.Context, e app.Event) {
+					r.largeType = !r.largeType
+					ctx.LocalStorage().Set("fluxroom.largeType", r.largeType)
+				}),
+				app.A().Href("/setup").Text("Set up"),
+				app.A().Href("/station").Text("Station page"),
+			),
 			app.Div().Class("link").ID("link").Attr("data-link", r.link).Text(r.link),
 		),
 		r.renderUnsafe(),
-		app.Div().Class("grid").ID("room-grid").
-			Style("grid-template-columns", fmt.Sprintf("repeat(%d, minmax(11rem, 1fr))", cols)).
-			Style("grid-template-rows", fmt.Sprintf("repeat(%d, auto)", rows)).
-			Body(app.Range(tiles).Slice(func(i int) app.UI { return tiles[i] })),
-		app.If(len(r.findings) > 0, app.Section().Class("findings").ID("findings").Body(
-			app.H2().Text("Across the room"),
-			app.Ul().Body(app.Range(r.findings).Slice(func(i int) app.UI {
-				f := r.findings[i]
-				return app.Li().Attr("data-code", f.Code).Text(f.Message)
-			})),
-		)),
-		app.Footer().Class("room-foot").Text("Cautions: beam tubes run at hundreds of volts; coils and straight-wire set-ups get hot at high current; strong magnets pinch and affect pacemakers. Follow your institution's safety rules and the equipment maker's limits."),
+		grid.Body(app.Range(tiles).Slice(func(i int) app.UI { return tiles[i] })),
+		r.renderFindings(),
+		app.If(r.open != 0, r.renderDetail()),
+		app.Footer().Class("room-foot").Text("Cautions: beam tubes run at hundreds of volts; coils and straight-wire set-ups get hot at high current; strong magnets pinch and affect pacemakers. Follow local codes, your institution's safety rules and the equipment maker's limits."),
 	)
 }
 
-// tiles builds one Tile value per bench, in room order.
+// attentionRank orders tiles for the "needs attention first" view.
+var attentionRank = map[string]int{"unsafe": 0, "off": 1, "check": 2, "stalled": 3, "need-data": 4, "consistent": 5}
+
+// tiles builds one Tile value per bench, in room order or by attention.
 func (r *Room) tiles() (out []*Tile, rows, cols int) {
 	rows, cols = 1, 1
 	for _, st := range r.benches {
 		b := st.GetBench()
 		t := &Tile{
-			BenchID:  b.GetBenchId(),
-			Label:    b.GetLabel(),
-			Row:      int(b.GetRow()),
-			Column:   int(b.GetColumn()),
-			Verdict:  verdictClass(st.GetVerdict()),
-			Words:    st.GetVerdictLabel(),
-			Reason:   st.GetReason(),
-			Readings: int(st.GetReadingCount()),
-			Age:      age(r.now, st),
+			BenchID:      b.GetBenchId(),
+			Label:        b.GetLabel(),
+			Row:          int(b.GetRow()),
+			Column:       int(b.GetColumn()),
+			Verdict:      verdictClass(st.GetVerdict()),
+			Words:        st.GetVerdictLabel(),
+			Reason:       st.GetReason(),
+			Experiment:   st.GetExperimentTitle(),
+			Readings:     int(st.GetReadingCount()),
+			Age:          age(r.now, st),
+			Acknowledged: st.GetAlertAcknowledged(),
+			Free:         r.attentionFirst,
 		}
 		rows, cols = max(rows, t.Row+1), max(cols, t.Column+1)
 		out = append(out, t)
 	}
 	sort.Slice(out, func(i, j int) bool {
+		if r.attentionFirst {
+			if a, b := attentionRank[out[i].Verdict], attentionRank[out[j].Verdict]; a != b {
+				return a < b
+			}
+		}
 		if out[i].Row != out[j].Row {
 			return out[i].Row < out[j].Row
 		}
@@ -194,16 +302,20 @@ func (r *Room) tiles() (out []*Tile, rows, cols int) {
 }
 
 // renderUnsafe is the banner that names every unsafe bench with its
-// caution, above the grid where it cannot be missed.
+// caution, above the grid where it cannot be missed. It stays until the
+// instructor acknowledges each alert.
 func (r *Room) renderUnsafe() app.UI {
 	var items []app.UI
 	for _, t := range r.sortedStates() {
-		if t.GetVerdict() == pb.Verdict_VERDICT_UNSAFE {
-			items = append(items, app.Li().Attr("data-bench", t.GetBench().GetLabel()).Body(
-				app.Strong().Text(t.GetBench().GetLabel()+": "),
-				app.Span().Text(t.GetReason()+" "+t.GetCaution()),
-			))
+		if t.GetVerdict() != pb.Verdict_VERDICT_UNSAFE || t.GetAlertAcknowledged() {
+			continue
 		}
+		id := t.GetBench().GetBenchId()
+		items = append(items, app.Li().Attr("data-bench", t.GetBench().GetLabel()).Body(
+			app.Strong().Text(t.GetBench().GetLabel()+": "),
+			app.Span().Text(t.GetReason()+" "+t.GetCaution()+" "),
+			app.Button().Class("ack").Text("Acknowledge").OnClick(func(ctx app.Context, e app.Event) { r.acknowledge(ctx, id) }),
+		))
 	}
 	if len(items) == 0 {
 		return app.Div().ID("unsafe-none").Hidden(true)
@@ -211,6 +323,41 @@ func (r *Room) renderUnsafe() app.UI {
 	return app.Section().Class("unsafe-banner").ID("unsafe-banner").Aria("live", "assertive").Body(
 		app.H2().Text("⚠ Unsafe setting"),
 		app.Ul().Body(items...),
+	)
+}
+
+// renderFindings shows, per experiment, the groups' results as dots against
+// the theory value, and the room-level findings.
+func (r *Room) renderFindings() app.UI {
+	byExp := map[string][]dot{}
+	for _, st := range r.benches {
+		if st.GetPredicted() == nil || st.GetPredicted().GetValue() == 0 {
+			continue
+		}
+		exp := st.GetBench().GetExperiment()
+		byExp[exp] = append(byExp[exp], dot{label: st.GetBench().GetLabel(),
+			ratio: st.GetMeasured().GetValue() / st.GetPredicted().GetValue(), verdict: verdictClass(st.GetVerdict())})
+	}
+	exps := make([]string, 0, len(byExp))
+	for e := range byExp {
+		exps = append(exps, e)
+	}
+	sort.Strings(exps)
+	if len(exps) == 0 && len(r.findings) == 0 {
+		return app.Div().Hidden(true)
+	}
+	return app.Section().Class("findings").ID("findings").Body(
+		app.H2().Text("Across the room"),
+		app.Range(exps).Slice(func(i int) app.UI {
+			return app.Div().Class("dotplot").Attr("data-experiment", exps[i]).Body(
+				app.Span().Class("dotplot-label").Text(exps[i]),
+				app.Raw(dotPlotSVG(byExp[exps[i]])),
+			)
+		}),
+		app.Ul().Body(app.Range(r.findings).Slice(func(i int) app.UI {
+			f := r.findings[i]
+			return app.Li().Attr("data-code", f.Code).Text(f.Message)
+		})),
 	)
 }
 

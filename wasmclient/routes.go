@@ -13,5 +13,7 @@ var routesOnce sync.Once
 func Routes() {
 	routesOnce.Do(func() {
 		app.RouteFunc("/", func() app.Composer { return &Room{} })
+		app.RouteFunc("/setup", func() app.Composer { return &Setup{} })
+		app.RouteFunc("/station", func() app.Composer { return &Station{} })
 	})
 }

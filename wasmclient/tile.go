@@ -12,15 +12,19 @@ import (
 type Tile struct {
 	app.Compo
 
-	BenchID  uint64
-	Label    string
-	Row      int
-	Column   int
-	Verdict  string // css class: consistent, check, off, need-data, unsafe, stalled
-	Words    string // the verdict in words
-	Reason   string
-	Readings int
-	Age      string
+	BenchID      uint64
+	Label        string
+	Row          int
+	Column       int
+	Verdict      string // css class: consistent, check, off, need-data, unsafe, stalled
+	Words        string // the verdict in words
+	Reason       string
+	Experiment   string
+	Readings     int
+	Age          string
+	Acknowledged bool
+	// Free drops the room position (the "needs attention first" order).
+	Free bool
 }
 
 // marks gives every verdict a shape of its own, so state never rests on
@@ -34,23 +38,42 @@ var marks = map[string]string{
 	"stalled":    "‖",
 }
 
-// Render draws the tile.
+// Render draws the tile. It is a focusable button-like region: Enter or a
+// click opens the bench's detail.
 func (t *Tile) Render() app.UI {
-	return app.Section().
+	s := app.Section().
 		Class("tile", "v-"+t.Verdict).
 		Attr("data-bench", t.Label).
 		Attr("data-verdict", t.Verdict).
-		Style("grid-row", strconv.Itoa(t.Row+1)).
-		Style("grid-column", strconv.Itoa(t.Column+1)).
-		Body(
-			app.Div().Class("tile-head").Body(
-				app.Span().Class("tile-label").Text(t.Label),
-				app.Span().Class("tile-state").Body(
-					app.Span().Class("mark").Aria("hidden", "true").Text(marks[t.Verdict]),
-					app.Span().Class("words").Text(t.Words),
-				),
+		Attr("role", "button").
+		TabIndex(0).
+		Aria("label", fmt.Sprintf("bench %s, %s: %s", t.Label, t.Words, t.Reason)).
+		OnClick(t.open).
+		OnKeyDown(func(ctx app.Context, e app.Event) {
+			if k := e.Get("key").String(); k == "Enter" || k == " " {
+				t.open(ctx, e)
+			}
+		})
+	if !t.Free {
+		s = s.Style("grid-row", strconv.Itoa(t.Row+1)).Style("grid-column", strconv.Itoa(t.Column+1))
+	}
+	meta := fmt.Sprintf("%s · %d readings · %s", t.Experiment, t.Readings, t.Age)
+	if t.Verdict == "unsafe" && t.Acknowledged {
+		meta += " · alert acknowledged"
+	}
+	return s.Body(
+		app.Div().Class("tile-head").Body(
+			app.Span().Class("tile-label").Text(t.Label),
+			app.Span().Class("tile-state").Body(
+				app.Span().Class("mark").Aria("hidden", "true").Text(marks[t.Verdict]),
+				app.Span().Class("words").Text(t.Words),
 			),
-			app.P().Class("reason").Text(t.Reason),
-			app.Div().Class("tile-meta").Text(fmt.Sprintf("%d readings · %s", t.Readings, t.Age)),
-		)
+		),
+		app.P().Class("reason").Text(t.Reason),
+		app.Div().Class("tile-meta").Text(meta),
+	)
+}
+
+func (t *Tile) open(ctx app.Context, e app.Event) {
+	ctx.NewActionWithValue(actionOpenBench, t.BenchID)
 }

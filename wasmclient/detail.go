@@ -1,0 +1,185 @@
+package wasmclient
+
+import (
+	"fmt"
+	"sort"
+	"strings"
+
+	"github.com/maxence-charriere/go-app/v9/pkg/app"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// renderDetail is the open bench: verdict and reason, the plot, diagnoses
+// with evidence and alternatives, the uncertainty budget, the readings
+// (corrections struck through) and the notes.
+func (r *Room) renderDetail() app.UI {
+	st := r.benches[r.open]
+	closeBtn := app.Button().ID("detail-close").Class("close").Text("Close").
+		OnClick(func(ctx app.Context, e app.Event) { ctx.NewAction(actionCloseBench) })
+	if r.detailErr != "" {
+		return app.Aside().Class("detail").ID("detail").Body(closeBtn, app.P().Text("Could not load the bench: "+r.detailErr))
+	}
+	d := r.detail
+	if d == nil || st == nil {
+		return app.Aside().Class("detail").ID("detail").Body(closeBtn, app.P().Text("Loading…"))
+	}
+	gone := map[string]bool{}
+	for _, id := range d.Superseded {
+		gone[id] = true
+	}
+	return app.Aside().Class("detail", "v-"+verdictClass(st.GetVerdict())).ID("detail").Attr("data-bench", st.GetBench().GetLabel()).
+		Aria("label", "bench detail").
+		OnKeyDown(func(ctx app.Context, e app.Event) {
+			if e.Get("key").String() == "Escape" {
+				ctx.NewAction(actionCloseBench)
+			}
+		}).Body(
+		app.Header().Class("detail-head").Body(
+			app.H2().Text(fmt.Sprintf("%s · %s", st.GetBench().GetLabel(), st.GetExperimentTitle())),
+			app.Span().Class("tile-state").Body(
+				app.Span().Class("mark").Text(marks[verdictClass(st.GetVerdict())]),
+				app.Span().Text(st.GetVerdictLabel()),
+			),
+			closeBtn,
+		),
+		app.P().Class("detail-reason").Text(st.GetReason()),
+		app.If(st.GetCaution() != "", app.P().Class("caution").Text(st.GetCaution())),
+		app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+plotSVG(d.Plot)+`</div>`)),
+		app.Div().Class("detail-cols").Body(
+			app.Section().Body(
+				app.H3().Text("Likely causes"),
+				app.If(len(st.GetDiagnoses()) == 0, app.P().Text("None found.")),
+				app.Ul().Class("diagnoses").Body(app.Range(st.GetDiagnoses()).Slice(func(i int) app.UI {
+					dg := st.GetDiagnoses()[i]
+					return app.Li().Attr("data-code", dg.Code).Body(
+						app.Strong().Text(dg.Cause),
+						app.Div().Class("evidence").Text("Evidence ("+dg.Level+"): "+dg.Evidence),
+						app.Div().Class("action").Text("Suggest: "+dg.Action),
+						app.If(len(dg.Alternatives) > 0, app.Div().Class("alternatives").Text("Also possible: "+strings.Join(dg.Alternatives, ", "))),
+						app.Code().Text(dg.Code),
+					)
+				})),
+				app.H3().Text("Uncertainty budget"),
+				app.Table().Class("budget").Body(
+					app.Tr().Body(app.Th().Text("input"), app.Th().Text("rel. u"), app.Th().Text("share")),
+					app.Range(st.GetBudget()).Slice(func(i int) app.UI {
+						bi := st.GetBudget()[i]
+						return app.Tr().Body(app.Td().Text(bi.Input), app.Td().Text(fmt.Sprintf("%.2g %%", 100*bi.RelativeUncertainty)),
+							app.Td().Text(fmt.Sprintf("%.0f %%", 100*bi.Share)))
+					}),
+				),
+				app.Range(st.GetNotes()).Slice(func(i int) app.UI { return app.P().Class("note-line").Text(st.GetNotes()[i]) }),
+			),
+			app.Section().Body(
+				app.H3().Text("Readings"),
+				readingsTable(d.Readings, gone),
+				app.H3().Text("Notes"),
+				app.Ul().Class("notes").Body(app.Range(d.Notes).Slice(func(i int) app.UI {
+					n := d.Notes[i]
+					when := ""
+					if n.At != nil {
+						when = n.At.AsTime().Local().Format("15:04")
+					}
+					return app.Li().Text(fmt.Sprintf("%s %s (%s): %s", when, n.Author, n.Kind, n.Text))
+				})),
+				&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
+			),
+		),
+	)
+}
+
+func (r *Room) sessionID() uint64 {
+	if r.session == nil {
+		return 0
+	}
+	return r.session.SessionId
+}
+
+// readingsTable lists the readings in arrival order; a corrected reading is
+// struck through, never hidden.
+func readingsTable(rs []*pb.Reading, gone map[string]bool) app.UI {
+	names := map[string]bool{}
+	for _, rd := range rs {
+		for k := range rd.Values {
+			names[k] = true
+		}
+	}
+	cols := make([]string, 0, len(names))
+	for k := range names {
+		cols = append(cols, k)
+	}
+	sort.Strings(cols)
+	head := []app.UI{app.Th().Text("#")}
+	for _, c := range cols {
+		head = append(head, app.Th().Text(strings.ReplaceAll(c, "_", " ")))
+	}
+	head = append(head, app.Th().Text("id"))
+	rows := []app.UI{app.Tr().Body(head...)}
+	for _, rd := range rs {
+		cells := []app.UI{app.Td().Text(fmt.Sprint(rd.Sequence))}
+		for _, c := range cols {
+			text := ""
+			if q, ok := rd.Values[c]; ok {
+				text = fmt.Sprintf("%g %s", q.Value, q.Unit)
+			}
+			cells = append(cells, app.Td().Text(text))
+		}
+		id := rd.ReadingId
+		if rd.Supersedes != "" {
+			id += " (corrects " + rd.Supersedes + ")"
+		}
+		cells = append(cells, app.Td().Text(id))
+		tr := app.Tr().Attr("data-reading", rd.ReadingId).Body(cells...)
+		if gone[rd.ReadingId] {
+			tr = tr.Class("superseded").Title("corrected by a later reading")
+		}
+		rows = append(rows, tr)
+	}
+	return app.Table().Class("readings").ID("readings").Body(rows...)
+}
+
+// NoteForm adds a timestamped note to a bench.
+type NoteForm struct {
+	app.Compo
+	SessionID, BenchID uint64
+
+	text, status string
+}
+
+// Render draws the form.
+func (f *NoteForm) Render() app.UI {
+	return app.Form().Class("note-form").OnSubmit(f.submit).Body(
+		app.Label().For("note-text").Text("Add a note"),
+		app.Input().ID("note-text").Type("text").Value(f.text).MaxLength(1000).
+			OnInput(func(ctx app.Context, e app.Event) { f.text = ctx.JSSrc().Get("value").String() }),
+		app.Button().Type("submit").Text("Save note"),
+		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
+	)
+}
+
+func (f *NoteForm) submit(ctx app.Context, e app.Event) {
+	e.PreventDefault()
+	text, sid, bid := f.text, f.SessionID, f.BenchID
+	c := newAPI(baseURL())
+	ctx.Async(func() {
+		_, err := unary[pb.AddNoteRequest, pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
+		ctx.Dispatch(func(app.Context) {
+			if err != nil {
+				f.status = fieldMessages(err)["text"]
+				if f.status == "" {
+					f.status = err.Error()
+				}
+				return
+			}
+			f.text, f.status = "", "saved"
+		})
+	})
+}
+
+// baseURL is the origin that served the page.
+func baseURL() string {
+	u := app.Window().URL()
+	u.Path, u.RawQuery, u.Fragment = "", "", ""
+	return u.String()
+}

@@ -1,0 +1,140 @@
+package wasmclient
+
+import (
+	"fmt"
+	"html"
+	"math"
+	"strings"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// Plot geometry, in SVG user units.
+const (
+	plotW, plotH             = 560.0, 320.0
+	plotLeft, plotRight      = 70.0, 16.0
+	plotTop, plotBottom      = 14.0, 46.0
+	plotInnerW, plotInnerH   = plotW - plotLeft - plotRight, plotH - plotTop - plotBottom
+	dotW, dotH, dotPad       = 420.0, 44.0, 16.0
+	dotLo, dotHi             = 0.0, 2.0
+	dotInnerW                = dotW - 2*dotPad
+	tickCount                = 5
+	minPlotSpan              = 1e-30
+)
+
+// plotSVG draws a bench's plot: the tolerance band, the theory line, the
+// fitted line and every reading with its error bar. It is a pure function
+// of the plot so that tests can count what it draws.
+func plotSVG(p *pb.Plot) string {
+	if p == nil || len(p.Points) == 0 {
+		return `<p class="plot-empty">No readings to plot yet.</p>`
+	}
+	xlo, xhi, ylo, yhi := math.Inf(1), math.Inf(-1), math.Inf(1), math.Inf(-1)
+	grow := func(x, y float64) {
+		xlo, xhi = math.Min(xlo, x), math.Max(xhi, x)
+		ylo, yhi = math.Min(ylo, y), math.Max(yhi, y)
+	}
+	for _, pt := range p.Points {
+		grow(pt.X, pt.Y-pt.YUncertainty)
+		grow(pt.X, pt.Y+pt.YUncertainty)
+	}
+	for _, l := range [][]*pb.PlotPoint{p.Theory, p.Fit, p.BandLow, p.BandHigh} {
+		for _, v := range l {
+			grow(v.X, v.Y)
+		}
+	}
+	if xhi-xlo < minPlotSpan {
+		xhi = xlo + 1
+	}
+	if yhi-ylo < minPlotSpan {
+		yhi = ylo + 1
+	}
+	pad := 0.05 * (yhi - ylo)
+	ylo, yhi = ylo-pad, yhi+pad
+	sx := func(x float64) float64 { return plotLeft + (x-xlo)/(xhi-xlo)*plotInnerW }
+	sy := func(y float64) float64 { return plotTop + (yhi-y)/(yhi-ylo)*plotInnerH }
+	var b strings.Builder
+	fmt.Fprintf(&b, `<svg class="plot" viewBox="0 0 %g %g" role="img" aria-label="%s against %s">`, plotW, plotH,
+		html.EscapeString(p.YLabel), html.EscapeString(p.XLabel))
+	// Axes and ticks.
+	fmt.Fprintf(&b, `<line class="axis" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, plotLeft, plotTop+plotInnerH, plotLeft+plotInnerW, plotTop+plotInnerH)
+	fmt.Fprintf(&b, `<line class="axis" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, plotLeft, plotTop, plotLeft, plotTop+plotInnerH)
+	for i := 0; i <= tickCount; i++ {
+		x := xlo + (xhi-xlo)*float64(i)/tickCount
+		y := ylo + (yhi-ylo)*float64(i)/tickCount
+		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="middle">%s</text>`, sx(x), plotTop+plotInnerH+16, tick(x))
+		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="end">%s</text>`, plotLeft-6, sy(y)+4, tick(y))
+	}
+	fmt.Fprintf(&b, `<text class="axis-label" x="%.1f" y="%.1f" text-anchor="middle">%s</text>`, plotLeft+plotInnerW/2, plotH-6, html.EscapeString(p.XLabel))
+	fmt.Fprintf(&b, `<text class="axis-label" x="14" y="%.1f" transform="rotate(-90 14 %.1f)" text-anchor="middle">%s</text>`,
+		plotTop+plotInnerH/2, plotTop+plotInnerH/2, html.EscapeString(p.YLabel))
+	// Tolerance band between its two edges.
+	if len(p.BandLow) >= 2 && len(p.BandHigh) >= 2 {
+		var pts []string
+		for _, v := range p.BandLow {
+			pts = append(pts, fmt.Sprintf("%.1f,%.1f", sx(v.X), sy(v.Y)))
+		}
+		for i := len(p.BandHigh) - 1; i >= 0; i-- {
+			v := p.BandHigh[i]
+			pts = append(pts, fmt.Sprintf("%.1f,%.1f", sx(v.X), sy(v.Y)))
+		}
+		fmt.Fprintf(&b, `<polygon class="band" points="%s"/>`, strings.Join(pts, " "))
+	}
+	polyline := func(class string, l []*pb.PlotPoint) {
+		if len(l) < 2 {
+			return
+		}
+		var pts []string
+		for _, v := range l {
+			pts = append(pts, fmt.Sprintf("%.1f,%.1f", sx(v.X), sy(v.Y)))
+		}
+		fmt.Fprintf(&b, `<polyline class="%s" points="%s"/>`, class, strings.Join(pts, " "))
+	}
+	polyline("theory", p.Theory)
+	polyline("fit", p.Fit)
+	for _, pt := range p.Points {
+		x := sx(pt.X)
+		fmt.Fprintf(&b, `<line class="eb" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, x, sy(pt.Y-pt.YUncertainty), x, sy(pt.Y+pt.YUncertainty))
+		fmt.Fprintf(&b, `<circle class="pt" data-reading="%s" cx="%.1f" cy="%.1f" r="4"><title>%s: %s, %s</title></circle>`,
+			html.EscapeString(pt.ReadingId), x, sy(pt.Y), html.EscapeString(pt.ReadingId), tick(pt.X), tick(pt.Y))
+	}
+	b.WriteString(`</svg>`)
+	return b.String()
+}
+
+// tick formats an axis value with three significant figures.
+func tick(v float64) string {
+	if v == 0 {
+		return "0"
+	}
+	return strings.TrimSuffix(fmt.Sprintf("%.3g", v), ".0")
+}
+
+// dot is one group's result on the room's dot plot.
+type dot struct {
+	label   string
+	ratio   float64
+	verdict string
+}
+
+// dotPlotSVG draws every group's measured/predicted ratio on a line from 0
+// to 2 with the theory value (1) marked; ratios outside are pinned to the
+// ends with an arrow.
+func dotPlotSVG(dots []dot) string {
+	sx := func(r float64) float64 {
+		r = math.Max(dotLo, math.Min(dotHi, r))
+		return dotPad + (r-dotLo)/(dotHi-dotLo)*dotInnerW
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, `<svg class="dots" viewBox="0 0 %g %g" role="img" aria-label="results as a ratio to theory">`, dotW, dotH)
+	fmt.Fprintf(&b, `<line class="axis" x1="%g" y1="22" x2="%g" y2="22"/>`, dotPad, dotW-dotPad)
+	fmt.Fprintf(&b, `<line class="theory" x1="%.1f" y1="8" x2="%.1f" y2="36"/>`, sx(1), sx(1))
+	fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="42" text-anchor="middle">1 (theory)</text>`, sx(1))
+	for i, d := range dots {
+		y := 16.0 + float64(i%3)*6
+		fmt.Fprintf(&b, `<circle class="dot v-%s" cx="%.1f" cy="%.1f" r="4"><title>%s: ×%.3g</title></circle>`,
+			d.verdict, sx(d.ratio), y, html.EscapeString(d.label), d.ratio)
+	}
+	b.WriteString(`</svg>`)
+	return b.String()
+}
