@@ -3,7 +3,6 @@ module example.com/fluxroom
 go 1.26.0
 
 require (
-	connectrpc.com/connect v1.21.1
 	connectrpc.com/vanguard v0.4.0
 	github.com/chromedp/cdproto v0.159.0
 	github.com/chromedp/chromedp v0.23.0
@@ -18,6 +17,7 @@ require (
 )
 
 require (
+	connectrpc.com/connect v1.21.1 // indirect
 	github.com/go-json-experiment/json v0.0.0-20260213210345-44df1a37e875 // indirect
 	github.com/google/uuid v1.6.0 // indirect
 	golang.org/x/net v0.60.0 // indirect

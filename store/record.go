@@ -43,7 +43,7 @@ func quantitiesFromRecord(m map[string]*recordpb.Quantity) map[string]domain.Qua
 func sessionRecord(s domain.Session) *recordpb.Session {
 	t := s.Tolerance
 	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt),
-		Tolerance: &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
+		Tolerance:           &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
 		StationsSeeVerdicts: s.StationsSeeVerdicts}
 }
 

@@ -2,12 +2,10 @@ package wasmclient
 
 import (
 	"context"
-	"errors"
-	"net/http"
+	"fmt"
 	"strings"
 
-	"connectrpc.com/connect"
-	"google.golang.org/genproto/googleapis/rpc/errdetails"
+	"google.golang.org/protobuf/proto"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
@@ -30,49 +28,102 @@ const (
 	ProcListExperiments  = "/fluxroom.v1.StationService/ListExperiments"
 )
 
-// api is the dashboard's gRPC-Web client to the server that served the page.
+// gRPC status codes the dashboard tells apart [pub: gRPC status codes,
+// doc/statuscodes.md of the gRPC project].
+const (
+	codeUnknown         = 2
+	codeInvalidArgument = 3
+	codeNotFound        = 5
+	codeDataLoss        = 15
+	codeUnavailable     = 14
+)
+
+// api is the dashboard's gRPC-Web client to the server that served the
+// page. It speaks the binary gRPC-Web protocol over the browser's fetch
+// (api_js.go) instead of linking an HTTP client library: that keeps
+// app.wasm about a third smaller.
 type api struct {
-	base      string
-	watchRoom *connect.Client[pb.WatchRoomRequest, pb.WatchRoomResponse]
+	base string
 }
 
-func newAPI(base string) *api {
-	return &api{
-		base:      base,
-		watchRoom: connect.NewClient[pb.WatchRoomRequest, pb.WatchRoomResponse](http.DefaultClient, base+ProcWatchRoom, connect.WithGRPCWeb()),
-	}
+func newAPI(base string) *api { return &api{base: base} }
+
+// rpcError is a failed call: its gRPC status code, message and, for
+// InvalidArgument, the field violations.
+type rpcError struct {
+	code   int
+	msg    string
+	fields map[string]string
 }
 
-// unary calls one unary RPC over gRPC-Web.
-func unary[Req, Res any](ctx context.Context, c *api, proc string, req *Req) (*Res, error) {
-	cl := connect.NewClient[Req, Res](http.DefaultClient, c.base+proc, connect.WithGRPCWeb())
-	res, err := cl.CallUnary(ctx, connect.NewRequest(req))
-	if err != nil {
-		return nil, err
+func (e *rpcError) Error() string { return fmt.Sprintf("%s: %s", codeName(e.code), e.msg) }
+
+func codeName(c int) string {
+	switch c {
+	case 0:
+		return "ok"
+	case codeInvalidArgument:
+		return "invalid argument"
+	case codeNotFound:
+		return "not found"
+	case codeUnavailable:
+		return "unavailable"
+	case codeDataLoss:
+		return "data loss"
 	}
-	return res.Msg, nil
+	return fmt.Sprintf("code %d", c)
+}
+
+// codeOf returns an error's gRPC code; network failures are Unavailable.
+func codeOf(err error) int {
+	if e, ok := err.(*rpcError); ok {
+		return e.code
+	}
+	if err == nil {
+		return 0
+	}
+	return codeUnavailable
 }
 
 // fieldMessages returns the server's field violations of an InvalidArgument
-// error by field path, plus "" for the error's own message.
+// error by field path.
 func fieldMessages(err error) map[string]string {
-	out := map[string]string{}
-	var ce *connect.Error
-	if !errors.As(err, &ce) {
-		return out
+	if e, ok := err.(*rpcError); ok && e.fields != nil {
+		return e.fields
 	}
-	for _, d := range ce.Details() {
-		v, derr := d.Value()
-		if derr != nil {
-			continue
+	return map[string]string{}
+}
+
+// unary calls one unary RPC.
+func unary[T any, PT interface {
+	*T
+	proto.Message
+}](ctx context.Context, c *api, proc string, req proto.Message) (*T, error) {
+	var out *T
+	err := c.call(ctx, proc, req, func(b []byte) error {
+		m := PT(new(T))
+		if err := proto.Unmarshal(b, m); err != nil {
+			return err
 		}
-		if br, ok := v.(*errdetails.BadRequest); ok {
-			for _, fv := range br.GetFieldViolations() {
-				out[fv.GetField()] = fv.GetDescription()
-			}
-		}
+		out = (*T)(m)
+		return nil
+	})
+	if err == nil && out == nil {
+		return nil, &rpcError{code: codeUnknown, msg: "no reply message"}
 	}
-	return out
+	return out, err
+}
+
+// watchRoom follows the room stream, calling fn for every event, until the
+// stream ends or ctx does.
+func (c *api) watchRoom(ctx context.Context, sessionID uint64, fn func(*pb.WatchRoomResponse) error) error {
+	return c.call(ctx, ProcWatchRoom, &pb.WatchRoomRequest{SessionId: sessionID}, func(b []byte) error {
+		var ev pb.WatchRoomResponse
+		if err := proto.Unmarshal(b, &ev); err != nil {
+			return err
+		}
+		return fn(&ev)
+	})
 }
 
 // valueName extracts the value name from a field path such as

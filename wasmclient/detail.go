@@ -163,7 +163,7 @@ func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 	text, sid, bid := f.text, f.SessionID, f.BenchID
 	c := newAPI(baseURL())
 	ctx.Async(func() {
-		_, err := unary[pb.AddNoteRequest, pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
+		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
 		ctx.Dispatch(func(app.Context) {
 			if err != nil {
 				f.status = fieldMessages(err)["text"]

@@ -11,15 +11,15 @@ import (
 
 // Plot geometry, in SVG user units.
 const (
-	plotW, plotH             = 560.0, 320.0
-	plotLeft, plotRight      = 70.0, 16.0
-	plotTop, plotBottom      = 14.0, 46.0
-	plotInnerW, plotInnerH   = plotW - plotLeft - plotRight, plotH - plotTop - plotBottom
-	dotW, dotH, dotPad       = 420.0, 44.0, 16.0
-	dotLo, dotHi             = 0.0, 2.0
-	dotInnerW                = dotW - 2*dotPad
-	tickCount                = 5
-	minPlotSpan              = 1e-30
+	plotW, plotH           = 560.0, 320.0
+	plotLeft, plotRight    = 70.0, 16.0
+	plotTop, plotBottom    = 14.0, 46.0
+	plotInnerW, plotInnerH = plotW - plotLeft - plotRight, plotH - plotTop - plotBottom
+	dotW, dotH, dotPad     = 420.0, 44.0, 16.0
+	dotLo, dotHi           = 0.0, 2.0
+	dotInnerW              = dotW - 2*dotPad
+	tickCount              = 5
+	minPlotSpan            = 1e-30
 )
 
 // plotSVG draws a bench's plot: the tolerance band, the theory line, the

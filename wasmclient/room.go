@@ -6,7 +6,6 @@ import (
 	"strconv"
 	"time"
 
-	"connectrpc.com/connect"
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -62,6 +61,7 @@ func (r *Room) OnMount(ctx app.Context) {
 	}
 	r.largeType = u.Query().Get("large") == "1"
 	ctx.LocalStorage().Get("fluxroom.largeType", &r.largeType)
+	setRootFontSize(r.largeType)
 	base := *u
 	base.Path, base.RawQuery, base.Fragment = "", "", ""
 	r.client = newAPI(base.String())
@@ -98,7 +98,7 @@ func (r *Room) watch(ctx app.Context, c *api, sessionID uint64) {
 		}
 		wait := backoff
 		ctx.Dispatch(func(app.Context) {
-			r.link = fmt.Sprintf("reconnecting in %.1f s (%s)", wait.Seconds(), connect.CodeOf(err))
+			r.link = fmt.Sprintf("reconnecting in %.1f s (%s)", wait.Seconds(), codeName(codeOf(err)))
 		})
 		select {
 		case <-ctx.Done():
@@ -111,25 +111,19 @@ func (r *Room) watch(ctx app.Context, c *api, sessionID uint64) {
 
 func (r *Room) streamOnce(ctx app.Context, c *api, sessionID uint64, gotEvent func()) error {
 	if sessionID == 0 {
-		list, err := unary[pb.ListSessionsRequest, pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
+		list, err := unary[pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
 		if err != nil {
 			return err
 		}
 		if len(list.Sessions) == 0 {
-			return connect.NewError(connect.CodeNotFound, fmt.Errorf("no session yet"))
+			return &rpcError{code: codeNotFound, msg: "no session yet"}
 		}
 		sessionID = list.Sessions[0].SessionId
 	}
-	stream, err := c.watchRoom.CallServerStream(ctx, connect.NewRequest(&pb.WatchRoomRequest{SessionId: sessionID}))
-	if err != nil {
-		return err
-	}
-	defer stream.Close()
 	var want uint64 = 1
-	for stream.Receive() {
-		ev := stream.Msg()
+	return c.watchRoom(ctx, sessionID, func(ev *pb.WatchRoomResponse) error {
 		if ev.Sequence != want {
-			return connect.NewError(connect.CodeDataLoss, fmt.Errorf("event %d after %d", ev.Sequence, want-1))
+			return &rpcError{code: codeDataLoss, msg: fmt.Sprintf("event %d after %d", ev.Sequence, want-1)}
 		}
 		want++
 		gotEvent()
@@ -139,8 +133,18 @@ func (r *Room) streamOnce(ctx app.Context, c *api, sessionID uint64, gotEvent fu
 			r.apply(ctx, ev)
 			ctx.Defer(func(app.Context) { recordRender(time.Since(start)) })
 		})
+		return nil
+	})
+}
+
+// setRootFontSize scales the whole page for a projector: 22 px instead of
+// 16 px at the root, which every rem-based size follows.
+func setRootFontSize(large bool) {
+	size := "16px"
+	if large {
+		size = "22px"
 	}
-	return stream.Err()
+	app.Window().Get("document").Get("documentElement").Get("style").Set("fontSize", size)
 }
 
 // recordRender keeps how long applying and rendering an event took, for the
@@ -185,7 +189,7 @@ func (r *Room) openBench(ctx app.Context, id uint64) {
 	}
 	sid, c := r.session.SessionId, r.client
 	ctx.Async(func() {
-		d, err := unary[pb.GetBenchDetailRequest, pb.GetBenchDetailResponse](ctx, c, ProcGetBenchDetail,
+		d, err := unary[pb.GetBenchDetailResponse](ctx, c, ProcGetBenchDetail,
 			&pb.GetBenchDetailRequest{SessionId: sid, BenchId: id})
 		ctx.Dispatch(func(app.Context) {
 			if r.open != id {
@@ -206,7 +210,7 @@ func (r *Room) acknowledge(ctx app.Context, id uint64) {
 	}
 	sid, c := r.session.SessionId, r.client
 	ctx.Async(func() {
-		unary[pb.AcknowledgeAlertRequest, pb.AcknowledgeAlertResponse](ctx, c, ProcAcknowledgeAlert,
+		unary[pb.AcknowledgeAlertResponse](ctx, c, ProcAcknowledgeAlert,
 			&pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: id, Author: "instructor"})
 	})
 }
@@ -248,6 +252,7 @@ func (r *Room) Render() app.UI {
 					Text("Large type").OnClick(func(ctx app.Context, e app.Event) {
 					r.largeType = !r.largeType
 					ctx.LocalStorage().Set("fluxroom.largeType", r.largeType)
+					setRootFontSize(r.largeType)
 				}),
 				app.A().Href("/setup").Text("Set up"),
 				app.A().Href("/station").Text("Station page"),

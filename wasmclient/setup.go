@@ -1,11 +1,11 @@
 package wasmclient
 
 import (
+	"context"
 	"fmt"
 	"strconv"
 	"strings"
 
-	"connectrpc.com/connect"
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -54,8 +54,8 @@ func (s *Setup) OnMount(ctx app.Context) {
 		sid, _ = strconv.ParseUint(v, 10, 64)
 	}
 	ctx.Async(func() {
-		ex, err1 := unary[pb.ListExperimentsRequest, pb.ListExperimentsResponse](ctx, c, ProcListExperiments, &pb.ListExperimentsRequest{})
-		ss, err2 := unary[pb.ListSessionsRequest, pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
+		ex, err1 := unary[pb.ListExperimentsResponse](ctx, c, ProcListExperiments, &pb.ListExperimentsRequest{})
+		ss, err2 := unary[pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
 		var snap *pb.RoomSnapshot
 		if sid != 0 {
 			snap = firstSnapshot(ctx, c, sid)
@@ -80,15 +80,15 @@ func (s *Setup) OnMount(ctx app.Context) {
 
 // firstSnapshot reads one room snapshot and closes the stream.
 func firstSnapshot(ctx app.Context, c *api, sid uint64) *pb.RoomSnapshot {
-	stream, err := c.watchRoom.CallServerStream(ctx, connect.NewRequest(&pb.WatchRoomRequest{SessionId: sid}))
-	if err != nil {
+	var snap *pb.RoomSnapshot
+	sctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	c.watchRoom(sctx, sid, func(ev *pb.WatchRoomResponse) error {
+		snap = ev.GetSnapshot()
+		cancel()
 		return nil
-	}
-	defer stream.Close()
-	if stream.Receive() {
-		return stream.Msg().GetSnapshot()
-	}
-	return nil
+	})
+	return snap
 }
 
 func (s *Setup) load(snap *pb.RoomSnapshot) {
@@ -129,13 +129,13 @@ func (s *Setup) saveSession(ctx app.Context, e app.Event) {
 		var err error
 		if existing == nil {
 			var res *pb.CreateSessionResponse
-			res, err = unary[pb.CreateSessionRequest, pb.CreateSessionResponse](ctx, c, ProcCreateSession, &pb.CreateSessionRequest{Title: title, Tolerance: tol, StationsSeeVerdicts: see})
+			res, err = unary[pb.CreateSessionResponse](ctx, c, ProcCreateSession, &pb.CreateSessionRequest{Title: title, Tolerance: tol, StationsSeeVerdicts: see})
 			if err == nil {
 				sess = res.Session
 			}
 		} else {
 			var res *pb.UpdateSessionResponse
-			res, err = unary[pb.UpdateSessionRequest, pb.UpdateSessionResponse](ctx, c, ProcUpdateSession,
+			res, err = unary[pb.UpdateSessionResponse](ctx, c, ProcUpdateSession,
 				&pb.UpdateSessionRequest{SessionId: existing.SessionId, Title: title, Tolerance: tol, StationsSeeVerdicts: see})
 			if err == nil {
 				sess = res.Session
@@ -184,7 +184,7 @@ func (s *Setup) saveBenches(ctx app.Context, e app.Event) {
 	}
 	c, sid := s.client, s.session.SessionId
 	ctx.Async(func() {
-		res, err := unary[pb.SetBenchesRequest, pb.SetBenchesResponse](ctx, c, ProcSetBenches, &pb.SetBenchesRequest{SessionId: sid, Benches: benches})
+		res, err := unary[pb.SetBenchesResponse](ctx, c, ProcSetBenches, &pb.SetBenchesRequest{SessionId: sid, Benches: benches})
 		ctx.Dispatch(func(app.Context) {
 			s.errs = fieldMessages(err)
 			if err != nil {
@@ -271,7 +271,7 @@ func (s *Setup) Render() app.UI {
 		app.H2().Text("Sessions"),
 		app.Ul().Body(app.Range(s.sessions).Slice(func(i int) app.UI {
 			ss := s.sessions[i]
-			return app.Li().Body(app.A().Href(fmt.Sprintf("/setup?session=%d", ss.SessionId)).Text(ss.Title+" ("+ss.JoinCode+")"))
+			return app.Li().Body(app.A().Href(fmt.Sprintf("/setup?session=%d", ss.SessionId)).Text(ss.Title + " (" + ss.JoinCode + ")"))
 		})),
 	)
 }
@@ -321,9 +321,13 @@ func (s *Setup) renderGrid() app.UI {
 		app.H2().Text("The room"),
 		app.Div().Class("grid-size").Body(
 			app.Label().Text("rows "), app.Input().ID("rows").Type("number").Min(1).Max(20).Value(s.rows).
-				OnChange(func(ctx app.Context, e app.Event) { s.rows = max(1, min(20, int(num(ctx.JSSrc().Get("value").String())))) }),
+				OnChange(func(ctx app.Context, e app.Event) {
+					s.rows = max(1, min(20, int(num(ctx.JSSrc().Get("value").String()))))
+				}),
 			app.Label().Text(" columns "), app.Input().ID("cols").Type("number").Min(1).Max(20).Value(s.cols).
-				OnChange(func(ctx app.Context, e app.Event) { s.cols = max(1, min(20, int(num(ctx.JSSrc().Get("value").String())))) }),
+				OnChange(func(ctx app.Context, e app.Event) {
+					s.cols = max(1, min(20, int(num(ctx.JSSrc().Get("value").String()))))
+				}),
 		),
 		app.Div().Class("setup-grid").Style("grid-template-columns", fmt.Sprintf("repeat(%d, minmax(9rem, 1fr))", s.cols)).Body(cells...),
 		s.renderConstants(),
@@ -351,7 +355,9 @@ func (s *Setup) renderConstants() app.UI {
 		fields = append(fields, field("c-"+q.Name, q.Label+" ("+strings.Join(q.Units, ", ")+")", errKey,
 			app.Input().ID("c-"+q.Name).Value(c.constants[q.Name]).
 				Placeholder(fmt.Sprintf("%g %s", q.DefaultValue, q.Unit)).
-				OnInput(func(ctx app.Context, e app.Event) { s.cell(s.selected).constants[q.Name] = ctx.JSSrc().Get("value").String() })))
+				OnInput(func(ctx app.Context, e app.Event) {
+					s.cell(s.selected).constants[q.Name] = ctx.JSSrc().Get("value").String()
+				})))
 	}
 	return app.FieldSet().Class("constants").ID("constants").Body(
 		append([]app.UI{app.Legend().Text(fmt.Sprintf("Bench %s · %s (value and unit, e.g. \"4.0 cm\")", c.label, spec.Title))}, append(fields,

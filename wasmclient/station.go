@@ -9,7 +9,6 @@ import (
 	"strings"
 	"time"
 
-	"connectrpc.com/connect"
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	"example.com/fluxroom/domain"
@@ -84,7 +83,7 @@ func loadQueue(ctx app.Context) []queuedReading {
 func (s *Station) loadSpec(ctx app.Context) {
 	c, exp := s.client, s.joined.Experiment
 	ctx.Async(func() {
-		list, err := unary[pb.ListExperimentsRequest, pb.ListExperimentsResponse](ctx, c, ProcListExperiments, &pb.ListExperimentsRequest{})
+		list, err := unary[pb.ListExperimentsResponse](ctx, c, ProcListExperiments, &pb.ListExperimentsRequest{})
 		ctx.Dispatch(func(ctx app.Context) {
 			if err != nil {
 				s.status = "cannot load the form yet: " + err.Error()
@@ -125,10 +124,9 @@ func (s *Station) sender(ctx app.Context) {
 			continue
 		}
 		item := q[0]
-		res, err := unary[pb.SubmitReadingRequest, pb.SubmitReadingResponse](ctx, s.client, ProcSubmitReading, &pb.SubmitReadingRequest{
+		res, err := unary[pb.SubmitReadingResponse](ctx, s.client, ProcSubmitReading, &pb.SubmitReadingRequest{
 			SessionId: item.SessionID, BenchId: item.BenchID, ReadingId: item.ReadingID, Values: quantitiesPB(item.Values)})
-		var ce *connect.Error
-		switch {
+		switch code := codeOf(err); {
 		case err == nil:
 			dropQueued(ctx, item.ReadingID)
 			wait = time.Second
@@ -140,7 +138,7 @@ func (s *Station) sender(ctx app.Context) {
 				}
 			})
 			s.refreshNow(ctx)
-		case errors.As(err, &ce) && (ce.Code() == connect.CodeInvalidArgument || ce.Code() == connect.CodeNotFound):
+		case code == codeInvalidArgument || code == codeNotFound:
 			// The server will never take it: show why, keep nothing.
 			dropQueued(ctx, item.ReadingID)
 			msgs := fieldMessages(err)
@@ -150,7 +148,7 @@ func (s *Station) sender(ctx app.Context) {
 				for f, m := range msgs {
 					s.fieldErrs[valueName(f)] = m
 				}
-				s.status = "not stored: " + ce.Message()
+				s.status = "not stored: " + err.(*rpcError).msg
 			})
 		default:
 			ctx.Dispatch(func(app.Context) {
@@ -187,7 +185,7 @@ func (s *Station) refreshNow(ctx app.Context) {
 	if j == nil {
 		return
 	}
-	res, err := unary[pb.GetBenchStateRequest, pb.GetBenchStateResponse](ctx, s.client, ProcGetBenchState,
+	res, err := unary[pb.GetBenchStateResponse](ctx, s.client, ProcGetBenchState,
 		&pb.GetBenchStateRequest{SessionId: j.SessionID, BenchId: j.BenchID})
 	if err != nil {
 		return
@@ -199,7 +197,7 @@ func (s *Station) join(ctx app.Context, e app.Event) {
 	e.PreventDefault()
 	code, label, c := s.code, s.label, s.client
 	ctx.Async(func() {
-		res, err := unary[pb.JoinBenchRequest, pb.JoinBenchResponse](ctx, c, ProcJoinBench, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: label})
+		res, err := unary[pb.JoinBenchResponse](ctx, c, ProcJoinBench, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: label})
 		ctx.Dispatch(func(ctx app.Context) {
 			if err != nil {
 				s.fieldErrs = map[string]string{}
@@ -291,7 +289,7 @@ func (s *Station) submit(ctx app.Context, e app.Event) {
 // readings.
 func (s *Station) Render() app.UI {
 	if s.joined == nil {
-		return app.Main().Class("station").Body(
+		return app.Main().Class("station").Attr("data-ready", app.IsClient).Body(
 			app.H1().Text("Join your bench"),
 			app.Form().ID("join-form").OnSubmit(s.join).Body(
 				field("join_code", "Join code (on the instructor's screen)", s.fieldErrs["join_code"],
@@ -335,7 +333,7 @@ func (s *Station) Render() app.UI {
 	if s.spec != nil {
 		title = s.spec.Title
 	}
-	return app.Main().Class("station").Body(
+	return app.Main().Class("station").Attr("data-ready", app.IsClient && s.spec != nil).Body(
 		app.Header().Class("room-head").Body(
 			app.H1().Text(fmt.Sprintf("Bench %s · %s", s.joined.Label, title)),
 			app.Button().ID("leave").Text("Leave bench").OnClick(s.leave),
@@ -383,4 +381,3 @@ func quantitiesPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
 	}
 	return out
 }
-

@@ -32,7 +32,7 @@ var (
 
 // builtDashboard compiles the dashboard to WebAssembly once per test run, the
 // way `make wasm` does, so `go test` needs no earlier build step.
-func builtDashboard(t *testing.T) string {
+func builtDashboard(t testing.TB) string {
 	t.Helper()
 	buildOnce.Do(func() {
 		dir, err := os.MkdirTemp("", "fluxroom-web-")
@@ -85,7 +85,7 @@ type program struct {
 	done   chan error
 }
 
-func startProgram(t *testing.T, web, dbPath, addr string) *program {
+func startProgram(t testing.TB, web, dbPath, addr string) *program {
 	t.Helper()
 	ready := make(chan net.Addr, 1)
 	m := NewMain(io.Discard, io.Discard)
@@ -107,7 +107,7 @@ func startProgram(t *testing.T, web, dbPath, addr string) *program {
 	return p
 }
 
-func (p *program) stop(t *testing.T) {
+func (p *program) stop(t testing.TB) {
 	t.Helper()
 	p.cancel()
 	if err := <-p.done; err != nil {
@@ -117,7 +117,7 @@ func (p *program) stop(t *testing.T) {
 
 // chromium finds Debian's Chromium. Under CI the browser test must run;
 // elsewhere it is skipped with the command that installs it.
-func chromium(t *testing.T) string {
+func chromium(t testing.TB) string {
 	t.Helper()
 	for _, name := range []string{os.Getenv("FLUXROOM_CHROMIUM"), "chromium", "chromium-browser"} {
 		if name == "" {
@@ -135,7 +135,7 @@ func chromium(t *testing.T) string {
 	return ""
 }
 
-func browser(t *testing.T, path string) context.Context {
+func browser(t testing.TB, path string) context.Context {
 	t.Helper()
 	opts := append(chromedp.DefaultExecAllocatorOptions[:],
 		chromedp.ExecPath(path),
@@ -169,7 +169,7 @@ func browser(t *testing.T, path string) context.Context {
 }
 
 // artifactDir is where screenshots are kept for people to look at.
-func artifactDir(t *testing.T) string {
+func artifactDir(t testing.TB) string {
 	t.Helper()
 	dir := os.Getenv("FLUXROOM_ARTIFACTS")
 	if dir == "" {
@@ -181,7 +181,7 @@ func artifactDir(t *testing.T) string {
 	return dir
 }
 
-func screenshot(t *testing.T, ctx context.Context, name string) {
+func screenshot(t testing.TB, ctx context.Context, name string) {
 	t.Helper()
 	png, err := chromedp.Run(ctx, chromedp.FullScreenshot(100))
 	if err != nil {

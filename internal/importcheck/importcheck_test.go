@@ -51,7 +51,7 @@ func TestImportRules(t *testing.T) {
 			name: "browser build links no grpc-go, bbolt or server side",
 			goos: "js", goarch: "wasm", pkg: module + "/wasmclient/app",
 			forbidden: []string{"google.golang.org/grpc", "go.etcd.io/bbolt", module + "/store", module + "/server",
-				module + "/proto/rpcpb", module + "/proto/recordpb"},
+				module + "/proto/rpcpb", module + "/proto/recordpb", "connectrpc.com"},
 		},
 		{
 			name: "domain depends on no adapter, wire or storage library",
