@@ -121,7 +121,7 @@ func readingsTable(rs []*pb.Reading, gone map[string]bool) app.UI {
 		for _, c := range cols {
 			text := ""
 			if q, ok := rd.Values[c]; ok {
-				text = fmt.Sprintf("%g %s", q.Value, q.Unit)
+				text = fmt.Sprintf("%.6g %s", q.Value, q.Unit)
 			}
 			cells = append(cells, app.Td().Text(text))
 		}

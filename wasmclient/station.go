@@ -29,7 +29,9 @@ type Station struct {
 	joined *stationJoin
 	spec   *pb.ExperimentSpec
 
-	inputs    map[string]string
+	// correcting is the id of the reading the next one corrects.
+	correcting string
+	inputs     map[string]string
 	units     map[string]string
 	fieldErrs map[string]string
 	status    string
@@ -53,6 +55,8 @@ type queuedReading struct {
 	SessionID uint64                     `json:"session_id"`
 	BenchID   uint64                     `json:"bench_id"`
 	Values    map[string]domain.Quantity `json:"values"`
+	// Supersedes is the id of the reading this one corrects.
+	Supersedes string `json:"supersedes,omitempty"`
 }
 
 const (
@@ -125,7 +129,8 @@ func (s *Station) sender(ctx app.Context) {
 		}
 		item := q[0]
 		res, err := unary[pb.SubmitReadingResponse](ctx, s.client, ProcSubmitReading, &pb.SubmitReadingRequest{
-			SessionId: item.SessionID, BenchId: item.BenchID, ReadingId: item.ReadingID, Values: quantitiesPB(item.Values)})
+			SessionId: item.SessionID, BenchId: item.BenchID, ReadingId: item.ReadingID, Values: quantitiesPB(item.Values),
+			Supersedes: item.Supersedes})
 		switch code := codeOf(err); {
 		case err == nil:
 			dropQueued(ctx, item.ReadingID)
@@ -273,7 +278,9 @@ func (s *Station) submit(ctx app.Context, e app.Event) {
 	vals, _ := s.values()
 	id := make([]byte, 8)
 	rand.Read(id)
-	item := queuedReading{ReadingID: "st-" + hex.EncodeToString(id), SessionID: s.joined.SessionID, BenchID: s.joined.BenchID, Values: vals}
+	item := queuedReading{ReadingID: "st-" + hex.EncodeToString(id), SessionID: s.joined.SessionID, BenchID: s.joined.BenchID,
+		Values: vals, Supersedes: s.correcting}
+	s.correcting = ""
 	q := append(loadQueue(ctx), item)
 	ctx.LocalStorage().Set(storageQueue, q)
 	s.queued = len(q)
@@ -342,6 +349,7 @@ func (s *Station) Render() app.UI {
 			app.Section().Class("unsafe-banner").ID("station-unsafe").Body(app.H2().Text("⚠ Unsafe setting"),
 				app.P().Text(s.state.GetReason()+" "+s.state.GetCaution()))),
 		app.Form().ID("reading-form").OnSubmit(s.submit).Body(append(fields,
+			s.correctionChoice(),
 			app.Button().Type("submit").ID("send").Text("Record reading"))...),
 		app.P().Class("status").ID("status").Attr("data-queued", strconv.Itoa(s.queued)).Text(s.statusLine()),
 		app.If(s.state != nil && s.state.GetReason() != "", app.P().Class("station-verdict").ID("station-verdict").
@@ -349,6 +357,18 @@ func (s *Station) Render() app.UI {
 		app.H2().Text("Your readings"),
 		readingsTable(s.readings, nil),
 	)
+}
+
+// correctionChoice lets the group mark the next reading as the correction of
+// an earlier one, which then stays on record, struck through.
+func (s *Station) correctionChoice() app.UI {
+	opts := []app.UI{app.Option().Value("").Text("a new reading").Selected(s.correcting == "")}
+	for _, r := range s.readings {
+		opts = append(opts, app.Option().Value(r.ReadingId).Selected(s.correcting == r.ReadingId).
+			Text(fmt.Sprintf("a correction of reading #%d", r.Sequence)))
+	}
+	return field("supersedes", "This is", s.fieldErrs["supersedes"], app.Select().ID("v-supersedes").Body(opts...).
+		OnChange(func(ctx app.Context, e app.Event) { s.correcting = ctx.JSSrc().Get("value").String() }))
 }
 
 func (s *Station) statusLine() string {
