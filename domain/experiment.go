@@ -21,6 +21,9 @@ type Session struct {
 	Tolerance Tolerance
 	// StationsSeeVerdicts lets a bench's laptop see its own verdict and hint.
 	StationsSeeVerdicts bool
+	// GradingPolicy is the course's policy file as JSON; empty for
+	// DefaultPolicy. It is parsed at the edges (internal/export).
+	GradingPolicy string
 }
 
 // EffectiveTolerance is the session's tolerance with defaults filled in.
@@ -73,18 +76,34 @@ type Note struct {
 	Text   string
 	Author string
 	At     time.Time
+	// Points and PreviousPoints belong to a grade override.
+	Points, PreviousPoints float64
 }
 
 // Note kinds.
 const (
-	NoteKindNote         = "note"
-	NoteKindAcknowledged = "acknowledged"
+	NoteKindNote          = "note"
+	NoteKindAcknowledged  = "acknowledged"
+	NoteKindGradeOverride = "grade_override"
 )
+
+// Overrides collects the grade overrides of a session's notes by bench, in
+// time order.
+func Overrides(notes []Note) map[uint64][]Override {
+	out := map[uint64][]Override{}
+	for _, n := range notes {
+		if n.Kind == NoteKindGradeOverride {
+			out[n.BenchID] = append(out[n.BenchID], Override{BenchID: n.BenchID, Points: n.Points, Reason: n.Text,
+				Author: n.Author, At: n.At, Previous: n.PreviousPoints})
+		}
+	}
+	return out
+}
 
 // ValidateNote checks a note's text and author.
 func ValidateNote(n Note) error {
 	var vs violations
-	if t := strings.TrimSpace(n.Text); n.Kind == NoteKindNote && (t == "" || utf8.RuneCountInString(t) > 1000 || !utf8.ValidString(t)) {
+	if t := strings.TrimSpace(n.Text); n.Kind != NoteKindAcknowledged && (t == "" || utf8.RuneCountInString(t) > 1000 || !utf8.ValidString(t)) {
 		vs.add("text", "must be 1–1000 characters")
 	}
 	if utf8.RuneCountInString(n.Author) > 80 || !utf8.ValidString(n.Author) {
@@ -101,6 +120,17 @@ type Bench struct {
 	Column     int
 	Experiment string
 	Constants  map[string]Quantity
+	// Members is the group's names exactly as the group entered them; the
+	// only personal data fluxroom keeps.
+	Members string
+}
+
+// ValidateMembers checks a group's member list as typed.
+func ValidateMembers(field, m string) error {
+	if utf8.RuneCountInString(m) > 200 || !utf8.ValidString(m) || strings.ContainsAny(m, "\x00\n\r") {
+		return Invalid(field, "must be one line of at most 200 characters")
+	}
+	return nil
 }
 
 // Reading is one row of measurements from a bench, as typed.
@@ -299,6 +329,9 @@ func ValidateBench(prefix string, b Bench) (Bench, error) {
 	}
 	if b.Column < 0 || b.Column >= MaxGridColumns {
 		vs.add(prefix+".column", "must be 0–%d, got %d", MaxGridColumns-1, b.Column)
+	}
+	if err := ValidateMembers(prefix+".members", b.Members); err != nil {
+		vs = append(vs, err.(*ValidationError).Violations...)
 	}
 	e, ok := LookupExperiment(b.Experiment)
 	if !ok {

@@ -32,7 +32,8 @@ func toleranceFromPB(t *pb.Tolerance) domain.Tolerance {
 func sessionToPB(s domain.Session) *pb.Session {
 	t := s.EffectiveTolerance()
 	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, StationsSeeVerdicts: s.StationsSeeVerdicts,
-		Tolerance: &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
+		GradingPolicyJson: s.GradingPolicy,
+		Tolerance:         &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
 	if !s.CreatedAt.IsZero() {
 		out.CreatedAt = timestamppb.New(s.CreatedAt)
 	}
@@ -41,12 +42,12 @@ func sessionToPB(s domain.Session) *pb.Session {
 
 func benchFromPB(b *pb.Bench) domain.Bench {
 	return domain.Bench{ID: b.GetBenchId(), Label: b.GetLabel(), Row: int(b.GetRow()), Column: int(b.GetColumn()),
-		Experiment: b.GetExperiment(), Constants: quantitiesFromPB(b.GetConstants())}
+		Experiment: b.GetExperiment(), Constants: quantitiesFromPB(b.GetConstants()), Members: b.GetMembers()}
 }
 
 func benchToPB(b domain.Bench) *pb.Bench {
 	return &pb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
-		Experiment: b.Experiment, Constants: quantitiesToPB(b.Constants)}
+		Experiment: b.Experiment, Constants: quantitiesToPB(b.Constants), Members: b.Members}
 }
 
 func readingToPB(r domain.Reading) *pb.Reading {
@@ -127,7 +128,7 @@ func findingsToPB(fs []domain.RoomFinding) []*pb.RoomFinding {
 }
 
 func noteToPB(n domain.Note) *pb.Note {
-	out := &pb.Note{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author}
+	out := &pb.Note{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author, Points: n.Points, PreviousPoints: n.PreviousPoints}
 	if !n.At.IsZero() {
 		out.At = timestamppb.New(n.At)
 	}

@@ -2,6 +2,8 @@ package server
 
 import (
 	"context"
+	"fmt"
+	"strings"
 	"testing"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -100,5 +102,44 @@ func TestUnsafeAlertAcknowledged(t *testing.T) {
 	res, _ = submit(ctx, r, sid, bid, "hotter", 6.5, 3.1)
 	if res.State.AlertAcknowledged {
 		t.Error("a later unsafe reading stayed acknowledged")
+	}
+}
+
+func TestGradingExportAndOverrideAudit(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	sid, bid := sess.SessionId, benches[0].BenchId
+	for i, I := range []float64{0, 1, 2, 3, 4, 5, 0.5, 1.5} {
+		submit(ctx, r, sid, bid, fmt.Sprintf("g%d", i), I, 0.48*I+0.001*float64(i%3))
+	}
+	if _, err := r.instructor.SetGradingPolicy(ctx, &pb.SetGradingPolicyRequest{SessionId: sid, PolicyJson: `{"points": {"accuracy": "x"}}`}); !contains(fieldsOf(t, err), "policy_json.points.accuracy") {
+		t.Errorf("a bad policy was not rejected on its field")
+	}
+	if _, err := r.instructor.SetGradingPolicy(ctx, &pb.SetGradingPolicyRequest{SessionId: sid, PolicyJson: `{"name": "PHY 142", "points": {"accuracy": 6}}`}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := r.instructor.OverrideGrade(ctx, &pb.OverrideGradeRequest{SessionId: sid, BenchId: bid, Points: 99, Reason: "x"}); !contains(fieldsOf(t, err), "points") {
+		t.Error("points above the maximum were not rejected")
+	}
+	if _, err := r.instructor.OverrideGrade(ctx, &pb.OverrideGradeRequest{SessionId: sid, BenchId: bid, Points: 7, Author: "instructor"}); !contains(fieldsOf(t, err), "reason") {
+		t.Error("an override without a reason was not rejected")
+	}
+	o, err := r.instructor.OverrideGrade(ctx, &pb.OverrideGradeRequest{SessionId: sid, BenchId: bid, Points: 7, Reason: "late start, agreed", Author: "instructor"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if o.Note.PreviousPoints != 12 || o.Note.Points != 7 || o.Note.At == nil {
+		t.Errorf("override audit = %+v, want 12 → 7 with a time", o.Note)
+	}
+	ex, err := r.instructor.Export(ctx, &pb.ExportRequest{SessionId: sid, Format: pb.ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(string(ex.Content), "late start, agreed") || !strings.HasSuffix(ex.Filename, "-gradebook.csv") {
+		t.Errorf("export %s:\n%s", ex.Filename, ex.Content)
+	}
+	if _, err := r.instructor.Export(ctx, &pb.ExportRequest{SessionId: sid}); !contains(fieldsOf(t, err), "format") {
+		t.Error("an export without a format was not rejected")
 	}
 }

@@ -1,6 +1,7 @@
 package server
 
 import (
+	"bytes"
 	"context"
 	"crypto/rand"
 	"errors"
@@ -13,6 +14,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -44,9 +46,19 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 	if err != nil {
 		return nil, err
 	}
+	members := strings.TrimSpace(req.GetGroupMembers())
+	if err := domain.ValidateMembers("group_members", members); err != nil {
+		return nil, err
+	}
 	var labels []string
 	for _, b := range benches {
 		if strings.EqualFold(b.Label, strings.TrimSpace(req.GetBenchLabel())) {
+			if members != "" && members != b.Members {
+				if err := st.s.db.SetMembers(sess.ID, b.ID, members); err != nil {
+					return nil, err
+				}
+				b.Members = members
+			}
 			return &pb.JoinBenchResponse{SessionId: sess.ID, Bench: benchToPB(b)}, nil
 		}
 		labels = append(labels, b.Label)
@@ -314,6 +326,103 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 		return nil, err
 	}
 	return &pb.UpdateSessionResponse{Session: sessionToPB(sess)}, nil
+}
+
+func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGradingPolicyRequest) (*pb.SetGradingPolicyResponse, error) {
+	sess, err := in.s.db.Session(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	if _, err := export.ParsePolicy([]byte(req.GetPolicyJson())); err != nil {
+		return nil, prefixFields(err, "policy_json.")
+	}
+	sess.GradingPolicy = strings.TrimSpace(req.GetPolicyJson())
+	if sess, err = in.s.db.UpdateSession(sess); err != nil {
+		return nil, err
+	}
+	return &pb.SetGradingPolicyResponse{Session: sessionToPB(sess)}, nil
+}
+
+func (in instructorService) OverrideGrade(ctx context.Context, req *pb.OverrideGradeRequest) (*pb.OverrideGradeResponse, error) {
+	d, err := in.s.db.ReadSession(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	ex, err := export.Prepare(d)
+	if err != nil {
+		return nil, err
+	}
+	var row *domain.GradeRow
+	for i := range ex.Rows {
+		if ex.Rows[i].Bench.ID == req.GetBenchId() {
+			row = &ex.Rows[i]
+		}
+	}
+	if row == nil {
+		return nil, domain.Invalid("bench_id", "no bench %d in session %d", req.GetBenchId(), req.GetSessionId())
+	}
+	o := domain.Override{BenchID: req.GetBenchId(), Points: req.GetPoints(), Reason: strings.TrimSpace(req.GetReason()),
+		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now(), Previous: row.Grade.Final}
+	if err := domain.ValidateOverride(o, row.Grade.Max); err != nil {
+		return nil, err
+	}
+	n := domain.Note{BenchID: o.BenchID, Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At,
+		Points: o.Points, PreviousPoints: o.Previous}
+	note, err := in.s.note(req.GetSessionId(), n)
+	if err != nil {
+		return nil, err
+	}
+	return &pb.OverrideGradeResponse{Note: note}, nil
+}
+
+var exportFormats = map[pb.ExportFormat]export.Format{
+	pb.ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV: export.Gradebook,
+	pb.ExportFormat_EXPORT_FORMAT_READINGS_CSV:  export.Readings,
+	pb.ExportFormat_EXPORT_FORMAT_JSON:          export.JSON,
+	pb.ExportFormat_EXPORT_FORMAT_HTML:          export.HTML,
+}
+
+func (in instructorService) Export(ctx context.Context, req *pb.ExportRequest) (*pb.ExportResponse, error) {
+	f, ok := exportFormats[req.GetFormat()]
+	if !ok {
+		return nil, domain.Invalid("format", "choose one of GRADEBOOK_CSV, READINGS_CSV, JSON, HTML")
+	}
+	d, err := in.s.db.ReadSession(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	ex, err := export.Prepare(d)
+	if err != nil {
+		return nil, err
+	}
+	var buf bytes.Buffer
+	name, ctype, err := export.Write(&buf, ex, f)
+	if err != nil {
+		return nil, err
+	}
+	return &pb.ExportResponse{Filename: name, ContentType: ctype, Content: buf.Bytes()}, nil
+}
+
+// prefixFields puts prefix before every field of a validation error.
+func prefixFields(err error, prefix string) error {
+	var ve *domain.ValidationError
+	if !errors.As(err, &ve) {
+		return err
+	}
+	out := &domain.ValidationError{}
+	for _, v := range ve.Violations {
+		out.Violations = append(out.Violations, domain.FieldViolation{Field: prefix + v.Field, Reason: v.Reason})
+	}
+	return out
 }
 
 func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest) (*pb.AddNoteResponse, error) {

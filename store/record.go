@@ -44,32 +44,34 @@ func sessionRecord(s domain.Session) *recordpb.Session {
 	t := s.Tolerance
 	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt),
 		Tolerance:           &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
-		StationsSeeVerdicts: s.StationsSeeVerdicts}
+		StationsSeeVerdicts: s.StationsSeeVerdicts, GradingPolicyJson: s.GradingPolicy}
 }
 
 func sessionFromRecord(r *recordpb.Session) domain.Session {
 	t := r.GetTolerance()
 	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano()),
 		Tolerance:           domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()},
-		StationsSeeVerdicts: r.GetStationsSeeVerdicts()}
+		StationsSeeVerdicts: r.GetStationsSeeVerdicts(), GradingPolicy: r.GetGradingPolicyJson()}
 }
 
 func eventRecord(n domain.Note) *recordpb.Event {
-	return &recordpb.Event{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author, AtUnixNano: unixNano(n.At)}
+	return &recordpb.Event{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author, AtUnixNano: unixNano(n.At),
+		Points: n.Points, PreviousPoints: n.PreviousPoints}
 }
 
 func noteFromRecord(r *recordpb.Event) domain.Note {
-	return domain.Note{BenchID: r.GetBenchId(), Kind: r.GetKind(), Text: r.GetText(), Author: r.GetAuthor(), At: fromUnixNano(r.GetAtUnixNano())}
+	return domain.Note{BenchID: r.GetBenchId(), Kind: r.GetKind(), Text: r.GetText(), Author: r.GetAuthor(), At: fromUnixNano(r.GetAtUnixNano()),
+		Points: r.GetPoints(), PreviousPoints: r.GetPreviousPoints()}
 }
 
 func benchRecord(b domain.Bench) *recordpb.Bench {
 	return &recordpb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
-		Experiment: b.Experiment, Constants: quantitiesRecord(b.Constants)}
+		Experiment: b.Experiment, Constants: quantitiesRecord(b.Constants), Members: b.Members}
 }
 
 func benchFromRecord(r *recordpb.Bench) domain.Bench {
 	return domain.Bench{ID: r.GetBenchId(), Label: r.GetLabel(), Row: int(r.GetRow()), Column: int(r.GetColumn()),
-		Experiment: r.GetExperiment(), Constants: quantitiesFromRecord(r.GetConstants())}
+		Experiment: r.GetExperiment(), Constants: quantitiesFromRecord(r.GetConstants()), Members: r.GetMembers()}
 }
 
 func readingRecord(r domain.Reading) *recordpb.Reading {

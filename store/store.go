@@ -124,7 +124,7 @@ func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
 		if err != nil {
 			return err
 		}
-		old.Title, old.Tolerance, old.StationsSeeVerdicts = s.Title, s.Tolerance, s.StationsSeeVerdicts
+		old.Title, old.Tolerance, old.StationsSeeVerdicts, old.GradingPolicy = s.Title, s.Tolerance, s.StationsSeeVerdicts, s.GradingPolicy
 		out = old
 		return putRecord(tx.Bucket(bucketSessions), sessionKey(s.ID), sessionRecord(old))
 	})
@@ -157,21 +157,78 @@ func (db *DB) AppendNote(sessionID uint64, n domain.Note) error {
 func (db *DB) Notes(sessionID uint64) ([]domain.Note, error) {
 	var out []domain.Note
 	err := db.bolt.View(func(tx *bbolt.Tx) error {
-		prefix := sessionKey(sessionID)
-		c := tx.Bucket(bucketEvents).Cursor()
-		for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
-			if len(k) != 16 {
-				return fmt.Errorf("store: corrupt event key of %d bytes", len(k))
-			}
-			var r recordpb.Event
-			if err := proto.Unmarshal(v, &r); err != nil {
-				return fmt.Errorf("store: decode event: %w", err)
-			}
-			out = append(out, noteFromRecord(&r))
-		}
-		return nil
+		var err error
+		out, err = listNotes(tx, sessionID)
+		return err
 	})
 	return out, err
+}
+
+func listNotes(tx *bbolt.Tx, sessionID uint64) ([]domain.Note, error) {
+	var out []domain.Note
+	prefix := sessionKey(sessionID)
+	c := tx.Bucket(bucketEvents).Cursor()
+	for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
+		if len(k) != 16 {
+			return nil, fmt.Errorf("store: corrupt event key of %d bytes", len(k))
+		}
+		var r recordpb.Event
+		if err := proto.Unmarshal(v, &r); err != nil {
+			return nil, fmt.Errorf("store: decode event: %w", err)
+		}
+		out = append(out, noteFromRecord(&r))
+	}
+	return out, nil
+}
+
+// SetMembers records a group's member names on its bench.
+func (db *DB) SetMembers(sessionID, benchID uint64, members string) error {
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		b, err := getBench(tx, sessionID, benchID)
+		if err != nil {
+			return err
+		}
+		b.Members = members
+		return putRecord(tx.Bucket(bucketBenches), benchKey(sessionID, benchID), benchRecord(b))
+	})
+	if err != nil {
+		return fmt.Errorf("store: set members: %w", err)
+	}
+	return nil
+}
+
+// SessionData is everything stored about one session, read in one
+// transaction: for exports and grading.
+type SessionData struct {
+	Session  domain.Session
+	Benches  []domain.Bench
+	Readings map[uint64][]domain.Reading
+	Notes    []domain.Note
+}
+
+// ReadSession reads a whole session in one transaction.
+func (db *DB) ReadSession(sessionID uint64) (SessionData, error) {
+	d := SessionData{Readings: map[uint64][]domain.Reading{}}
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		var err error
+		if d.Session, err = getSession(tx, sessionID); err != nil {
+			return err
+		}
+		if d.Benches, err = listBenches(tx, sessionID); err != nil {
+			return err
+		}
+		for _, b := range d.Benches {
+			if d.Readings[b.ID], err = listReadings(tx, sessionID, b.ID); err != nil {
+				return err
+			}
+		}
+		d.Notes, err = listNotes(tx, sessionID)
+		return err
+	})
+	if err != nil {
+		return SessionData{}, fmt.Errorf("store: read session %d: %w", sessionID, err)
+	}
+	return d, nil
 }
 
 // Session returns one session.

@@ -7,6 +7,8 @@ import (
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
+	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/svgplot"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -45,7 +47,7 @@ func (r *Room) renderDetail() app.UI {
 		),
 		app.P().Class("detail-reason").Text(st.GetReason()),
 		app.If(st.GetCaution() != "", app.P().Class("caution").Text(st.GetCaution())),
-		app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+plotSVG(d.Plot)+`</div>`)),
+		app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(d.Plot))+`</div>`)),
 		app.Div().Class("detail-cols").Body(
 			app.Section().Body(
 				app.H3().Text("Likely causes"),
@@ -94,6 +96,26 @@ func (r *Room) sessionID() uint64 {
 		return 0
 	}
 	return r.session.SessionId
+}
+
+// plotFromPB converts the wire plot for svgplot.
+func plotFromPB(p *pb.Plot) *domain.Plot {
+	if p == nil {
+		return nil
+	}
+	line := func(l []*pb.PlotPoint) []domain.XY {
+		out := make([]domain.XY, len(l))
+		for i, v := range l {
+			out[i] = domain.XY{X: v.X, Y: v.Y}
+		}
+		return out
+	}
+	out := &domain.Plot{XLabel: p.XLabel, YLabel: p.YLabel, Theory: line(p.Theory), Fit: line(p.Fit),
+		BandLow: line(p.BandLow), BandHigh: line(p.BandHigh)}
+	for _, v := range p.Points {
+		out.Points = append(out.Points, domain.PlotPoint{X: v.X, Y: v.Y, UY: v.YUncertainty, ReadingID: v.ReadingId})
+	}
+	return out
 }
 
 // readingsTable lists the readings in arrival order; a corrected reading is

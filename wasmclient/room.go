@@ -8,6 +8,7 @@ import (
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
+	"example.com/fluxroom/internal/svgplot"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -334,14 +335,14 @@ func (r *Room) renderUnsafe() app.UI {
 // renderFindings shows, per experiment, the groups' results as dots against
 // the theory value, and the room-level findings.
 func (r *Room) renderFindings() app.UI {
-	byExp := map[string][]dot{}
+	byExp := map[string][]svgplot.Dot{}
 	for _, st := range r.benches {
 		if st.GetPredicted() == nil || st.GetPredicted().GetValue() == 0 {
 			continue
 		}
 		exp := st.GetBench().GetExperiment()
-		byExp[exp] = append(byExp[exp], dot{label: st.GetBench().GetLabel(),
-			ratio: st.GetMeasured().GetValue() / st.GetPredicted().GetValue(), verdict: verdictClass(st.GetVerdict())})
+		byExp[exp] = append(byExp[exp], svgplot.Dot{Label: st.GetBench().GetLabel(),
+			Ratio: st.GetMeasured().GetValue() / st.GetPredicted().GetValue(), Verdict: verdictClass(st.GetVerdict())})
 	}
 	exps := make([]string, 0, len(byExp))
 	for e := range byExp {
@@ -356,7 +357,7 @@ func (r *Room) renderFindings() app.UI {
 		app.Range(exps).Slice(func(i int) app.UI {
 			return app.Div().Class("dotplot").Attr("data-experiment", exps[i]).Body(
 				app.Span().Class("dotplot-label").Text(exps[i]),
-				app.Raw(dotPlotSVG(byExp[exps[i]])),
+				app.Raw(svgplot.Dots(byExp[exps[i]])),
 			)
 		}),
 		app.Ul().Body(app.Range(r.findings).Slice(func(i int) app.UI {

@@ -32,13 +32,13 @@ type Station struct {
 	// correcting is the id of the reading the next one corrects.
 	correcting string
 	inputs     map[string]string
-	units     map[string]string
-	fieldErrs map[string]string
-	status    string
-	queued    int
-	state     *pb.BenchState
-	readings  []*pb.Reading
-	wake      chan struct{}
+	units      map[string]string
+	fieldErrs  map[string]string
+	status     string
+	queued     int
+	state      *pb.BenchState
+	readings   []*pb.Reading
+	wake       chan struct{}
 }
 
 // stationJoin is what the station remembers across reloads.

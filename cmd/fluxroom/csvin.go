@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 )
 
 // The readings CSV (documented in README.md, "Readings CSV"):
@@ -66,7 +67,7 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 	}
 	line, _ := cr.FieldPos(0)
 	cols := make([]csvColumn, len(header))
-	benchCol, expCol := -1, -1
+	benchCol, expCol, supersededCol := -1, -1, -1
 	for i, h := range header {
 		h = strings.TrimSpace(strings.TrimPrefix(h, "\ufeff"))
 		switch strings.ToLower(h) {
@@ -76,6 +77,11 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 		case "experiment":
 			expCol = i
 			continue
+		case export.ColSuperseded:
+			supersededCol = i
+			continue
+		case export.ColSequence, export.ColReadingID, export.ColReceivedAt, export.ColSupersedes, "group members":
+			continue // metadata of an exported file
 		}
 		name, unit, ok := strings.Cut(h, "[")
 		if !ok || !strings.HasSuffix(unit, "]") {
@@ -109,6 +115,9 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 				return ""
 			}
 			return strings.TrimSpace(rec[i])
+		}
+		if strings.EqualFold(cell(supersededCol), "yes") {
+			continue // corrected by a later row; kept in the file for the record
 		}
 		label := cell(benchCol)
 		if label == "" {

@@ -52,6 +52,7 @@ Commands:
   demo    run the server with a simulated class of benches, and print the room
   analyze judge a readings CSV with the same engine: fluxroom analyze [--json] FILE.csv
   submit  send a readings CSV to a live session: fluxroom submit --server HOST:PORT --code CODE --bench LABEL FILE.csv
+  export  write a session's gradebook, readings, JSON or report: fluxroom export --db FILE --session N --format csv|readings|json|html --out FILE
   catalogue list every diagnosis code with its cause and suggested action
   help    show this text
 
@@ -77,6 +78,8 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.submitCmd(ctx, args[1:])
 	case "catalogue":
 		return m.catalogueCmd(ctx, args[1:])
+	case "export":
+		return m.exportCmd(ctx, args[1:])
 	case "help", "-h", "--help":
 		fmt.Fprint(m.Stdout, helpText)
 		return nil

@@ -94,6 +94,64 @@ func (Verdict) EnumDescriptor() ([]byte, []int) {
 	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{0}
 }
 
+type ExportFormat int32
+
+const (
+	ExportFormat_EXPORT_FORMAT_UNSPECIFIED ExportFormat = 0
+	// One row per group and experiment, for a gradebook.
+	ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV ExportFormat = 1
+	// Every reading, in the readings CSV format `fluxroom analyze` reads.
+	ExportFormat_EXPORT_FORMAT_READINGS_CSV ExportFormat = 2
+	ExportFormat_EXPORT_FORMAT_JSON         ExportFormat = 3
+	// A printable report per group, with plots and feedback.
+	ExportFormat_EXPORT_FORMAT_HTML ExportFormat = 4
+)
+
+// Enum value maps for ExportFormat.
+var (
+	ExportFormat_name = map[int32]string{
+		0: "EXPORT_FORMAT_UNSPECIFIED",
+		1: "EXPORT_FORMAT_GRADEBOOK_CSV",
+		2: "EXPORT_FORMAT_READINGS_CSV",
+		3: "EXPORT_FORMAT_JSON",
+		4: "EXPORT_FORMAT_HTML",
+	}
+	ExportFormat_value = map[string]int32{
+		"EXPORT_FORMAT_UNSPECIFIED":   0,
+		"EXPORT_FORMAT_GRADEBOOK_CSV": 1,
+		"EXPORT_FORMAT_READINGS_CSV":  2,
+		"EXPORT_FORMAT_JSON":          3,
+		"EXPORT_FORMAT_HTML":          4,
+	}
+)
+
+func (x ExportFormat) Enum() *ExportFormat {
+	p := new(ExportFormat)
+	*p = x
+	return p
+}
+
+func (x ExportFormat) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (ExportFormat) Descriptor() protoreflect.EnumDescriptor {
+	return file_fluxroom_v1_messages_proto_enumTypes[1].Descriptor()
+}
+
+func (ExportFormat) Type() protoreflect.EnumType {
+	return &file_fluxroom_v1_messages_proto_enumTypes[1]
+}
+
+func (x ExportFormat) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use ExportFormat.Descriptor instead.
+func (ExportFormat) EnumDescriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{1}
+}
+
 // Quantity is a value exactly as a person typed it, with its unit.
 // The server converts to SI; it never stores the converted value in place of
 // what was typed.
@@ -173,8 +231,11 @@ type Session struct {
 	Tolerance *Tolerance `protobuf:"bytes,5,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	// Whether station laptops see their own verdict and hint.
 	StationsSeeVerdicts bool `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
-	unknownFields       protoimpl.UnknownFields
-	sizeCache           protoimpl.SizeCache
+	// The course's grading policy as JSON (README.md, "Grading policy");
+	// empty for the default.
+	GradingPolicyJson string `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
+	unknownFields     protoimpl.UnknownFields
+	sizeCache         protoimpl.SizeCache
 }
 
 func (x *Session) Reset() {
@@ -247,6 +308,13 @@ func (x *Session) GetStationsSeeVerdicts() bool {
 		return x.StationsSeeVerdicts
 	}
 	return false
+}
+
+func (x *Session) GetGradingPolicyJson() string {
+	if x != nil {
+		return x.GradingPolicyJson
+	}
+	return ""
 }
 
 // Tolerance is a course's rule for verdicts: consistent when |z| ≤
@@ -490,13 +558,16 @@ func (x *ExperimentSpec) GetMinReadings() int32 {
 type Note struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
 	BenchId uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	// "note" or "acknowledged".
-	Kind          string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
-	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
-	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
-	At            *timestamppb.Timestamp `protobuf:"bytes,5,opt,name=at,proto3" json:"at,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	// "note", "acknowledged" or "grade_override".
+	Kind   string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
+	Text   string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	Author string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	At     *timestamppb.Timestamp `protobuf:"bytes,5,opt,name=at,proto3" json:"at,omitempty"`
+	// For a grade override: the new points and the points before.
+	Points         float64 `protobuf:"fixed64,6,opt,name=points,proto3" json:"points,omitempty"`
+	PreviousPoints float64 `protobuf:"fixed64,7,opt,name=previous_points,json=previousPoints,proto3" json:"previous_points,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *Note) Reset() {
@@ -564,6 +635,20 @@ func (x *Note) GetAt() *timestamppb.Timestamp {
 	return nil
 }
 
+func (x *Note) GetPoints() float64 {
+	if x != nil {
+		return x.Points
+	}
+	return 0
+}
+
+func (x *Note) GetPreviousPoints() float64 {
+	if x != nil {
+		return x.PreviousPoints
+	}
+	return 0
+}
+
 // Bench is one station in the room, with its equipment constants.
 type Bench struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
@@ -576,7 +661,9 @@ type Bench struct {
 	Experiment string `protobuf:"bytes,5,opt,name=experiment,proto3" json:"experiment,omitempty"`
 	// Equipment constants by name, for example "turns", "segment_length",
 	// "gap_field". Names and units are declared by the experiment.
-	Constants     map[string]*Quantity `protobuf:"bytes,6,rep,name=constants,proto3" json:"constants,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	Constants map[string]*Quantity `protobuf:"bytes,6,rep,name=constants,proto3" json:"constants,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	// The group's members exactly as entered; the only personal data kept.
+	Members       string `protobuf:"bytes,7,opt,name=members,proto3" json:"members,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -651,6 +738,13 @@ func (x *Bench) GetConstants() map[string]*Quantity {
 		return x.Constants
 	}
 	return nil
+}
+
+func (x *Bench) GetMembers() string {
+	if x != nil {
+		return x.Members
+	}
+	return ""
 }
 
 // Reading is one row of measurements submitted from a bench.
@@ -1637,9 +1731,11 @@ func (x *RoomSnapshot) GetFindings() []*RoomFinding {
 }
 
 type JoinBenchRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	JoinCode      string                 `protobuf:"bytes,1,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
-	BenchLabel    string                 `protobuf:"bytes,2,opt,name=bench_label,json=benchLabel,proto3" json:"bench_label,omitempty"`
+	state      protoimpl.MessageState `protogen:"open.v1"`
+	JoinCode   string                 `protobuf:"bytes,1,opt,name=join_code,json=joinCode,proto3" json:"join_code,omitempty"`
+	BenchLabel string                 `protobuf:"bytes,2,opt,name=bench_label,json=benchLabel,proto3" json:"bench_label,omitempty"`
+	// Optional: the group's names, as they want them in the gradebook.
+	GroupMembers  string `protobuf:"bytes,3,opt,name=group_members,json=groupMembers,proto3" json:"group_members,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1684,6 +1780,13 @@ func (x *JoinBenchRequest) GetJoinCode() string {
 func (x *JoinBenchRequest) GetBenchLabel() string {
 	if x != nil {
 		return x.BenchLabel
+	}
+	return ""
+}
+
+func (x *JoinBenchRequest) GetGroupMembers() string {
+	if x != nil {
+		return x.GroupMembers
 	}
 	return ""
 }
@@ -2926,6 +3029,335 @@ func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
 	return nil
 }
 
+type SetGradingPolicyRequest struct {
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	// The policy file's JSON; empty restores the default.
+	PolicyJson    string `protobuf:"bytes,2,opt,name=policy_json,json=policyJson,proto3" json:"policy_json,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetGradingPolicyRequest) Reset() {
+	*x = SetGradingPolicyRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetGradingPolicyRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetGradingPolicyRequest) ProtoMessage() {}
+
+func (x *SetGradingPolicyRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetGradingPolicyRequest.ProtoReflect.Descriptor instead.
+func (*SetGradingPolicyRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{42}
+}
+
+func (x *SetGradingPolicyRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *SetGradingPolicyRequest) GetPolicyJson() string {
+	if x != nil {
+		return x.PolicyJson
+	}
+	return ""
+}
+
+type SetGradingPolicyResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Session       *Session               `protobuf:"bytes,1,opt,name=session,proto3" json:"session,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetGradingPolicyResponse) Reset() {
+	*x = SetGradingPolicyResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetGradingPolicyResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetGradingPolicyResponse) ProtoMessage() {}
+
+func (x *SetGradingPolicyResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetGradingPolicyResponse.ProtoReflect.Descriptor instead.
+func (*SetGradingPolicyResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{43}
+}
+
+func (x *SetGradingPolicyResponse) GetSession() *Session {
+	if x != nil {
+		return x.Session
+	}
+	return nil
+}
+
+type OverrideGradeRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Points        float64                `protobuf:"fixed64,3,opt,name=points,proto3" json:"points,omitempty"`
+	Reason        string                 `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
+	Author        string                 `protobuf:"bytes,5,opt,name=author,proto3" json:"author,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *OverrideGradeRequest) Reset() {
+	*x = OverrideGradeRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *OverrideGradeRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*OverrideGradeRequest) ProtoMessage() {}
+
+func (x *OverrideGradeRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use OverrideGradeRequest.ProtoReflect.Descriptor instead.
+func (*OverrideGradeRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{44}
+}
+
+func (x *OverrideGradeRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *OverrideGradeRequest) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *OverrideGradeRequest) GetPoints() float64 {
+	if x != nil {
+		return x.Points
+	}
+	return 0
+}
+
+func (x *OverrideGradeRequest) GetReason() string {
+	if x != nil {
+		return x.Reason
+	}
+	return ""
+}
+
+func (x *OverrideGradeRequest) GetAuthor() string {
+	if x != nil {
+		return x.Author
+	}
+	return ""
+}
+
+type OverrideGradeResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Note          *Note                  `protobuf:"bytes,1,opt,name=note,proto3" json:"note,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *OverrideGradeResponse) Reset() {
+	*x = OverrideGradeResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *OverrideGradeResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*OverrideGradeResponse) ProtoMessage() {}
+
+func (x *OverrideGradeResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use OverrideGradeResponse.ProtoReflect.Descriptor instead.
+func (*OverrideGradeResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{45}
+}
+
+func (x *OverrideGradeResponse) GetNote() *Note {
+	if x != nil {
+		return x.Note
+	}
+	return nil
+}
+
+type ExportRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	Format        ExportFormat           `protobuf:"varint,2,opt,name=format,proto3,enum=fluxroom.v1.ExportFormat" json:"format,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ExportRequest) Reset() {
+	*x = ExportRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ExportRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ExportRequest) ProtoMessage() {}
+
+func (x *ExportRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ExportRequest.ProtoReflect.Descriptor instead.
+func (*ExportRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{46}
+}
+
+func (x *ExportRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *ExportRequest) GetFormat() ExportFormat {
+	if x != nil {
+		return x.Format
+	}
+	return ExportFormat_EXPORT_FORMAT_UNSPECIFIED
+}
+
+type ExportResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Filename      string                 `protobuf:"bytes,1,opt,name=filename,proto3" json:"filename,omitempty"`
+	ContentType   string                 `protobuf:"bytes,2,opt,name=content_type,json=contentType,proto3" json:"content_type,omitempty"`
+	Content       []byte                 `protobuf:"bytes,3,opt,name=content,proto3" json:"content,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ExportResponse) Reset() {
+	*x = ExportResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ExportResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ExportResponse) ProtoMessage() {}
+
+func (x *ExportResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ExportResponse.ProtoReflect.Descriptor instead.
+func (*ExportResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{47}
+}
+
+func (x *ExportResponse) GetFilename() string {
+	if x != nil {
+		return x.Filename
+	}
+	return ""
+}
+
+func (x *ExportResponse) GetContentType() string {
+	if x != nil {
+		return x.ContentType
+	}
+	return ""
+}
+
+func (x *ExportResponse) GetContent() []byte {
+	if x != nil {
+		return x.Content
+	}
+	return nil
+}
+
 var File_fluxroom_v1_messages_proto protoreflect.FileDescriptor
 
 const file_fluxroom_v1_messages_proto_rawDesc = "" +
@@ -2934,7 +3366,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\x80\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xb0\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -2943,7 +3375,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\n" +
 	"created_at\x18\x04 \x01(\v2\x1a.google.protobuf.TimestampR\tcreatedAt\x124\n" +
 	"\ttolerance\x18\x05 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
-	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\"\x95\x01\n" +
+	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
+	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
@@ -2961,13 +3394,15 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x05title\x18\x02 \x01(\tR\x05title\x127\n" +
 	"\tconstants\x18\x03 \x03(\v2\x19.fluxroom.v1.QuantitySpecR\tconstants\x121\n" +
 	"\x06values\x18\x04 \x03(\v2\x19.fluxroom.v1.QuantitySpecR\x06values\x12!\n" +
-	"\fmin_readings\x18\x05 \x01(\x05R\vminReadings\"\x8d\x01\n" +
+	"\fmin_readings\x18\x05 \x01(\x05R\vminReadings\"\xce\x01\n" +
 	"\x04Note\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x12\n" +
 	"\x04kind\x18\x02 \x01(\tR\x04kind\x12\x12\n" +
 	"\x04text\x18\x03 \x01(\tR\x04text\x12\x16\n" +
 	"\x06author\x18\x04 \x01(\tR\x06author\x12*\n" +
-	"\x02at\x18\x05 \x01(\v2\x1a.google.protobuf.TimestampR\x02at\"\x98\x02\n" +
+	"\x02at\x18\x05 \x01(\v2\x1a.google.protobuf.TimestampR\x02at\x12\x16\n" +
+	"\x06points\x18\x06 \x01(\x01R\x06points\x12'\n" +
+	"\x0fprevious_points\x18\a \x01(\x01R\x0epreviousPoints\"\xb2\x02\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -2976,7 +3411,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\n" +
 	"experiment\x18\x05 \x01(\tR\n" +
 	"experiment\x12?\n" +
-	"\tconstants\x18\x06 \x03(\v2!.fluxroom.v1.Bench.ConstantsEntryR\tconstants\x1aS\n" +
+	"\tconstants\x18\x06 \x03(\v2!.fluxroom.v1.Bench.ConstantsEntryR\tconstants\x12\x18\n" +
+	"\amembers\x18\a \x01(\tR\amembers\x1aS\n" +
 	"\x0eConstantsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
 	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xad\x02\n" +
@@ -3077,11 +3513,12 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\fRoomSnapshot\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\x121\n" +
 	"\abenches\x18\x02 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\x124\n" +
-	"\bfindings\x18\x03 \x03(\v2\x18.fluxroom.v1.RoomFindingR\bfindings\"P\n" +
+	"\bfindings\x18\x03 \x03(\v2\x18.fluxroom.v1.RoomFindingR\bfindings\"u\n" +
 	"\x10JoinBenchRequest\x12\x1b\n" +
 	"\tjoin_code\x18\x01 \x01(\tR\bjoinCode\x12\x1f\n" +
 	"\vbench_label\x18\x02 \x01(\tR\n" +
-	"benchLabel\"\\\n" +
+	"benchLabel\x12#\n" +
+	"\rgroup_members\x18\x03 \x01(\tR\fgroupMembers\"\\\n" +
 	"\x11JoinBenchResponse\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12(\n" +
@@ -3165,7 +3602,31 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
 	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"J\n" +
 	"\x16GetBenchDetailResponse\x120\n" +
-	"\x06detail\x18\x01 \x01(\v2\x18.fluxroom.v1.BenchDetailR\x06detail*\x9e\x01\n" +
+	"\x06detail\x18\x01 \x01(\v2\x18.fluxroom.v1.BenchDetailR\x06detail\"Y\n" +
+	"\x17SetGradingPolicyRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x1f\n" +
+	"\vpolicy_json\x18\x02 \x01(\tR\n" +
+	"policyJson\"J\n" +
+	"\x18SetGradingPolicyResponse\x12.\n" +
+	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\"\x98\x01\n" +
+	"\x14OverrideGradeRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x16\n" +
+	"\x06points\x18\x03 \x01(\x01R\x06points\x12\x16\n" +
+	"\x06reason\x18\x04 \x01(\tR\x06reason\x12\x16\n" +
+	"\x06author\x18\x05 \x01(\tR\x06author\">\n" +
+	"\x15OverrideGradeResponse\x12%\n" +
+	"\x04note\x18\x01 \x01(\v2\x11.fluxroom.v1.NoteR\x04note\"a\n" +
+	"\rExportRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x121\n" +
+	"\x06format\x18\x02 \x01(\x0e2\x19.fluxroom.v1.ExportFormatR\x06format\"i\n" +
+	"\x0eExportResponse\x12\x1a\n" +
+	"\bfilename\x18\x01 \x01(\tR\bfilename\x12!\n" +
+	"\fcontent_type\x18\x02 \x01(\tR\vcontentType\x12\x18\n" +
+	"\acontent\x18\x03 \x01(\fR\acontent*\x9e\x01\n" +
 	"\aVerdict\x12\x17\n" +
 	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11VERDICT_NEED_DATA\x10\x01\x12\x16\n" +
@@ -3173,7 +3634,13 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\rVERDICT_CHECK\x10\x03\x12\x0f\n" +
 	"\vVERDICT_OFF\x10\x04\x12\x12\n" +
 	"\x0eVERDICT_UNSAFE\x10\x05\x12\x13\n" +
-	"\x0fVERDICT_STALLED\x10\x06B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
+	"\x0fVERDICT_STALLED\x10\x06*\x9e\x01\n" +
+	"\fExportFormat\x12\x1d\n" +
+	"\x19EXPORT_FORMAT_UNSPECIFIED\x10\x00\x12\x1f\n" +
+	"\x1bEXPORT_FORMAT_GRADEBOOK_CSV\x10\x01\x12\x1e\n" +
+	"\x1aEXPORT_FORMAT_READINGS_CSV\x10\x02\x12\x16\n" +
+	"\x12EXPORT_FORMAT_JSON\x10\x03\x12\x16\n" +
+	"\x12EXPORT_FORMAT_HTML\x10\x04B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
 
 var (
 	file_fluxroom_v1_messages_proto_rawDescOnce sync.Once
@@ -3187,115 +3654,125 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 	return file_fluxroom_v1_messages_proto_rawDescData
 }
 
-var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 1)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 45)
+var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 51)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
-	(*Quantity)(nil),                 // 1: fluxroom.v1.Quantity
-	(*Session)(nil),                  // 2: fluxroom.v1.Session
-	(*Tolerance)(nil),                // 3: fluxroom.v1.Tolerance
-	(*QuantitySpec)(nil),             // 4: fluxroom.v1.QuantitySpec
-	(*ExperimentSpec)(nil),           // 5: fluxroom.v1.ExperimentSpec
-	(*Note)(nil),                     // 6: fluxroom.v1.Note
-	(*Bench)(nil),                    // 7: fluxroom.v1.Bench
-	(*Reading)(nil),                  // 8: fluxroom.v1.Reading
-	(*Diagnosis)(nil),                // 9: fluxroom.v1.Diagnosis
-	(*BudgetItem)(nil),               // 10: fluxroom.v1.BudgetItem
-	(*RoomFinding)(nil),              // 11: fluxroom.v1.RoomFinding
-	(*RoomFindings)(nil),             // 12: fluxroom.v1.RoomFindings
-	(*Fit)(nil),                      // 13: fluxroom.v1.Fit
-	(*BenchState)(nil),               // 14: fluxroom.v1.BenchState
-	(*BenchDetail)(nil),              // 15: fluxroom.v1.BenchDetail
-	(*Plot)(nil),                     // 16: fluxroom.v1.Plot
-	(*PlotPoint)(nil),                // 17: fluxroom.v1.PlotPoint
-	(*RoomSnapshot)(nil),             // 18: fluxroom.v1.RoomSnapshot
-	(*JoinBenchRequest)(nil),         // 19: fluxroom.v1.JoinBenchRequest
-	(*JoinBenchResponse)(nil),        // 20: fluxroom.v1.JoinBenchResponse
-	(*SubmitReadingRequest)(nil),     // 21: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),    // 22: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),     // 23: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),    // 24: fluxroom.v1.GetBenchStateResponse
-	(*ListExperimentsRequest)(nil),   // 25: fluxroom.v1.ListExperimentsRequest
-	(*ListExperimentsResponse)(nil),  // 26: fluxroom.v1.ListExperimentsResponse
-	(*UpdateSessionRequest)(nil),     // 27: fluxroom.v1.UpdateSessionRequest
-	(*UpdateSessionResponse)(nil),    // 28: fluxroom.v1.UpdateSessionResponse
-	(*AddNoteRequest)(nil),           // 29: fluxroom.v1.AddNoteRequest
-	(*AddNoteResponse)(nil),          // 30: fluxroom.v1.AddNoteResponse
-	(*AcknowledgeAlertRequest)(nil),  // 31: fluxroom.v1.AcknowledgeAlertRequest
-	(*AcknowledgeAlertResponse)(nil), // 32: fluxroom.v1.AcknowledgeAlertResponse
-	(*CreateSessionRequest)(nil),     // 33: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),    // 34: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),      // 35: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),     // 36: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),        // 37: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),       // 38: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),         // 39: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),        // 40: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),    // 41: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil),   // 42: fluxroom.v1.GetBenchDetailResponse
-	nil,                              // 43: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 44: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 45: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 46: google.protobuf.Timestamp
+	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
+	(*Quantity)(nil),                 // 2: fluxroom.v1.Quantity
+	(*Session)(nil),                  // 3: fluxroom.v1.Session
+	(*Tolerance)(nil),                // 4: fluxroom.v1.Tolerance
+	(*QuantitySpec)(nil),             // 5: fluxroom.v1.QuantitySpec
+	(*ExperimentSpec)(nil),           // 6: fluxroom.v1.ExperimentSpec
+	(*Note)(nil),                     // 7: fluxroom.v1.Note
+	(*Bench)(nil),                    // 8: fluxroom.v1.Bench
+	(*Reading)(nil),                  // 9: fluxroom.v1.Reading
+	(*Diagnosis)(nil),                // 10: fluxroom.v1.Diagnosis
+	(*BudgetItem)(nil),               // 11: fluxroom.v1.BudgetItem
+	(*RoomFinding)(nil),              // 12: fluxroom.v1.RoomFinding
+	(*RoomFindings)(nil),             // 13: fluxroom.v1.RoomFindings
+	(*Fit)(nil),                      // 14: fluxroom.v1.Fit
+	(*BenchState)(nil),               // 15: fluxroom.v1.BenchState
+	(*BenchDetail)(nil),              // 16: fluxroom.v1.BenchDetail
+	(*Plot)(nil),                     // 17: fluxroom.v1.Plot
+	(*PlotPoint)(nil),                // 18: fluxroom.v1.PlotPoint
+	(*RoomSnapshot)(nil),             // 19: fluxroom.v1.RoomSnapshot
+	(*JoinBenchRequest)(nil),         // 20: fluxroom.v1.JoinBenchRequest
+	(*JoinBenchResponse)(nil),        // 21: fluxroom.v1.JoinBenchResponse
+	(*SubmitReadingRequest)(nil),     // 22: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),    // 23: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),     // 24: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),    // 25: fluxroom.v1.GetBenchStateResponse
+	(*ListExperimentsRequest)(nil),   // 26: fluxroom.v1.ListExperimentsRequest
+	(*ListExperimentsResponse)(nil),  // 27: fluxroom.v1.ListExperimentsResponse
+	(*UpdateSessionRequest)(nil),     // 28: fluxroom.v1.UpdateSessionRequest
+	(*UpdateSessionResponse)(nil),    // 29: fluxroom.v1.UpdateSessionResponse
+	(*AddNoteRequest)(nil),           // 30: fluxroom.v1.AddNoteRequest
+	(*AddNoteResponse)(nil),          // 31: fluxroom.v1.AddNoteResponse
+	(*AcknowledgeAlertRequest)(nil),  // 32: fluxroom.v1.AcknowledgeAlertRequest
+	(*AcknowledgeAlertResponse)(nil), // 33: fluxroom.v1.AcknowledgeAlertResponse
+	(*CreateSessionRequest)(nil),     // 34: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),    // 35: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),      // 36: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),     // 37: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),        // 38: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),       // 39: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),         // 40: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),        // 41: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),    // 42: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 43: fluxroom.v1.GetBenchDetailResponse
+	(*SetGradingPolicyRequest)(nil),  // 44: fluxroom.v1.SetGradingPolicyRequest
+	(*SetGradingPolicyResponse)(nil), // 45: fluxroom.v1.SetGradingPolicyResponse
+	(*OverrideGradeRequest)(nil),     // 46: fluxroom.v1.OverrideGradeRequest
+	(*OverrideGradeResponse)(nil),    // 47: fluxroom.v1.OverrideGradeResponse
+	(*ExportRequest)(nil),            // 48: fluxroom.v1.ExportRequest
+	(*ExportResponse)(nil),           // 49: fluxroom.v1.ExportResponse
+	nil,                              // 50: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 51: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 52: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 53: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	46, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
-	3,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
-	4,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
-	4,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	46, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	43, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	44, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	46, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
-	11, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
-	7,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
+	53, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	4,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
+	5,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
+	5,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
+	53, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	50, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	51, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	53, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	12, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
+	8,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
-	9,  // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	46, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
-	1,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
-	1,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
-	10, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
-	14, // 16: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
-	8,  // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
-	13, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
-	6,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
-	16, // 20: fluxroom.v1.BenchDetail.plot:type_name -> fluxroom.v1.Plot
-	17, // 21: fluxroom.v1.Plot.points:type_name -> fluxroom.v1.PlotPoint
-	17, // 22: fluxroom.v1.Plot.theory:type_name -> fluxroom.v1.PlotPoint
-	17, // 23: fluxroom.v1.Plot.fit:type_name -> fluxroom.v1.PlotPoint
-	17, // 24: fluxroom.v1.Plot.band_low:type_name -> fluxroom.v1.PlotPoint
-	17, // 25: fluxroom.v1.Plot.band_high:type_name -> fluxroom.v1.PlotPoint
-	2,  // 26: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
-	14, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
-	11, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
-	7,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	45, // 30: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	8,  // 31: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	14, // 32: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	14, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	8,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	5,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	3,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	2,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	6,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	6,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	3,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	2,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	2,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	7,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	7,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	18, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	14, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	12, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	15, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	1,  // 49: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 50: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	1,  // 51: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	52, // [52:52] is the sub-list for method output_type
-	52, // [52:52] is the sub-list for method input_type
-	52, // [52:52] is the sub-list for extension type_name
-	52, // [52:52] is the sub-list for extension extendee
-	0,  // [0:52] is the sub-list for field type_name
+	10, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
+	53, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	2,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
+	2,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
+	11, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
+	15, // 16: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
+	9,  // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
+	14, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
+	7,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
+	17, // 20: fluxroom.v1.BenchDetail.plot:type_name -> fluxroom.v1.Plot
+	18, // 21: fluxroom.v1.Plot.points:type_name -> fluxroom.v1.PlotPoint
+	18, // 22: fluxroom.v1.Plot.theory:type_name -> fluxroom.v1.PlotPoint
+	18, // 23: fluxroom.v1.Plot.fit:type_name -> fluxroom.v1.PlotPoint
+	18, // 24: fluxroom.v1.Plot.band_low:type_name -> fluxroom.v1.PlotPoint
+	18, // 25: fluxroom.v1.Plot.band_high:type_name -> fluxroom.v1.PlotPoint
+	3,  // 26: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
+	15, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
+	12, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
+	8,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
+	52, // 30: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	9,  // 31: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	15, // 32: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
+	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	6,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	4,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	7,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	4,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	3,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	8,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	8,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	19, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	15, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	13, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	16, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	3,  // 49: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 50: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	1,  // 51: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
+	2,  // 52: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 53: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	55, // [55:55] is the sub-list for method output_type
+	55, // [55:55] is the sub-list for method input_type
+	55, // [55:55] is the sub-list for extension type_name
+	55, // [55:55] is the sub-list for extension extendee
+	0,  // [0:55] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -3313,8 +3790,8 @@ func file_fluxroom_v1_messages_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
-			NumEnums:      1,
-			NumMessages:   45,
+			NumEnums:      2,
+			NumMessages:   51,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

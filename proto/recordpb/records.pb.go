@@ -94,6 +94,7 @@ type Session struct {
 	CreatedUnixNano     int64                  `protobuf:"varint,4,opt,name=created_unix_nano,json=createdUnixNano,proto3" json:"created_unix_nano,omitempty"`
 	Tolerance           *Tolerance             `protobuf:"bytes,5,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	StationsSeeVerdicts bool                   `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
+	GradingPolicyJson   string                 `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
 	unknownFields       protoimpl.UnknownFields
 	sizeCache           protoimpl.SizeCache
 }
@@ -170,6 +171,13 @@ func (x *Session) GetStationsSeeVerdicts() bool {
 	return false
 }
 
+func (x *Session) GetGradingPolicyJson() string {
+	if x != nil {
+		return x.GradingPolicyJson
+	}
+	return ""
+}
+
 type Tolerance struct {
 	state             protoimpl.MessageState `protogen:"open.v1"`
 	ZConsistent       float64                `protobuf:"fixed64,1,opt,name=z_consistent,json=zConsistent,proto3" json:"z_consistent,omitempty"`
@@ -241,14 +249,16 @@ func (x *Tolerance) GetAcceptablePercent() float64 {
 // Event is one entry of a session's audit log: a note or an acknowledged
 // alert.
 type Event struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	BenchId       uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	Kind          string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
-	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
-	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
-	AtUnixNano    int64                  `protobuf:"varint,5,opt,name=at_unix_nano,json=atUnixNano,proto3" json:"at_unix_nano,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	state          protoimpl.MessageState `protogen:"open.v1"`
+	BenchId        uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Kind           string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
+	Text           string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	Author         string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	AtUnixNano     int64                  `protobuf:"varint,5,opt,name=at_unix_nano,json=atUnixNano,proto3" json:"at_unix_nano,omitempty"`
+	Points         float64                `protobuf:"fixed64,6,opt,name=points,proto3" json:"points,omitempty"`
+	PreviousPoints float64                `protobuf:"fixed64,7,opt,name=previous_points,json=previousPoints,proto3" json:"previous_points,omitempty"`
+	unknownFields  protoimpl.UnknownFields
+	sizeCache      protoimpl.SizeCache
 }
 
 func (x *Event) Reset() {
@@ -316,6 +326,20 @@ func (x *Event) GetAtUnixNano() int64 {
 	return 0
 }
 
+func (x *Event) GetPoints() float64 {
+	if x != nil {
+		return x.Points
+	}
+	return 0
+}
+
+func (x *Event) GetPreviousPoints() float64 {
+	if x != nil {
+		return x.PreviousPoints
+	}
+	return 0
+}
+
 type Bench struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
 	BenchId       uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
@@ -324,6 +348,7 @@ type Bench struct {
 	Column        int32                  `protobuf:"varint,4,opt,name=column,proto3" json:"column,omitempty"`
 	Experiment    string                 `protobuf:"bytes,5,opt,name=experiment,proto3" json:"experiment,omitempty"`
 	Constants     map[string]*Quantity   `protobuf:"bytes,6,rep,name=constants,proto3" json:"constants,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	Members       string                 `protobuf:"bytes,7,opt,name=members,proto3" json:"members,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -398,6 +423,13 @@ func (x *Bench) GetConstants() map[string]*Quantity {
 		return x.Constants
 	}
 	return nil
+}
+
+func (x *Bench) GetMembers() string {
+	if x != nil {
+		return x.Members
+	}
+	return ""
 }
 
 type Reading struct {
@@ -484,7 +516,7 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xf8\x01\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xa8\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -492,19 +524,22 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\tjoin_code\x18\x03 \x01(\tR\bjoinCode\x12*\n" +
 	"\x11created_unix_nano\x18\x04 \x01(\x03R\x0fcreatedUnixNano\x12;\n" +
 	"\ttolerance\x18\x05 \x01(\v2\x1d.fluxroom.record.v1.ToleranceR\ttolerance\x122\n" +
-	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\"\x95\x01\n" +
+	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
+	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
 	"\fgood_percent\x18\x03 \x01(\x01R\vgoodPercent\x12-\n" +
-	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\x84\x01\n" +
+	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\xc5\x01\n" +
 	"\x05Event\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x12\n" +
 	"\x04kind\x18\x02 \x01(\tR\x04kind\x12\x12\n" +
 	"\x04text\x18\x03 \x01(\tR\x04text\x12\x16\n" +
 	"\x06author\x18\x04 \x01(\tR\x06author\x12 \n" +
 	"\fat_unix_nano\x18\x05 \x01(\x03R\n" +
-	"atUnixNano\"\xa6\x02\n" +
+	"atUnixNano\x12\x16\n" +
+	"\x06points\x18\x06 \x01(\x01R\x06points\x12'\n" +
+	"\x0fprevious_points\x18\a \x01(\x01R\x0epreviousPoints\"\xc0\x02\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -513,7 +548,8 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\n" +
 	"experiment\x18\x05 \x01(\tR\n" +
 	"experiment\x12F\n" +
-	"\tconstants\x18\x06 \x03(\v2(.fluxroom.record.v1.Bench.ConstantsEntryR\tconstants\x1aZ\n" +
+	"\tconstants\x18\x06 \x03(\v2(.fluxroom.record.v1.Bench.ConstantsEntryR\tconstants\x12\x18\n" +
+	"\amembers\x18\a \x01(\tR\amembers\x1aZ\n" +
 	"\x0eConstantsEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
 	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\xac\x02\n" +

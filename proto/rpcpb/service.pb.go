@@ -35,7 +35,7 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\tJoinBench\x12\x1d.fluxroom.v1.JoinBenchRequest\x1a\x1e.fluxroom.v1.JoinBenchResponse\x12V\n" +
 	"\rSubmitReading\x12!.fluxroom.v1.SubmitReadingRequest\x1a\".fluxroom.v1.SubmitReadingResponse\x12V\n" +
 	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse\x12\\\n" +
-	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xb7\x05\n" +
+	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xb3\a\n" +
 	"\x11InstructorService\x12V\n" +
 	"\rCreateSession\x12!.fluxroom.v1.CreateSessionRequest\x1a\".fluxroom.v1.CreateSessionResponse\x12S\n" +
 	"\fListSessions\x12 .fluxroom.v1.ListSessionsRequest\x1a!.fluxroom.v1.ListSessionsResponse\x12M\n" +
@@ -45,7 +45,10 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\x0eGetBenchDetail\x12\".fluxroom.v1.GetBenchDetailRequest\x1a#.fluxroom.v1.GetBenchDetailResponse\x12V\n" +
 	"\rUpdateSession\x12!.fluxroom.v1.UpdateSessionRequest\x1a\".fluxroom.v1.UpdateSessionResponse\x12D\n" +
 	"\aAddNote\x12\x1b.fluxroom.v1.AddNoteRequest\x1a\x1c.fluxroom.v1.AddNoteResponse\x12_\n" +
-	"\x10AcknowledgeAlert\x12$.fluxroom.v1.AcknowledgeAlertRequest\x1a%.fluxroom.v1.AcknowledgeAlertResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
+	"\x10AcknowledgeAlert\x12$.fluxroom.v1.AcknowledgeAlertRequest\x1a%.fluxroom.v1.AcknowledgeAlertResponse\x12_\n" +
+	"\x10SetGradingPolicy\x12$.fluxroom.v1.SetGradingPolicyRequest\x1a%.fluxroom.v1.SetGradingPolicyResponse\x12V\n" +
+	"\rOverrideGrade\x12!.fluxroom.v1.OverrideGradeRequest\x1a\".fluxroom.v1.OverrideGradeResponse\x12A\n" +
+	"\x06Export\x12\x1a.fluxroom.v1.ExportRequest\x1a\x1b.fluxroom.v1.ExportResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
 
 var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.JoinBenchRequest)(nil),         // 0: fluxroom.v1.JoinBenchRequest
@@ -60,18 +63,24 @@ var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.UpdateSessionRequest)(nil),     // 9: fluxroom.v1.UpdateSessionRequest
 	(*fluxroompb.AddNoteRequest)(nil),           // 10: fluxroom.v1.AddNoteRequest
 	(*fluxroompb.AcknowledgeAlertRequest)(nil),  // 11: fluxroom.v1.AcknowledgeAlertRequest
-	(*fluxroompb.JoinBenchResponse)(nil),        // 12: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),    // 13: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),    // 14: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.ListExperimentsResponse)(nil),  // 15: fluxroom.v1.ListExperimentsResponse
-	(*fluxroompb.CreateSessionResponse)(nil),    // 16: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),     // 17: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),       // 18: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),        // 19: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil),   // 20: fluxroom.v1.GetBenchDetailResponse
-	(*fluxroompb.UpdateSessionResponse)(nil),    // 21: fluxroom.v1.UpdateSessionResponse
-	(*fluxroompb.AddNoteResponse)(nil),          // 22: fluxroom.v1.AddNoteResponse
-	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 23: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyRequest)(nil),  // 12: fluxroom.v1.SetGradingPolicyRequest
+	(*fluxroompb.OverrideGradeRequest)(nil),     // 13: fluxroom.v1.OverrideGradeRequest
+	(*fluxroompb.ExportRequest)(nil),            // 14: fluxroom.v1.ExportRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 15: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 16: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 17: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 18: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 19: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 20: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 21: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 22: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 23: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 24: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 25: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 26: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyResponse)(nil), // 27: fluxroom.v1.SetGradingPolicyResponse
+	(*fluxroompb.OverrideGradeResponse)(nil),    // 28: fluxroom.v1.OverrideGradeResponse
+	(*fluxroompb.ExportResponse)(nil),           // 29: fluxroom.v1.ExportResponse
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
@@ -86,20 +95,26 @@ var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	9,  // 9: fluxroom.v1.InstructorService.UpdateSession:input_type -> fluxroom.v1.UpdateSessionRequest
 	10, // 10: fluxroom.v1.InstructorService.AddNote:input_type -> fluxroom.v1.AddNoteRequest
 	11, // 11: fluxroom.v1.InstructorService.AcknowledgeAlert:input_type -> fluxroom.v1.AcknowledgeAlertRequest
-	12, // 12: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	13, // 13: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	14, // 14: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	15, // 15: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
-	16, // 16: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	17, // 17: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	18, // 18: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	19, // 19: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	20, // 20: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	21, // 21: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
-	22, // 22: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
-	23, // 23: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
-	12, // [12:24] is the sub-list for method output_type
-	0,  // [0:12] is the sub-list for method input_type
+	12, // 12: fluxroom.v1.InstructorService.SetGradingPolicy:input_type -> fluxroom.v1.SetGradingPolicyRequest
+	13, // 13: fluxroom.v1.InstructorService.OverrideGrade:input_type -> fluxroom.v1.OverrideGradeRequest
+	14, // 14: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
+	15, // 15: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	16, // 16: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	17, // 17: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	18, // 18: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	19, // 19: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	20, // 20: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	21, // 21: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	22, // 22: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	23, // 23: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	24, // 24: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	25, // 25: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	26, // 26: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	27, // 27: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
+	28, // 28: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
+	29, // 29: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
+	15, // [15:30] is the sub-list for method output_type
+	0,  // [0:15] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name

@@ -265,6 +265,9 @@ const (
 	InstructorService_UpdateSession_FullMethodName    = "/fluxroom.v1.InstructorService/UpdateSession"
 	InstructorService_AddNote_FullMethodName          = "/fluxroom.v1.InstructorService/AddNote"
 	InstructorService_AcknowledgeAlert_FullMethodName = "/fluxroom.v1.InstructorService/AcknowledgeAlert"
+	InstructorService_SetGradingPolicy_FullMethodName = "/fluxroom.v1.InstructorService/SetGradingPolicy"
+	InstructorService_OverrideGrade_FullMethodName    = "/fluxroom.v1.InstructorService/OverrideGrade"
+	InstructorService_Export_FullMethodName           = "/fluxroom.v1.InstructorService/Export"
 )
 
 // InstructorServiceClient is the client API for InstructorService service.
@@ -285,6 +288,12 @@ type InstructorServiceClient interface {
 	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
 	// alert; a later unsafe reading raises it again.
 	AcknowledgeAlert(ctx context.Context, in *fluxroompb.AcknowledgeAlertRequest, opts ...grpc.CallOption) (*fluxroompb.AcknowledgeAlertResponse, error)
+	// SetGradingPolicy checks and stores the session's grading policy.
+	SetGradingPolicy(ctx context.Context, in *fluxroompb.SetGradingPolicyRequest, opts ...grpc.CallOption) (*fluxroompb.SetGradingPolicyResponse, error)
+	// OverrideGrade sets a group's points with a reason, kept in the audit log.
+	OverrideGrade(ctx context.Context, in *fluxroompb.OverrideGradeRequest, opts ...grpc.CallOption) (*fluxroompb.OverrideGradeResponse, error)
+	// Export returns the session's gradebook, readings, JSON or report.
+	Export(ctx context.Context, in *fluxroompb.ExportRequest, opts ...grpc.CallOption) (*fluxroompb.ExportResponse, error)
 }
 
 type instructorServiceClient struct {
@@ -384,6 +393,36 @@ func (c *instructorServiceClient) AcknowledgeAlert(ctx context.Context, in *flux
 	return out, nil
 }
 
+func (c *instructorServiceClient) SetGradingPolicy(ctx context.Context, in *fluxroompb.SetGradingPolicyRequest, opts ...grpc.CallOption) (*fluxroompb.SetGradingPolicyResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.SetGradingPolicyResponse)
+	err := c.cc.Invoke(ctx, InstructorService_SetGradingPolicy_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *instructorServiceClient) OverrideGrade(ctx context.Context, in *fluxroompb.OverrideGradeRequest, opts ...grpc.CallOption) (*fluxroompb.OverrideGradeResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.OverrideGradeResponse)
+	err := c.cc.Invoke(ctx, InstructorService_OverrideGrade_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *instructorServiceClient) Export(ctx context.Context, in *fluxroompb.ExportRequest, opts ...grpc.CallOption) (*fluxroompb.ExportResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.ExportResponse)
+	err := c.cc.Invoke(ctx, InstructorService_Export_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // InstructorServiceServer is the server API for InstructorService service.
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
@@ -402,6 +441,12 @@ type InstructorServiceServer interface {
 	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
 	// alert; a later unsafe reading raises it again.
 	AcknowledgeAlert(context.Context, *fluxroompb.AcknowledgeAlertRequest) (*fluxroompb.AcknowledgeAlertResponse, error)
+	// SetGradingPolicy checks and stores the session's grading policy.
+	SetGradingPolicy(context.Context, *fluxroompb.SetGradingPolicyRequest) (*fluxroompb.SetGradingPolicyResponse, error)
+	// OverrideGrade sets a group's points with a reason, kept in the audit log.
+	OverrideGrade(context.Context, *fluxroompb.OverrideGradeRequest) (*fluxroompb.OverrideGradeResponse, error)
+	// Export returns the session's gradebook, readings, JSON or report.
+	Export(context.Context, *fluxroompb.ExportRequest) (*fluxroompb.ExportResponse, error)
 	mustEmbedUnimplementedInstructorServiceServer()
 }
 
@@ -435,6 +480,15 @@ func (UnimplementedInstructorServiceServer) AddNote(context.Context, *fluxroompb
 }
 func (UnimplementedInstructorServiceServer) AcknowledgeAlert(context.Context, *fluxroompb.AcknowledgeAlertRequest) (*fluxroompb.AcknowledgeAlertResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method AcknowledgeAlert not implemented")
+}
+func (UnimplementedInstructorServiceServer) SetGradingPolicy(context.Context, *fluxroompb.SetGradingPolicyRequest) (*fluxroompb.SetGradingPolicyResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method SetGradingPolicy not implemented")
+}
+func (UnimplementedInstructorServiceServer) OverrideGrade(context.Context, *fluxroompb.OverrideGradeRequest) (*fluxroompb.OverrideGradeResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method OverrideGrade not implemented")
+}
+func (UnimplementedInstructorServiceServer) Export(context.Context, *fluxroompb.ExportRequest) (*fluxroompb.ExportResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method Export not implemented")
 }
 func (UnimplementedInstructorServiceServer) mustEmbedUnimplementedInstructorServiceServer() {}
 func (UnimplementedInstructorServiceServer) testEmbeddedByValue()                           {}
@@ -594,6 +648,60 @@ func _InstructorService_AcknowledgeAlert_Handler(srv interface{}, ctx context.Co
 	return interceptor(ctx, in, info, handler)
 }
 
+func _InstructorService_SetGradingPolicy_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.SetGradingPolicyRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).SetGradingPolicy(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_SetGradingPolicy_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).SetGradingPolicy(ctx, req.(*fluxroompb.SetGradingPolicyRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _InstructorService_OverrideGrade_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.OverrideGradeRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).OverrideGrade(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_OverrideGrade_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).OverrideGrade(ctx, req.(*fluxroompb.OverrideGradeRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _InstructorService_Export_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.ExportRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).Export(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_Export_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).Export(ctx, req.(*fluxroompb.ExportRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // InstructorService_ServiceDesc is the grpc.ServiceDesc for InstructorService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -628,6 +736,18 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "AcknowledgeAlert",
 			Handler:    _InstructorService_AcknowledgeAlert_Handler,
+		},
+		{
+			MethodName: "SetGradingPolicy",
+			Handler:    _InstructorService_SetGradingPolicy_Handler,
+		},
+		{
+			MethodName: "OverrideGrade",
+			Handler:    _InstructorService_OverrideGrade_Handler,
+		},
+		{
+			MethodName: "Export",
+			Handler:    _InstructorService_Export_Handler,
 		},
 	},
 	Streams: []grpc.StreamDesc{

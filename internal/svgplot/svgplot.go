@@ -1,4 +1,7 @@
-package wasmclient
+// Package svgplot draws fluxroom's plots as SVG text: a bench's readings
+// with error bars, fit, theory and tolerance band, and a room's results as
+// dots against theory. The dashboard and the printable report share it.
+package svgplot
 
 import (
 	"fmt"
@@ -6,7 +9,7 @@ import (
 	"math"
 	"strings"
 
-	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/domain"
 )
 
 // Plot geometry, in SVG user units.
@@ -22,10 +25,10 @@ const (
 	minPlotSpan            = 1e-30
 )
 
-// plotSVG draws a bench's plot: the tolerance band, the theory line, the
+// Bench draws a bench's plot: the tolerance band, the theory line, the
 // fitted line and every reading with its error bar. It is a pure function
 // of the plot so that tests can count what it draws.
-func plotSVG(p *pb.Plot) string {
+func Bench(p *domain.Plot) string {
 	if p == nil || len(p.Points) == 0 {
 		return `<p class="plot-empty">No readings to plot yet.</p>`
 	}
@@ -35,10 +38,10 @@ func plotSVG(p *pb.Plot) string {
 		ylo, yhi = math.Min(ylo, y), math.Max(yhi, y)
 	}
 	for _, pt := range p.Points {
-		grow(pt.X, pt.Y-pt.YUncertainty)
-		grow(pt.X, pt.Y+pt.YUncertainty)
+		grow(pt.X, pt.Y-pt.UY)
+		grow(pt.X, pt.Y+pt.UY)
 	}
-	for _, l := range [][]*pb.PlotPoint{p.Theory, p.Fit, p.BandLow, p.BandHigh} {
+	for _, l := range [][]domain.XY{p.Theory, p.Fit, p.BandLow, p.BandHigh} {
 		for _, v := range l {
 			grow(v.X, v.Y)
 		}
@@ -80,7 +83,7 @@ func plotSVG(p *pb.Plot) string {
 		}
 		fmt.Fprintf(&b, `<polygon class="band" points="%s"/>`, strings.Join(pts, " "))
 	}
-	polyline := func(class string, l []*pb.PlotPoint) {
+	polyline := func(class string, l []domain.XY) {
 		if len(l) < 2 {
 			return
 		}
@@ -94,9 +97,9 @@ func plotSVG(p *pb.Plot) string {
 	polyline("fit", p.Fit)
 	for _, pt := range p.Points {
 		x := sx(pt.X)
-		fmt.Fprintf(&b, `<line class="eb" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, x, sy(pt.Y-pt.YUncertainty), x, sy(pt.Y+pt.YUncertainty))
+		fmt.Fprintf(&b, `<line class="eb" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, x, sy(pt.Y-pt.UY), x, sy(pt.Y+pt.UY))
 		fmt.Fprintf(&b, `<circle class="pt" data-reading="%s" cx="%.1f" cy="%.1f" r="4"><title>%s: %s, %s</title></circle>`,
-			html.EscapeString(pt.ReadingId), x, sy(pt.Y), html.EscapeString(pt.ReadingId), tick(pt.X), tick(pt.Y))
+			html.EscapeString(pt.ReadingID), x, sy(pt.Y), html.EscapeString(pt.ReadingID), tick(pt.X), tick(pt.Y))
 	}
 	b.WriteString(`</svg>`)
 	return b.String()
@@ -110,17 +113,17 @@ func tick(v float64) string {
 	return strings.TrimSuffix(fmt.Sprintf("%.3g", v), ".0")
 }
 
-// dot is one group's result on the room's dot plot.
-type dot struct {
-	label   string
-	ratio   float64
-	verdict string
+// Dot is one group's result on the room's dot plot.
+type Dot struct {
+	Label   string
+	Ratio   float64
+	Verdict string // css class of the verdict
 }
 
-// dotPlotSVG draws every group's measured/predicted ratio on a line from 0
+// Dots draws every group's measured/predicted ratio on a line from 0
 // to 2 with the theory value (1) marked; ratios outside are pinned to the
 // ends with an arrow.
-func dotPlotSVG(dots []dot) string {
+func Dots(dots []Dot) string {
 	sx := func(r float64) float64 {
 		r = math.Max(dotLo, math.Min(dotHi, r))
 		return dotPad + (r-dotLo)/(dotHi-dotLo)*dotInnerW
@@ -133,7 +136,7 @@ func dotPlotSVG(dots []dot) string {
 	for i, d := range dots {
 		y := 16.0 + float64(i%3)*6
 		fmt.Fprintf(&b, `<circle class="dot v-%s" cx="%.1f" cy="%.1f" r="4"><title>%s: ×%.3g</title></circle>`,
-			d.verdict, sx(d.ratio), y, html.EscapeString(d.label), d.ratio)
+			d.Verdict, sx(d.Ratio), y, html.EscapeString(d.Label), d.Ratio)
 	}
 	b.WriteString(`</svg>`)
 	return b.String()

@@ -1,0 +1,129 @@
+package export
+
+import (
+	"encoding/csv"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+	"time"
+
+	"example.com/fluxroom/domain"
+)
+
+// GradebookHeader is the gradebook CSV's header: plain words, units where
+// a column has one.
+var GradebookHeader = []string{
+	"bench", "group members", "experiment", "result", "result value", "result uncertainty", "unit",
+	"prediction", "prediction uncertainty", "percent difference", "z", "verdict", "readings counted",
+	"completeness points", "accuracy points", "precision points", "data quality points", "deduction points",
+	"computed points", "points", "max points", "diagnosis codes", "override reason", "override by", "override at",
+}
+
+func newCSV(w io.Writer) *csv.Writer {
+	cw := csv.NewWriter(w)
+	cw.UseCRLF = true // RFC 4180
+	return cw
+}
+
+func pts(v float64) string { return strconv.FormatFloat(math.Round(v*100)/100, 'f', -1, 64) }
+
+// WriteGradebookCSV writes one row per group and experiment (RFC 4180,
+// UTF-8). Numbers are rounded to match their uncertainty.
+func WriteGradebookCSV(w io.Writer, s Session) error {
+	cw := newCSV(w)
+	cw.Write(GradebookHeader)
+	for _, r := range s.Rows {
+		a, g := r.Assessment, r.Grade
+		var value, uv, pred, up, pct, z string
+		if a.ResultUnit != "" {
+			value, uv = domain.RoundToUncertainty(a.Measured.Value, a.Measured.Uncertainty)
+			pred, up = domain.RoundToUncertainty(a.Predicted.Value, a.Predicted.Uncertainty)
+			pct, z = fmt.Sprintf("%.1f", a.PercentDiff), fmt.Sprintf("%.1f", a.Z)
+		}
+		var codes []string
+		for _, d := range a.Diagnoses {
+			codes = append(codes, d.Code)
+		}
+		rec := []string{r.Bench.Label, r.Bench.Members, r.Bench.Experiment, a.ResultName, value, uv, a.ResultUnit,
+			pred, up, pct, z, a.Verdict.Label(), strconv.Itoa(a.ReadingCount),
+			pts(g.Completeness), pts(g.Accuracy), pts(g.Precision), pts(g.Quality), pts(g.Deductions),
+			pts(g.Computed), pts(g.Final), pts(g.Max), strings.Join(codes, " "), "", "", ""}
+		if o := g.Override; o != nil {
+			rec[22], rec[23], rec[24] = o.Reason, o.Author, o.At.UTC().Format(time.RFC3339)
+		}
+		if err := cw.Write(rec); err != nil {
+			return err
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// Metadata columns of the readings CSV; `fluxroom analyze` skips them and
+// leaves out rows marked superseded.
+const (
+	ColSequence   = "sequence"
+	ColReadingID  = "reading id"
+	ColReceivedAt = "received at"
+	ColSupersedes = "supersedes"
+	ColSuperseded = "superseded"
+)
+
+// WriteReadingsCSV writes every reading, superseded ones marked, in the
+// readings CSV format: bench, experiment, metadata, then one "name [unit]"
+// column per constant and value as typed.
+func WriteReadingsCSV(w io.Writer, s Session) error {
+	type col struct{ name, unit string }
+	seen := map[col]bool{}
+	for _, b := range s.Benches {
+		for k, q := range b.Constants {
+			seen[col{k, q.Unit}] = true
+		}
+		for _, r := range s.Readings[b.ID] {
+			for k, q := range r.Values {
+				seen[col{k, q.Unit}] = true
+			}
+		}
+	}
+	cols := make([]col, 0, len(seen))
+	for c := range seen {
+		cols = append(cols, c)
+	}
+	sort.Slice(cols, func(i, j int) bool {
+		if cols[i].name != cols[j].name {
+			return cols[i].name < cols[j].name
+		}
+		return cols[i].unit < cols[j].unit
+	})
+	header := []string{"bench", "experiment", ColSequence, ColReadingID, ColReceivedAt, ColSupersedes, ColSuperseded}
+	for _, c := range cols {
+		header = append(header, fmt.Sprintf("%s [%s]", c.name, c.unit))
+	}
+	cw := newCSV(w)
+	cw.Write(header)
+	for _, row := range s.Rows {
+		b := row.Bench
+		gone := domain.Superseded(row.Readings)
+		for _, r := range row.Readings {
+			rec := []string{b.Label, b.Experiment, strconv.FormatUint(r.Sequence, 10), r.ID, r.ReceivedAt.UTC().Format(time.RFC3339Nano),
+				r.Supersedes, map[bool]string{true: "yes", false: "no"}[gone[r.ID]]}
+			for _, c := range cols {
+				cell := ""
+				if q, ok := r.Values[c.name]; ok && q.Unit == c.unit {
+					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)
+				} else if q, ok := b.Constants[c.name]; ok && q.Unit == c.unit {
+					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)
+				}
+				rec = append(rec, cell)
+			}
+			if err := cw.Write(rec); err != nil {
+				return err
+			}
+		}
+	}
+	cw.Flush()
+	return cw.Error()
+}

@@ -1,0 +1,121 @@
+package export
+
+import (
+	"encoding/json"
+	"io"
+	"time"
+
+	"example.com/fluxroom/domain"
+)
+
+// The JSON export's shape (README.md, "Exports"). Fields are only added.
+type jsonExport struct {
+	Session struct {
+		ID        uint64    `json:"id"`
+		Title     string    `json:"title"`
+		CreatedAt time.Time `json:"created_at"`
+	} `json:"session"`
+	Policy string      `json:"policy"`
+	Groups []jsonGroup `json:"groups"`
+}
+
+type jsonValue struct {
+	Value       float64 `json:"value"`
+	Uncertainty float64 `json:"uncertainty"`
+	Unit        string  `json:"unit"`
+}
+
+type jsonGroup struct {
+	Bench       string          `json:"bench"`
+	Members     string          `json:"members"`
+	Experiment  string          `json:"experiment"`
+	ResultName  string          `json:"result_name,omitempty"`
+	Result      *jsonValue      `json:"result"`
+	Prediction  *jsonValue      `json:"prediction"`
+	PercentDiff float64         `json:"percent_difference"`
+	Z           float64         `json:"z"`
+	Verdict     string          `json:"verdict"`
+	Reason      string          `json:"reason"`
+	Diagnoses   []jsonDiagnosis `json:"diagnoses"`
+	Grade       jsonGrade       `json:"grade"`
+	Feedback    []string        `json:"feedback"`
+	Readings    []jsonReading   `json:"readings"`
+	Notes       []jsonNote      `json:"notes"`
+}
+
+type jsonDiagnosis struct {
+	Code         string   `json:"code"`
+	Cause        string   `json:"cause"`
+	Evidence     string   `json:"evidence"`
+	Action       string   `json:"action"`
+	Alternatives []string `json:"alternatives"`
+}
+
+type jsonGrade struct {
+	Completeness float64   `json:"completeness"`
+	Accuracy     float64   `json:"accuracy"`
+	Precision    float64   `json:"precision"`
+	Quality      float64   `json:"data_quality"`
+	Deductions   float64   `json:"deductions"`
+	Computed     float64   `json:"computed"`
+	Points       float64   `json:"points"`
+	Max          float64   `json:"max"`
+	Override     *jsonNote `json:"override,omitempty"`
+}
+
+type jsonReading struct {
+	ID         string                     `json:"id"`
+	Sequence   uint64                     `json:"sequence"`
+	ReceivedAt time.Time                  `json:"received_at"`
+	Supersedes string                     `json:"supersedes,omitempty"`
+	Superseded bool                       `json:"superseded"`
+	Values     map[string]domain.Quantity `json:"values"`
+}
+
+type jsonNote struct {
+	Kind   string    `json:"kind"`
+	Text   string    `json:"text"`
+	Author string    `json:"author"`
+	At     time.Time `json:"at"`
+	Points float64   `json:"points,omitempty"`
+}
+
+// WriteJSON writes the whole graded session as one JSON document.
+func WriteJSON(w io.Writer, s Session) error {
+	var out jsonExport
+	out.Session.ID, out.Session.Title, out.Session.CreatedAt = s.Session.ID, s.Session.Title, s.Session.CreatedAt
+	out.Policy = s.Policy.Name
+	out.Groups = []jsonGroup{}
+	for _, r := range s.Rows {
+		a, g := r.Assessment, r.Grade
+		jg := jsonGroup{Bench: r.Bench.Label, Members: r.Bench.Members, Experiment: r.Bench.Experiment, ResultName: a.ResultName,
+			PercentDiff: a.PercentDiff, Z: a.Z, Verdict: a.Verdict.Label(), Reason: a.Reason,
+			Diagnoses: []jsonDiagnosis{}, Feedback: append([]string{}, g.Feedback...), Readings: []jsonReading{}, Notes: []jsonNote{},
+			Grade: jsonGrade{Completeness: g.Completeness, Accuracy: g.Accuracy, Precision: g.Precision, Quality: g.Quality,
+				Deductions: g.Deductions, Computed: g.Computed, Points: g.Final, Max: g.Max}}
+		if a.ResultUnit != "" {
+			jg.Result = &jsonValue{a.Measured.Value, a.Measured.Uncertainty, a.ResultUnit}
+			jg.Prediction = &jsonValue{a.Predicted.Value, a.Predicted.Uncertainty, a.ResultUnit}
+		}
+		for _, d := range a.Diagnoses {
+			alts := append([]string{}, d.Alternatives...)
+			jg.Diagnoses = append(jg.Diagnoses, jsonDiagnosis{d.Code, d.Cause, d.Evidence, d.Action, alts})
+		}
+		if o := g.Override; o != nil {
+			jg.Grade.Override = &jsonNote{Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At, Points: o.Points}
+		}
+		gone := domain.Superseded(r.Readings)
+		for _, rd := range r.Readings {
+			jg.Readings = append(jg.Readings, jsonReading{rd.ID, rd.Sequence, rd.ReceivedAt, rd.Supersedes, gone[rd.ID], rd.Values})
+		}
+		for _, n := range s.Notes {
+			if n.BenchID == r.Bench.ID {
+				jg.Notes = append(jg.Notes, jsonNote{n.Kind, n.Text, n.Author, n.At, n.Points})
+			}
+		}
+		out.Groups = append(out.Groups, jg)
+	}
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(out)
+}
