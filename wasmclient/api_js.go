@@ -107,3 +107,19 @@ func await(p js.Value) (js.Value, error) {
 	catch.Release()
 	return r.v, r.err
 }
+
+// download hands bytes to the browser as a file.
+func download(name, contentType string, content []byte) {
+	arr := js.Global().Get("Uint8Array").New(len(content))
+	js.CopyBytesToJS(arr, content)
+	parts := js.Global().Get("Array").New(arr)
+	opts := js.Global().Get("Object").New()
+	opts.Set("type", contentType)
+	blob := js.Global().Get("Blob").New(parts, opts)
+	url := js.Global().Get("URL").Call("createObjectURL", blob)
+	a := js.Global().Get("document").Call("createElement", "a")
+	a.Set("href", url)
+	a.Set("download", name)
+	a.Call("click")
+	js.Global().Get("URL").Call("revokeObjectURL", url)
+}

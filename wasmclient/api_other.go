@@ -14,3 +14,5 @@ import (
 func (c *api) call(ctx context.Context, proc string, req proto.Message, onMsg func([]byte) error) error {
 	return errors.New("wasmclient: RPCs run only in the browser")
 }
+
+func download(name, contentType string, content []byte) {}

@@ -3,6 +3,7 @@ package wasmclient
 import (
 	"fmt"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
@@ -86,6 +87,7 @@ func (r *Room) renderDetail() app.UI {
 					return app.Li().Text(fmt.Sprintf("%s %s (%s): %s", when, n.Author, n.Kind, n.Text))
 				})),
 				&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
+				&OverrideForm{SessionID: r.sessionID(), BenchID: r.open},
 			),
 		),
 	)
@@ -204,4 +206,52 @@ func baseURL() string {
 	u := app.Window().URL()
 	u.Path, u.RawQuery, u.Fragment = "", "", ""
 	return u.String()
+}
+
+// OverrideForm sets a group's points with a reason; the change is kept in
+// the audit log with who, when and the points before.
+type OverrideForm struct {
+	app.Compo
+	SessionID, BenchID uint64
+
+	points, reason, status string
+}
+
+// Render draws the form.
+func (f *OverrideForm) Render() app.UI {
+	return app.Form().Class("override-form").OnSubmit(f.submit).Body(
+		app.H3().Text("Override the grade"),
+		app.Input().ID("override-points").Attr("inputmode", "decimal").Size(5).Placeholder("points").Value(f.points).
+			OnInput(func(ctx app.Context, e app.Event) { f.points = ctx.JSSrc().Get("value").String() }),
+		app.Input().ID("override-reason").Placeholder("reason (kept in the audit log)").Value(f.reason).
+			OnInput(func(ctx app.Context, e app.Event) { f.reason = ctx.JSSrc().Get("value").String() }),
+		app.Button().Type("submit").Text("Set points"),
+		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
+	)
+}
+
+func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
+	e.PreventDefault()
+	p, err := strconv.ParseFloat(strings.TrimSpace(f.points), 64)
+	if err != nil {
+		f.status = "points must be a number"
+		return
+	}
+	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason, Author: "instructor"}
+	c := newAPI(baseURL())
+	ctx.Async(func() {
+		res, err := unary[pb.OverrideGradeResponse](ctx, c, ProcOverrideGrade, req)
+		ctx.Dispatch(func(app.Context) {
+			if err != nil {
+				msgs := fieldMessages(err)
+				f.status = strings.TrimSpace(msgs["points"] + " " + msgs["reason"])
+				if f.status == "" {
+					f.status = err.Error()
+				}
+				return
+			}
+			f.status = fmt.Sprintf("set to %g (was %g)", res.Note.Points, res.Note.PreviousPoints)
+			f.points, f.reason = "", ""
+		})
+	})
 }

@@ -255,7 +255,14 @@ func (r *Room) Render() app.UI {
 					ctx.LocalStorage().Set("fluxroom.largeType", r.largeType)
 					setRootFontSize(r.largeType)
 				}),
-				app.A().Href("/setup").Text("Set up"),
+				app.A().Href(fmt.Sprintf("/setup?session=%d", r.sessionID())).Text("Set up"),
+				app.Span().Class("exports").Body(
+					app.Span().Text("Export:"),
+					exportButton(r, "gradebook", pb.ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV),
+					exportButton(r, "readings", pb.ExportFormat_EXPORT_FORMAT_READINGS_CSV),
+					exportButton(r, "JSON", pb.ExportFormat_EXPORT_FORMAT_JSON),
+					exportButton(r, "report", pb.ExportFormat_EXPORT_FORMAT_HTML),
+				),
 				app.A().Href("/station").Text("Station page"),
 			),
 			app.Div().Class("link").ID("link").Attr("data-link", r.link).Text(r.link),
@@ -266,6 +273,22 @@ func (r *Room) Render() app.UI {
 		app.If(r.open != 0, r.renderDetail()),
 		app.Footer().Class("room-foot").Text("Cautions: beam tubes run at hundreds of volts; coils and straight-wire set-ups get hot at high current; strong magnets pinch and affect pacemakers. Follow local codes, your institution's safety rules and the equipment maker's limits."),
 	)
+}
+
+// exportButton downloads one export of the session.
+func exportButton(r *Room, label string, f pb.ExportFormat) app.UI {
+	return app.Button().Class("export").Attr("data-format", f.String()).Text(label).
+		OnClick(func(ctx app.Context, e app.Event) {
+			sid, c := r.sessionID(), r.client
+			ctx.Async(func() {
+				res, err := unary[pb.ExportResponse](ctx, c, ProcExport, &pb.ExportRequest{SessionId: sid, Format: f})
+				if err != nil {
+					ctx.Dispatch(func(app.Context) { r.link = "export failed: " + err.Error() })
+					return
+				}
+				download(res.Filename, res.ContentType, res.Content)
+			})
+		})
 }
 
 // attentionRank orders tiles for the "needs attention first" view.

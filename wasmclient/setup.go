@@ -3,6 +3,7 @@ package wasmclient
 import (
 	"context"
 	"fmt"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -27,6 +28,7 @@ type Setup struct {
 	title, zc, zo, good, acceptable string
 	seeVerdicts                     bool
 
+	policy     string
 	rows, cols int
 	cells      map[[2]int]*setupCell
 	selected   [2]int
@@ -98,6 +100,7 @@ func (s *Setup) load(snap *pb.RoomSnapshot) {
 	s.zc, s.zo = fmt.Sprint(t.GetZConsistent()), fmt.Sprint(t.GetZOff())
 	s.good, s.acceptable = fmt.Sprint(t.GetGoodPercent()), fmt.Sprint(t.GetAcceptablePercent())
 	s.seeVerdicts = snap.Session.StationsSeeVerdicts
+	s.policy = snap.Session.GradingPolicyJson
 	for _, st := range snap.Benches {
 		b := st.Bench
 		cell := &setupCell{benchID: b.BenchId, label: b.Label, experiment: b.Experiment, constants: map[string]string{}}
@@ -267,6 +270,16 @@ func (s *Setup) Render() app.UI {
 			app.Button().Type("submit").ID("save-session").Text("Save session"),
 		),
 		app.If(s.session != nil, s.renderGrid()),
+		app.If(s.session != nil, app.Form().ID("policy-form").OnSubmit(s.savePolicy).Body(
+			app.H2().Text("Grading policy"),
+			app.P().Class("hint").Text("JSON, as documented in the README (Grading policy). Empty uses the default: 10 points per experiment."),
+			app.Textarea().ID("policy").Rows(8).Cols(70).Text(s.policy).
+				OnInput(func(ctx app.Context, e app.Event) { s.policy = ctx.JSSrc().Get("value").String() }),
+			app.Range(policyErrors(s.errs)).Slice(func(i int) app.UI {
+				return app.P().Class("field-error").Text(policyErrors(s.errs)[i])
+			}),
+			app.Button().Type("submit").ID("save-policy").Text("Save policy"),
+		)),
 		app.P().Class("status").ID("setup-status").Text(s.status),
 		app.H2().Text("Sessions"),
 		app.Ul().Body(app.Range(s.sessions).Slice(func(i int) app.UI {
@@ -274,6 +287,34 @@ func (s *Setup) Render() app.UI {
 			return app.Li().Body(app.A().Href(fmt.Sprintf("/setup?session=%d", ss.SessionId)).Text(ss.Title + " (" + ss.JoinCode + ")"))
 		})),
 	)
+}
+
+func (s *Setup) savePolicy(ctx app.Context, e app.Event) {
+	e.PreventDefault()
+	c, sid, text := s.client, s.session.SessionId, s.policy
+	ctx.Async(func() {
+		_, err := unary[pb.SetGradingPolicyResponse](ctx, c, ProcSetGradingPolicy, &pb.SetGradingPolicyRequest{SessionId: sid, PolicyJson: text})
+		ctx.Dispatch(func(app.Context) {
+			s.errs = fieldMessages(err)
+			if err != nil {
+				s.status = "policy not saved"
+				return
+			}
+			s.status = "policy saved"
+		})
+	})
+}
+
+// policyErrors lists the policy's field errors.
+func policyErrors(errs map[string]string) []string {
+	var out []string
+	for f, m := range errs {
+		if strings.HasPrefix(f, "policy_json.") {
+			out = append(out, strings.TrimPrefix(f, "policy_json.")+": "+m)
+		}
+	}
+	sort.Strings(out)
+	return out
 }
 
 func (s *Setup) sessionID() uint64 {

@@ -148,6 +148,21 @@ func TestBenchDetailAndUnsafeBanner(t *testing.T) {
 		chromedp.WaitNotPresent(chromedp.CSS(`#unsafe-banner`)),
 		chromedp.WaitVisible(chromedp.CSS(`section[data-bench="A3"][data-verdict="unsafe"]`)))
 
+	// The export buttons hand the browser a file.
+	r.do(t, "export the gradebook",
+		chromedp.Evaluate[chromedp.Void](`window.__downloads = []; HTMLAnchorElement.prototype.click = function() { window.__downloads.push(this.download) }`),
+		chromedp.Click(chromedp.CSS(`button.export[data-format="EXPORT_FORMAT_GRADEBOOK_CSV"]`)),
+		chromedp.Click(chromedp.CSS(`button.export[data-format="EXPORT_FORMAT_HTML"]`)),
+	)
+	var files string
+	for i := 0; i < 50 && !strings.Contains(files, "report.html"); i++ {
+		time.Sleep(100 * time.Millisecond)
+		files, _ = chromedp.Run(r.tab, chromedp.Evaluate[string](`window.__downloads.join(",")`))
+	}
+	if !strings.Contains(files, "-gradebook.csv") || !strings.Contains(files, "-report.html") {
+		t.Errorf("downloads = %q, want the gradebook and the report", files)
+	}
+
 	// Attention order puts the unsafe bench first.
 	r.do(t, "attention order", chromedp.Click(chromedp.CSS(`#toggle-order`)), chromedp.WaitVisible(chromedp.CSS(`#room-grid.by-attention`)))
 	first, _ := chromedp.Run(r.tab, chromedp.Evaluate[string](`document.querySelector('#room-grid section.tile').dataset.bench`))
