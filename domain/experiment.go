@@ -247,13 +247,22 @@ func (e *Experiment) DefaultConstants() map[string]Quantity {
 	return m
 }
 
-func (s QuantitySpec) check(field string, q Quantity, vs *violations) (Measurement, bool) {
-	m, err := ToSI(field, q, s.Dim)
-	if err != nil {
+// check converts q and checks it against the spec's limits. fieldOf names
+// the field; it is only called when there is something to report, which
+// keeps the common case free of formatting.
+func (s QuantitySpec) check(fieldOf func() string, q Quantity, vs *violations) (Measurement, bool) {
+	m, ok := toSIFast(q, s.Dim)
+	if !ok {
+		_, err := ToSI(fieldOf(), q, s.Dim)
 		*vs = append(*vs, err.(*ValidationError).Violations...)
 		return Measurement{}, false
 	}
-	ok := true
+	field := ""
+	if !math.IsNaN(s.Min) && (m.Value < s.Min || (s.MinExclusive && m.Value == s.Min)) ||
+		!math.IsNaN(s.Max) && m.Value > s.Max || s.Integer && m.Value != math.Trunc(m.Value) {
+		field = fieldOf()
+	}
+	ok = true
 	if !math.IsNaN(s.Min) && (m.Value < s.Min || (s.MinExclusive && m.Value == s.Min)) {
 		cmp := "≥"
 		if s.MinExclusive {
@@ -351,7 +360,7 @@ func ValidateBench(prefix string, b Bench) (Bench, error) {
 			vs.add(field, "experiment %s has no constant %q", e.ID, name)
 			continue
 		}
-		s.check(field, b.Constants[name], &vs)
+		s.check(func() string { return field }, b.Constants[name], &vs)
 		out.Constants[name] = b.Constants[name]
 	}
 	return out, vs.err()
@@ -380,25 +389,29 @@ func ValidateReading(prefix string, b Bench, values map[string]Quantity) error {
 
 func (e *Experiment) convertReading(prefix string, values map[string]Quantity) (map[string]Measurement, error) {
 	var vs violations
-	known := map[string]bool{}
 	out := make(map[string]Measurement, len(e.Values))
 	for _, s := range e.Values {
-		known[s.Name] = true
-		field := fmt.Sprintf("%s[%q]", prefix, s.Name)
+		fieldOf := func() string { return fmt.Sprintf("%s[%q]", prefix, s.Name) }
 		q, ok := values[s.Name]
 		if !ok {
 			if !s.Optional {
-				vs.add(field, "is missing: %s needs %s", e.Title, s.Label)
+				vs.add(fieldOf(), "is missing: %s needs %s", e.Title, s.Label)
 			}
 			continue
 		}
-		if m, ok := s.check(field, q, &vs); ok {
+		if m, ok := s.check(fieldOf, q, &vs); ok {
 			out[s.Name] = m
 		}
 	}
-	for _, name := range sortedKeys(values) {
-		if !known[name] {
-			vs.add(fmt.Sprintf("%s[%q]", prefix, name), "experiment %s takes no value %q", e.ID, name)
+	if len(out) < len(values) || len(vs) > 0 {
+		known := map[string]bool{}
+		for _, s := range e.Values {
+			known[s.Name] = true
+		}
+		for _, name := range sortedKeys(values) {
+			if !known[name] {
+				vs.add(fmt.Sprintf("%s[%q]", prefix, name), "experiment %s takes no value %q", e.ID, name)
+			}
 		}
 	}
 	return out, vs.err()
@@ -412,7 +425,7 @@ func (e *Experiment) convertConstants(c map[string]Quantity) (map[string]Measure
 		if !ok {
 			q = Quantity{Value: s.Default, Unit: s.Unit}
 		}
-		if m, ok := s.check(fmt.Sprintf("constants[%q]", s.Name), q, &vs); ok {
+		if m, ok := s.check(func() string { return fmt.Sprintf("constants[%q]", s.Name) }, q, &vs); ok {
 			out[s.Name] = m
 		}
 	}

@@ -104,6 +104,21 @@ func UnitsFor(d Dimension) []string {
 	return out
 }
 
+// toSIFast converts q when it is valid, without building an error.
+func toSIFast(q Quantity, d Dimension) (Measurement, bool) {
+	if math.IsNaN(q.Value) || math.IsInf(q.Value, 0) || math.IsNaN(q.Uncertainty) || math.IsInf(q.Uncertainty, 0) || q.Uncertainty < 0 {
+		return Measurement{}, false
+	}
+	u, ok := units[q.Unit]
+	if !ok {
+		u, ok = units[normalizeUnit(q.Unit)]
+	}
+	if !ok || u.dim != d {
+		return Measurement{}, false
+	}
+	return Measurement{Value: q.Value * u.factor, Uncertainty: q.Uncertainty * u.factor}, true
+}
+
 // ToSI converts q to SI for dimension d. field names the input in errors.
 func ToSI(field string, q Quantity, d Dimension) (Measurement, error) {
 	if math.IsNaN(q.Value) || math.IsInf(q.Value, 0) {

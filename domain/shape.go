@@ -3,6 +3,7 @@ package domain
 import (
 	"fmt"
 	"math"
+	"slices"
 )
 
 // lineShape runs the shape checks every straight-line fit gets: one point
@@ -78,10 +79,4 @@ func mad(v []float64) float64 {
 	return 1.4826 * median(d)
 }
 
-func sortFloats(s []float64) {
-	for i := 1; i < len(s); i++ {
-		for j := i; j > 0 && s[j] < s[j-1]; j-- {
-			s[j], s[j-1] = s[j-1], s[j]
-		}
-	}
-}
+func sortFloats(s []float64) { slices.Sort(s) }

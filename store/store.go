@@ -206,6 +206,70 @@ type SessionData struct {
 	Notes    []domain.Note
 }
 
+// ImportSession stores a whole session (its benches, readings and notes)
+// in one transaction, with new ids: for bulk loads such as a term's worth of
+// archived sessions. The join code must be free.
+func (db *DB) ImportSession(d SessionData) (uint64, error) {
+	var sid uint64
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		codes := tx.Bucket(bucketJoinCodes)
+		if codes.Get([]byte(d.Session.JoinCode)) != nil {
+			return fmt.Errorf("%w: join code in use", ErrConflict)
+		}
+		sessions, benches, readings, ids, events := tx.Bucket(bucketSessions), tx.Bucket(bucketBenches),
+			tx.Bucket(bucketReadings), tx.Bucket(bucketReadingIDs), tx.Bucket(bucketEvents)
+		var err error
+		if sid, err = sessions.NextSequence(); err != nil {
+			return err
+		}
+		s := d.Session
+		s.ID = sid
+		if err := putRecord(sessions, sessionKey(sid), sessionRecord(s)); err != nil {
+			return err
+		}
+		if err := codes.Put([]byte(s.JoinCode), u64(sid)); err != nil {
+			return err
+		}
+		newID := map[uint64]uint64{}
+		for _, b := range d.Benches {
+			old := b.ID
+			if b.ID, err = benches.NextSequence(); err != nil {
+				return err
+			}
+			newID[old] = b.ID
+			if err := putRecord(benches, benchKey(sid, b.ID), benchRecord(b)); err != nil {
+				return err
+			}
+			for _, r := range d.Readings[old] {
+				if r.Sequence, err = readings.NextSequence(); err != nil {
+					return err
+				}
+				if err := putRecord(readings, readingKey(sid, b.ID, r.Sequence), readingRecord(r)); err != nil {
+					return err
+				}
+				if err := ids.Put(readingIDKey(sid, b.ID, r.ID), u64(r.Sequence)); err != nil {
+					return err
+				}
+			}
+		}
+		for _, n := range d.Notes {
+			n.BenchID = newID[n.BenchID]
+			seq, err := events.NextSequence()
+			if err != nil {
+				return err
+			}
+			if err := putRecord(events, eventKey(sid, seq), eventRecord(n)); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return 0, fmt.Errorf("store: import session: %w", err)
+	}
+	return sid, nil
+}
+
 // ReadSession reads a whole session in one transaction.
 func (db *DB) ReadSession(sessionID uint64) (SessionData, error) {
 	d := SessionData{Readings: map[uint64][]domain.Reading{}}

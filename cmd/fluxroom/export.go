@@ -24,6 +24,7 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	format := fs.String("format", "csv", "csv (gradebook), readings, json or html")
 	out := fs.String("out", "-", "output file, - for standard output")
 	policy := fs.String("policy", "", "grade with this policy file instead of the session's")
+	all := fs.Bool("all", false, "one gradebook CSV of every session in the file (a term), with the session in front of each row")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -35,6 +36,18 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 		return err
 	}
 	defer db.Close()
+	var policyText []byte
+	if *policy != "" {
+		if policyText, err = os.ReadFile(*policy); err != nil {
+			return err
+		}
+		if _, err := export.ParsePolicy(policyText); err != nil {
+			return fmt.Errorf("%s: %w", *policy, err)
+		}
+	}
+	if *all {
+		return m.exportTerm(db, policyText, *out)
+	}
 	if *session == 0 {
 		ss, err := db.Sessions()
 		if err != nil {
@@ -53,15 +66,8 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	if *policy != "" {
-		b, err := os.ReadFile(*policy)
-		if err != nil {
-			return err
-		}
-		if _, err := export.ParsePolicy(b); err != nil {
-			return fmt.Errorf("%s: %w", *policy, err)
-		}
-		d.Session.GradingPolicy = string(b)
+	if policyText != nil {
+		d.Session.GradingPolicy = string(policyText)
 	}
 	ex, err := export.Prepare(d)
 	if err != nil {
@@ -72,13 +78,45 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	if *out == "-" {
-		_, err = m.Stdout.Write(buf.Bytes())
+	return m.writeOut(*out, name, buf.Bytes())
+}
+
+func (m *Main) writeOut(out, name string, b []byte) error {
+	if out == "-" {
+		_, err := m.Stdout.Write(b)
 		return err
 	}
-	if err := os.WriteFile(*out, buf.Bytes(), 0o644); err != nil {
+	if err := os.WriteFile(out, b, 0o644); err != nil {
 		return err
 	}
-	fmt.Fprintf(m.Stderr, "wrote %s (%d bytes; suggested name %s)\n", *out, buf.Len(), name)
+	fmt.Fprintf(m.Stderr, "wrote %s (%d bytes; suggested name %s)\n", out, len(b), name)
 	return nil
+}
+
+// exportTerm writes one gradebook for every session in the file.
+func (m *Main) exportTerm(db *store.DB, policy []byte, out string) error {
+	sessions, err := db.Sessions()
+	if err != nil {
+		return err
+	}
+	var buf bytes.Buffer
+	err = export.WriteTermGradebookCSV(&buf, func(yield func(export.Session, error) bool) {
+		for i := len(sessions) - 1; i >= 0; i-- { // oldest first
+			d, err := db.ReadSession(sessions[i].ID)
+			if err == nil && policy != nil {
+				d.Session.GradingPolicy = string(policy)
+			}
+			var ex export.Session
+			if err == nil {
+				ex, err = export.Prepare(d)
+			}
+			if !yield(ex, err) {
+				return
+			}
+		}
+	})
+	if err != nil {
+		return err
+	}
+	return m.writeOut(out, "fluxroom-term-gradebook.csv", buf.Bytes())
 }

@@ -35,6 +35,35 @@ func pts(v float64) string { return strconv.FormatFloat(math.Round(v*100)/100, '
 func WriteGradebookCSV(w io.Writer, s Session) error {
 	cw := newCSV(w)
 	cw.Write(GradebookHeader)
+	if err := gradebookRows(cw, s, nil); err != nil {
+		return err
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+// WriteTermGradebookCSV writes the gradebooks of many sessions as one file,
+// with the session's id and title in front of each row.
+func WriteTermGradebookCSV(w io.Writer, sessions func(yield func(Session, error) bool)) error {
+	cw := newCSV(w)
+	cw.Write(append([]string{"session", "session title"}, GradebookHeader...))
+	var err error
+	sessions(func(s Session, serr error) bool {
+		if serr != nil {
+			err = serr
+			return false
+		}
+		err = gradebookRows(cw, s, []string{strconv.FormatUint(s.Session.ID, 10), s.Session.Title})
+		return err == nil
+	})
+	if err != nil {
+		return err
+	}
+	cw.Flush()
+	return cw.Error()
+}
+
+func gradebookRows(cw *csv.Writer, s Session, prefix []string) error {
 	for _, r := range s.Rows {
 		a, g := r.Assessment, r.Grade
 		var value, uv, pred, up, pct, z string
@@ -54,12 +83,11 @@ func WriteGradebookCSV(w io.Writer, s Session) error {
 		if o := g.Override; o != nil {
 			rec[22], rec[23], rec[24] = o.Reason, o.Author, o.At.UTC().Format(time.RFC3339)
 		}
-		if err := cw.Write(rec); err != nil {
+		if err := cw.Write(append(append([]string(nil), prefix...), rec...)); err != nil {
 			return err
 		}
 	}
-	cw.Flush()
-	return cw.Error()
+	return nil
 }
 
 // Metadata columns of the readings CSV; `fluxroom analyze` skips them and
