@@ -221,3 +221,18 @@ func TestParsePolicyErrors(t *testing.T) {
 		t.Errorf("an empty policy (the default) is rejected: %v", err)
 	}
 }
+
+// TestPolicyExample parses the README's example policy file.
+func TestPolicyExample(t *testing.T) {
+	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "policy-example.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	p, err := ParsePolicy(b)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if p.Max() != 10 || p.RequiredReadings["coil_force"] != 10 || p.RequiredReadings["solenoid"] != 5 || p.UnsafeDeduction != 2 {
+		t.Errorf("policy = %+v", p)
+	}
+}
