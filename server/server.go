@@ -171,6 +171,11 @@ func (s *Server) Shutdown(ctx context.Context) error {
 		s.grpc.Stop()
 	}
 	err := s.http.Shutdown(ctx)
+	// cmux's listeners share the one socket: whichever server closes it
+	// first, the other finds it closed.
+	if errors.Is(err, net.ErrClosed) {
+		err = nil
+	}
 	s.mu.Lock()
 	if s.mux != nil {
 		s.mux.Close()
