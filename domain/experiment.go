@@ -24,6 +24,8 @@ type Session struct {
 	// GradingPolicy is the course's policy file as JSON; empty for
 	// DefaultPolicy. It is parsed at the edges (internal/export).
 	GradingPolicy string
+	// Closed sessions take no readings; their join code stops working.
+	Closed bool
 }
 
 // EffectiveTolerance is the session's tolerance with defaults filled in.

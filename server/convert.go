@@ -32,8 +32,8 @@ func toleranceFromPB(t *pb.Tolerance) domain.Tolerance {
 func sessionToPB(s domain.Session) *pb.Session {
 	t := s.EffectiveTolerance()
 	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, StationsSeeVerdicts: s.StationsSeeVerdicts,
-		GradingPolicyJson: s.GradingPolicy,
-		Tolerance:         &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
+		GradingPolicyJson: s.GradingPolicy, Closed: s.Closed,
+		Tolerance: &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
 	if !s.CreatedAt.IsZero() {
 		out.CreatedAt = timestamppb.New(s.CreatedAt)
 	}

@@ -14,10 +14,13 @@ import (
 	"connectrpc.com/vanguard"
 	"connectrpc.com/vanguard/vanguardgrpc"
 	"github.com/soheilhy/cmux"
+	"golang.org/x/time/rate"
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/reflection"
+	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -42,17 +45,31 @@ type Config struct {
 	StallAfter time.Duration
 	// StallCheck is how often stalls are looked for. Default 15 s.
 	StallCheck time.Duration
+	// InstructorKey, when set, is the instructor's credential (its hash is
+	// stored). When empty and none is stored, New makes one: ShownKey
+	// returns it, to be shown once.
+	InstructorKey string
+	// StationRate and StationBurst limit each bench's readings per second;
+	// zero means the defaults (5/s, bursts of 20).
+	StationRate  float64
+	StationBurst int
+	// MaxMessageBytes bounds one request; default 64 KiB, far above any
+	// reading.
+	MaxMessageBytes int
 }
 
 // Server serves the fluxroom API on one listener.
 type Server struct {
-	db    *store.DB
-	log   *slog.Logger
-	now   func() time.Time
-	tol   domain.Tolerance
-	hub   *hub
-	rooms rooms
-	grpc  *grpc.Server
+	db      *store.DB
+	log     *slog.Logger
+	now     func() time.Time
+	tol     domain.Tolerance
+	hub     *hub
+	rooms   rooms
+	auth    *auth
+	shown   string
+	metrics *metrics
+	grpc    *grpc.Server
 	// stallAfter and stallCheck: see Config.
 	stallAfter, stallCheck time.Duration
 	http                   *http.Server
@@ -84,9 +101,26 @@ func New(cfg Config) (*Server, error) {
 	if s.stallCheck == 0 {
 		s.stallCheck = 15 * time.Second
 	}
+	a, shown, err := setUpAuth(cfg.DB, cfg.InstructorKey)
+	if err != nil {
+		return nil, err
+	}
+	s.auth, s.shown, s.metrics = a, shown, newMetrics()
+	s.auth.rate, s.auth.burst = rate.Limit(stationRateDefault), stationBurstDefault
+	if cfg.StationRate > 0 {
+		s.auth.rate = rate.Limit(cfg.StationRate)
+	}
+	if cfg.StationBurst > 0 {
+		s.auth.burst = cfg.StationBurst
+	}
+	maxMsg := cfg.MaxMessageBytes
+	if maxMsg == 0 {
+		maxMsg = 64 << 10
+	}
 	s.grpc = grpc.NewServer(
-		grpc.ChainUnaryInterceptor(s.unaryErrors),
-		grpc.ChainStreamInterceptor(s.streamErrors),
+		grpc.MaxRecvMsgSize(maxMsg),
+		grpc.ChainUnaryInterceptor(s.unaryErrors, s.unaryAuth),
+		grpc.ChainStreamInterceptor(s.streamErrors, s.streamAuth),
 	)
 	rpcpb.RegisterStationServiceServer(s.grpc, stationService{s: s})
 	rpcpb.RegisterInstructorServiceServer(s.grpc, instructorService{s: s})
@@ -101,6 +135,10 @@ func New(cfg Config) (*Server, error) {
 	if web == nil {
 		web = http.NotFoundHandler()
 	}
+	mux := http.NewServeMux()
+	mux.HandleFunc("/metrics", s.serveMetrics)
+	mux.Handle("/", web)
+	web = mux
 	// The browser speaks gRPC-Web over HTTP/1.1; vanguard translates it to
 	// calls on the same grpc.Server. Native gRPC never takes this path.
 	tc, err := vanguardgrpc.NewTranscoder(s.grpc, vanguard.WithUnknownHandler(web))
@@ -184,9 +222,25 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	return err
 }
 
+// ShownKey is the instructor key New made because none was stored or given;
+// empty otherwise. Show it once: only its hash is kept.
+func (s *Server) ShownKey() string { return s.shown }
+
+// StationToken returns the token JoinBench would give a bench; for tools
+// that act for a station, such as the demo.
+func (s *Server) StationToken(sessionID, benchID uint64) string {
+	return s.auth.stationToken(sessionID, benchID)
+}
+
 func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
+	start := time.Now()
 	resp, err := handler(ctx, req)
-	return resp, toStatus(ctx, s.log, info.FullMethod, err)
+	err = toStatus(ctx, s.log, info.FullMethod, err)
+	s.metrics.observe(info.FullMethod, time.Since(start))
+	if status.Code(err) == codes.InvalidArgument {
+		s.metrics.rejected.Add(1)
+	}
+	return resp, err
 }
 
 func (s *Server) streamErrors(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {

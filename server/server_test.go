@@ -20,12 +20,17 @@ import (
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/status"
 
+	"example.com/fluxroom/internal/bearer"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
 )
 
+// testKey is the instructor key of the test servers.
+const testKey = "test-instructor-key-0123456789"
+
 type rig struct {
+	srv        *Server
 	db         *store.DB
 	station    rpcpb.StationServiceClient
 	instructor rpcpb.InstructorServiceClient
@@ -55,6 +60,9 @@ func startRigWith(t *testing.T, cfg Config) *rig {
 		t.Fatal(err)
 	}
 	cfg.DB, cfg.Logger = db, slog.New(slog.NewTextHandler(io.Discard, nil))
+	if cfg.InstructorKey == "" {
+		cfg.InstructorKey = testKey
+	}
 	srv, err := New(cfg)
 	if err != nil {
 		t.Fatal(err)
@@ -65,7 +73,8 @@ func startRigWith(t *testing.T, cfg Config) *rig {
 	}
 	served := make(chan error, 1)
 	go func() { served <- srv.Serve(l) }()
-	conn, err := grpc.NewClient(l.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := grpc.NewClient(l.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()),
+		grpc.WithPerRPCCredentials(bearer.Token(cfg.InstructorKey)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -83,7 +92,7 @@ func startRigWith(t *testing.T, cfg Config) *rig {
 		db.Close()
 	})
 	return &rig{db: db, station: rpcpb.NewStationServiceClient(conn), instructor: rpcpb.NewInstructorServiceClient(conn),
-		health: healthpb.NewHealthClient(conn), addr: l.Addr().String()}
+		health: healthpb.NewHealthClient(conn), addr: l.Addr().String(), srv: srv}
 }
 
 func q(v float64, unit string) *pb.Quantity { return &pb.Quantity{Value: v, Unit: unit} }

@@ -42,6 +42,9 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 	if err != nil {
 		return nil, err
 	}
+	if sess.Closed {
+		return nil, domain.Invalid("join_code", "the session with join code %q is closed", code)
+	}
 	benches, err := st.s.db.Benches(sess.ID)
 	if err != nil {
 		return nil, err
@@ -59,7 +62,7 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 				}
 				b.Members = members
 			}
-			return &pb.JoinBenchResponse{SessionId: sess.ID, Bench: benchToPB(b)}, nil
+			return &pb.JoinBenchResponse{SessionId: sess.ID, Bench: benchToPB(b), StationToken: st.s.auth.stationToken(sess.ID, b.ID)}, nil
 		}
 		labels = append(labels, b.Label)
 	}
@@ -83,10 +86,20 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 			return nil, err
 		}
 	}
+	if sess, err := st.s.db.Session(req.GetSessionId()); err != nil {
+		return nil, err
+	} else if sess.Closed {
+		return nil, status.Error(codes.FailedPrecondition, "the session is closed; it takes no more readings")
+	}
 	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now(), Supersedes: req.GetSupersedes()}
 	stored, dup, err := st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
 	if err != nil {
 		return nil, err
+	}
+	if dup {
+		st.s.metrics.duplicates.Add(1)
+	} else {
+		st.s.metrics.readings.Add(1)
 	}
 	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
@@ -423,6 +436,21 @@ func prefixFields(err error, prefix string) error {
 		out.Violations = append(out.Violations, domain.FieldViolation{Field: prefix + v.Field, Reason: v.Reason})
 	}
 	return out
+}
+
+func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessionRequest) (*pb.CloseSessionResponse, error) {
+	sess, err := in.s.db.Session(req.GetSessionId())
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
+	}
+	if err != nil {
+		return nil, err
+	}
+	sess.Closed = true
+	if sess, err = in.s.db.UpdateSession(sess); err != nil {
+		return nil, err
+	}
+	return &pb.CloseSessionResponse{Session: sessionToPB(sess)}, nil
 }
 
 func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest) (*pb.AddNoteResponse, error) {

@@ -30,6 +30,11 @@ var (
 	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketReadingIDs, bucketEvents}
 
 	keySchemaVersion = []byte("schema_version")
+	// keyInstructorKeyHash holds SHA-256 of the instructor key; the key
+	// itself is never stored.
+	keyInstructorKeyHash = []byte("instructor_key_sha256")
+	// keyStationSecret holds the HMAC key that signs station tokens.
+	keyStationSecret = []byte("station_token_secret")
 )
 
 func u64(v uint64) []byte {

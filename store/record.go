@@ -44,14 +44,14 @@ func sessionRecord(s domain.Session) *recordpb.Session {
 	t := s.Tolerance
 	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt),
 		Tolerance:           &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
-		StationsSeeVerdicts: s.StationsSeeVerdicts, GradingPolicyJson: s.GradingPolicy}
+		StationsSeeVerdicts: s.StationsSeeVerdicts, GradingPolicyJson: s.GradingPolicy, Closed: s.Closed}
 }
 
 func sessionFromRecord(r *recordpb.Session) domain.Session {
 	t := r.GetTolerance()
 	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano()),
 		Tolerance:           domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()},
-		StationsSeeVerdicts: r.GetStationsSeeVerdicts(), GradingPolicy: r.GetGradingPolicyJson()}
+		StationsSeeVerdicts: r.GetStationsSeeVerdicts(), GradingPolicy: r.GetGradingPolicyJson(), Closed: r.GetClosed()}
 }
 
 func eventRecord(n domain.Note) *recordpb.Event {

@@ -74,6 +74,36 @@ func (db *DB) prepare(tx *bbolt.Tx) error {
 	return nil
 }
 
+// Credentials returns the stored hash of the instructor key and the secret
+// that signs station tokens, creating the secret on first use.
+func (db *DB) Credentials(newSecret func() []byte) (keyHash, stationSecret []byte, err error) {
+	err = db.bolt.Update(func(tx *bbolt.Tx) error {
+		meta := tx.Bucket(bucketMeta)
+		keyHash = append([]byte(nil), meta.Get(keyInstructorKeyHash)...)
+		stationSecret = append([]byte(nil), meta.Get(keyStationSecret)...)
+		if len(stationSecret) == 0 {
+			stationSecret = newSecret()
+			return meta.Put(keyStationSecret, stationSecret)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, nil, fmt.Errorf("store: credentials: %w", err)
+	}
+	return keyHash, stationSecret, nil
+}
+
+// SetInstructorKeyHash replaces the stored hash of the instructor key.
+func (db *DB) SetInstructorKeyHash(hash []byte) error {
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		return tx.Bucket(bucketMeta).Put(keyInstructorKeyHash, hash)
+	})
+	if err != nil {
+		return fmt.Errorf("store: set instructor key: %w", err)
+	}
+	return nil
+}
+
 // Close closes the file.
 func (db *DB) Close() error { return db.bolt.Close() }
 
@@ -125,6 +155,7 @@ func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
 			return err
 		}
 		old.Title, old.Tolerance, old.StationsSeeVerdicts, old.GradingPolicy = s.Title, s.Tolerance, s.StationsSeeVerdicts, s.GradingPolicy
+		old.Closed = s.Closed
 		out = old
 		return putRecord(tx.Bucket(bucketSessions), sessionKey(s.ID), sessionRecord(old))
 	})

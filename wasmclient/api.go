@@ -39,6 +39,9 @@ const (
 	codeNotFound        = 5
 	codeDataLoss        = 15
 	codeUnavailable     = 14
+	codeUnauthenticated = 16
+	codePermission      = 7
+	codeExhausted       = 8
 )
 
 // api is the dashboard's gRPC-Web client to the server that served the
@@ -47,9 +50,15 @@ const (
 // app.wasm about a third smaller.
 type api struct {
 	base string
+	// token is the instructor key or the station token, sent as
+	// "authorization: Bearer <token>".
+	token string
 }
 
 func newAPI(base string) *api { return &api{base: base} }
+
+// withToken returns a client that sends the given credential.
+func (c *api) withToken(tok string) *api { return &api{base: c.base, token: tok} }
 
 // rpcError is a failed call: its gRPC status code, message and, for
 // InvalidArgument, the field violations.
@@ -73,6 +82,12 @@ func codeName(c int) string {
 		return "unavailable"
 	case codeDataLoss:
 		return "data loss"
+	case codeUnauthenticated:
+		return "needs the instructor key"
+	case codePermission:
+		return "not allowed"
+	case codeExhausted:
+		return "too many requests"
 	}
 	return fmt.Sprintf("code %d", c)
 }

@@ -28,6 +28,9 @@ func (c *api) call(ctx context.Context, proc string, req proto.Message, onMsg fu
 	headers.Set("Content-Type", "application/grpc-web+proto")
 	headers.Set("Accept", "application/grpc-web+proto")
 	headers.Set("X-Grpc-Web", "1")
+	if c.token != "" {
+		headers.Set("Authorization", "Bearer "+c.token)
+	}
 	opts := js.Global().Get("Object").New()
 	opts.Set("method", "POST")
 	opts.Set("headers", headers)

@@ -185,7 +185,7 @@ func (f *NoteForm) Render() app.UI {
 func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 	e.PreventDefault()
 	text, sid, bid := f.text, f.SessionID, f.BenchID
-	c := newAPI(baseURL())
+	c := newAPI(baseURL()).withToken(instructorKey(ctx))
 	ctx.Async(func() {
 		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
 		ctx.Dispatch(func(app.Context) {
@@ -238,7 +238,7 @@ func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
 		return
 	}
 	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason, Author: "instructor"}
-	c := newAPI(baseURL())
+	c := newAPI(baseURL()).withToken(instructorKey(ctx))
 	ctx.Async(func() {
 		res, err := unary[pb.OverrideGradeResponse](ctx, c, ProcOverrideGrade, req)
 		ctx.Dispatch(func(app.Context) {

@@ -40,6 +40,7 @@ type Room struct {
 	link string
 	now  time.Time
 
+	needKey        bool
 	attentionFirst bool
 	largeType      bool
 	// open is the bench whose detail is shown, 0 for none.
@@ -65,7 +66,7 @@ func (r *Room) OnMount(ctx app.Context) {
 	setRootFontSize(r.largeType)
 	base := *u
 	base.Path, base.RawQuery, base.Fragment = "", "", ""
-	r.client = newAPI(base.String())
+	r.client = newAPI(base.String()).withToken(instructorKey(ctx))
 	ctx.Handle(actionOpenBench, func(ctx app.Context, a app.Action) {
 		if id, ok := a.Value.(uint64); ok {
 			r.openBench(ctx, id)
@@ -95,6 +96,10 @@ func (r *Room) watch(ctx app.Context, c *api, sessionID uint64) {
 	for ctx.Err() == nil {
 		err := r.streamOnce(ctx, c, sessionID, func() { backoff = backoffFirst })
 		if ctx.Err() != nil {
+			return
+		}
+		if codeOf(err) == codeUnauthenticated {
+			ctx.Dispatch(func(app.Context) { r.needKey = true; r.link = "needs the instructor key" })
 			return
 		}
 		wait := backoff
@@ -267,6 +272,7 @@ func (r *Room) Render() app.UI {
 			),
 			app.Div().Class("link").ID("link").Attr("data-link", r.link).Text(r.link),
 		),
+		app.If(r.needKey, &KeyPrompt{}),
 		r.renderUnsafe(),
 		grid.Body(app.Range(tiles).Slice(func(i int) app.UI { return tiles[i] })),
 		r.renderFindings(),

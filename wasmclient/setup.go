@@ -29,6 +29,7 @@ type Setup struct {
 	seeVerdicts                     bool
 
 	policy     string
+	needKey    bool
 	rows, cols int
 	cells      map[[2]int]*setupCell
 	selected   [2]int
@@ -47,7 +48,7 @@ type setupCell struct {
 // OnMount loads the experiments, the sessions and, with ?session=N, that
 // session's benches.
 func (s *Setup) OnMount(ctx app.Context) {
-	s.client = newAPI(baseURL())
+	s.client = newAPI(baseURL()).withToken(instructorKey(ctx))
 	s.cells, s.errs = map[[2]int]*setupCell{}, map[string]string{}
 	s.rows, s.cols = 3, 5
 	c := s.client
@@ -63,6 +64,10 @@ func (s *Setup) OnMount(ctx app.Context) {
 			snap = firstSnapshot(ctx, c, sid)
 		}
 		ctx.Dispatch(func(app.Context) {
+			if codeOf(err2) == codeUnauthenticated {
+				s.needKey = true
+				return
+			}
 			if err1 != nil || err2 != nil {
 				s.status = fmt.Sprint("cannot reach the server: ", err1, err2)
 				return
@@ -254,6 +259,7 @@ func (s *Setup) Render() app.UI {
 				app.Span().Class("join-code").ID("join-code").Text(code))),
 			app.If(s.session != nil, app.A().ID("to-room").Href(fmt.Sprintf("/?session=%d", s.sessionID())).Text("Open the room")),
 		),
+		app.If(s.needKey, &KeyPrompt{}),
 		app.Form().ID("session-form").OnSubmit(s.saveSession).Body(
 			field("title", "Course and section", s.errs["title"], app.Input().ID("title").Value(s.title).
 				OnInput(func(ctx app.Context, e app.Event) { s.title = ctx.JSSrc().Get("value").String() })),

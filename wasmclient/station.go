@@ -47,6 +47,8 @@ type stationJoin struct {
 	BenchID    uint64 `json:"bench_id"`
 	Label      string `json:"label"`
 	Experiment string `json:"experiment"`
+	// Token is the station token JoinBench gave this bench.
+	Token string `json:"token"`
 }
 
 // queuedReading is one reading waiting to be sent.
@@ -72,6 +74,7 @@ func (s *Station) OnMount(ctx app.Context) {
 	var j stationJoin
 	if err := ctx.LocalStorage().Get(storageJoin, &j); err == nil && j.BenchID != 0 {
 		s.joined = &j
+		s.client = s.client.withToken(j.Token)
 		s.loadSpec(ctx)
 	}
 	s.queued = len(loadQueue(ctx))
@@ -143,7 +146,7 @@ func (s *Station) sender(ctx app.Context) {
 				}
 			})
 			s.refreshNow(ctx)
-		case code == codeInvalidArgument || code == codeNotFound:
+		case code == codeInvalidArgument || code == codeNotFound || code == codePermission:
 			// The server will never take it: show why, keep nothing.
 			dropQueued(ctx, item.ReadingID)
 			msgs := fieldMessages(err)
@@ -212,7 +215,9 @@ func (s *Station) join(ctx app.Context, e app.Event) {
 				s.status = "could not join: " + err.Error()
 				return
 			}
-			s.joined = &stationJoin{SessionID: res.SessionId, BenchID: res.Bench.BenchId, Label: res.Bench.Label, Experiment: res.Bench.Experiment}
+			s.joined = &stationJoin{SessionID: res.SessionId, BenchID: res.Bench.BenchId, Label: res.Bench.Label,
+				Experiment: res.Bench.Experiment, Token: res.StationToken}
+			s.client = s.client.withToken(res.StationToken)
 			ctx.LocalStorage().Set(storageJoin, s.joined)
 			s.status, s.fieldErrs = "", map[string]string{}
 			s.loadSpec(ctx)

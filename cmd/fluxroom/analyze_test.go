@@ -11,8 +11,6 @@ import (
 	"testing"
 
 	"github.com/google/go-cmp/cmp"
-	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
@@ -89,10 +87,7 @@ A1,coil_force,5,,100
 func TestSubmitIsIdempotent(t *testing.T) {
 	p := startProgram(t, t.TempDir(), filepath.Join(t.TempDir(), "f.db"), "127.0.0.1:0")
 	defer p.stop(t)
-	conn, err := grpc.NewClient(p.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatal(err)
-	}
+	conn := dialInstructor(t, p.addr)
 	defer conn.Close()
 	ctx := context.Background()
 	in := rpcpb.NewInstructorServiceClient(conn)

@@ -2,6 +2,8 @@ package main
 
 import (
 	"context"
+	crand "crypto/rand"
+	"encoding/base64"
 	"errors"
 	"fmt"
 	"io"
@@ -15,9 +17,11 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/bearer"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -92,7 +96,10 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log)
+	// The demo makes its own instructor key each run and puts it in the
+	// dashboard URL's fragment, which the browser keeps to itself.
+	key := newDemoKey()
+	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log, serverOptions{instructorKey: key})
 	if err != nil {
 		return err
 	}
@@ -103,13 +110,20 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 		defer cancel()
 	}
 
-	conn, err := grpc.NewClient(r.addr.String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := grpc.NewClient(r.addr.String(), grpc.WithTransportCredentials(insecure.NewCredentials()),
+		grpc.WithPerRPCCredentials(bearer.Token(key)))
 	if err != nil {
 		return err
 	}
 	defer conn.Close()
+	// Stations join with the code and use their own token, like a laptop.
+	stationConn, err := grpc.NewClient(r.addr.String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+	if err != nil {
+		return err
+	}
+	defer stationConn.Close()
 	instructor := rpcpb.NewInstructorServiceClient(conn)
-	station := rpcpb.NewStationServiceClient(conn)
+	station := rpcpb.NewStationServiceClient(stationConn)
 
 	class, err := demoClass(*seed)
 	if err != nil {
@@ -119,7 +133,7 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	fmt.Fprintf(m.Stdout, "%s\njoin code %s · %d benches\ndashboard: http://%s/?session=%d\n", sess.Title, sess.JoinCode, len(class), r.addr, sess.SessionId)
+	fmt.Fprintf(m.Stdout, "%s\njoin code %s · %d benches\ndashboard: http://%s/?session=%d#key=%s\n", sess.Title, sess.JoinCode, len(class), r.addr, sess.SessionId, key)
 	fmt.Fprintln(m.Stdout, "Simulated groups with a seeded mistake:")
 	for _, b := range class {
 		if b.mistake != "" {
@@ -173,10 +187,11 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 	if err != nil {
 		return err
 	}
+	tctx := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer "+join.StationToken)
 	for i, r := range b.group.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
 			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: quantitiesPB(r.Values)}
-		if err := submitWithRetry(ctx, st, req); err != nil {
+		if err := submitWithRetry(tctx, st, req); err != nil {
 			return err
 		}
 		if err := sleep(ctx, time.Duration((0.6+0.8*rng.Float64())*float64(pace))); err != nil {
@@ -194,12 +209,20 @@ func quantitiesPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
 	return out
 }
 
-// submitWithRetry resends a reading until the server answers; the reading id
-// makes a resend of an already stored reading a no-op.
+// newDemoKey is a fresh instructor key for one demo run.
+func newDemoKey() string {
+	b := make([]byte, 18)
+	crand.Read(b)
+	return base64.RawURLEncoding.EncodeToString(b)
+}
+
+// submitWithRetry resends a reading until the server answers (or, past the
+// station's rate limit, until it has room); the reading id makes a resend of
+// an already stored reading a no-op.
 func submitWithRetry(ctx context.Context, st rpcpb.StationServiceClient, req *pb.SubmitReadingRequest) error {
 	for {
 		_, err := st.SubmitReading(ctx, req)
-		if status.Code(err) != codes.Unavailable {
+		if c := status.Code(err); c != codes.Unavailable && c != codes.ResourceExhausted {
 			return err
 		}
 		if err := sleep(ctx, 200*time.Millisecond); err != nil {

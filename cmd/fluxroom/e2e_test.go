@@ -19,6 +19,7 @@ import (
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
 
+	"example.com/fluxroom/internal/bearer"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/wasmclient"
@@ -94,7 +95,7 @@ func startProgram(t testing.TB, web, dbPath, addr string) *program {
 	ctx, cancel := context.WithCancel(context.Background())
 	p := &program{cancel: cancel, done: make(chan error, 1)}
 	go func() {
-		p.done <- m.Run(ctx, []string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error"})
+		p.done <- m.Run(ctx, []string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--instructor-key", testKey})
 	}()
 	select {
 	case a := <-ready:
@@ -195,6 +196,19 @@ func screenshot(t testing.TB, ctx context.Context, name string) {
 
 func q(v float64, unit string) *pb.Quantity { return &pb.Quantity{Value: v, Unit: unit} }
 
+// testKey is the instructor key the tests start the program with.
+const testKey = "test-instructor-key-0123456789"
+
+// dialInstructor is a native gRPC client with the instructor key.
+func dialInstructor(t testing.TB, addr string) *grpc.ClientConn {
+	t.Helper()
+	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(testKey)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	return conn
+}
+
 // TestDashboardInBrowser drives headless Chromium against the real program:
 // the room loads, a reading submitted over native gRPC changes the right
 // tile's state and reason, and the page reconnects by itself after the
@@ -209,10 +223,7 @@ func TestDashboardInBrowser(t *testing.T) {
 	p := startProgram(t, web, dbPath, "127.0.0.1:0")
 	addr := p.addr
 
-	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatal(err)
-	}
+	conn := dialInstructor(t, addr)
 	defer conn.Close()
 	ctx, cancel := context.WithTimeout(context.Background(), 90*time.Second)
 	defer cancel()
@@ -240,7 +251,7 @@ func TestDashboardInBrowser(t *testing.T) {
 	bctx := browser(t, chrome)
 	bctx, cancelB := context.WithTimeout(bctx, 90*time.Second)
 	defer cancelB()
-	url := fmt.Sprintf("http://%s/?session=%d", addr, sid)
+	url := fmt.Sprintf("http://%s/?session=%d#key=%s", addr, sid, testKey)
 	start := time.Now()
 	if err := chromedp.Do(bctx,
 		chromedp.Navigate(url),
@@ -287,10 +298,7 @@ func TestDashboardInBrowser(t *testing.T) {
 	}
 	p = startProgram(t, web, dbPath, addr)
 	defer p.stop(t)
-	conn2, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatal(err)
-	}
+	conn2 := dialInstructor(t, addr)
 	defer conn2.Close()
 	st2 := rpcpb.NewStationServiceClient(conn2)
 	if err := chromedp.Do(bctx, chromedp.WaitVisible(chromedp.CSS(`#link[data-link="live"]`))); err != nil {

@@ -13,6 +13,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+
 	"time"
 
 	"example.com/fluxroom/server"
@@ -22,6 +23,15 @@ import (
 
 //go:embed web
 var embedded embed.FS
+
+// warnPlaintext warns when the server listens beyond loopback without TLS:
+// station tokens and the instructor key then cross the room's network in
+// clear text.
+func warnPlaintext(log *slog.Logger, addr net.Addr) {
+	if ta, ok := addr.(*net.TCPAddr); ok && !ta.IP.IsLoopback() {
+		log.Warn("serving without TLS on a non-loopback address: credentials cross the network in clear; see README, Classroom network", "addr", addr.String())
+	}
+}
 
 // usageError is a mistake in the command line; main exits 2 for it.
 type usageError struct{ msg string }
@@ -54,6 +64,7 @@ Commands:
   submit  send a readings CSV to a live session: fluxroom submit --server HOST:PORT --code CODE --bench LABEL FILE.csv
   export  write a session's gradebook, readings, JSON or report: fluxroom export --db FILE --session N --format csv|readings|json|html --out FILE
   catalogue list every diagnosis code with its cause and suggested action
+  version print the version
   help    show this text
 
 Run "fluxroom COMMAND -h" for a command's flags. Every flag can also be set
@@ -80,6 +91,8 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.catalogueCmd(ctx, args[1:])
 	case "export":
 		return m.exportCmd(ctx, args[1:])
+	case "version":
+		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":
 		fmt.Fprint(m.Stdout, helpText)
 		return nil
@@ -132,15 +145,22 @@ func parseArgs(fs *flag.FlagSet, args []string) error {
 
 // running is a started server with its database.
 type running struct {
-	db   *store.DB
+	db *store.DB
+	// key is the instructor key when start made a new one.
+	key  string
 	srv  *server.Server
 	addr net.Addr
 	done chan error
 	log  *slog.Logger
 }
 
+// serverOptions are what start needs beyond the database and address.
+type serverOptions struct {
+	instructorKey string
+}
+
 // start opens the database and serves on addr until ctx ends or stop runs.
-func (m *Main) start(dbPath, addr string, log *slog.Logger) (*running, error) {
+func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) (*running, error) {
 	if err := os.MkdirAll(filepath.Dir(dbPath), 0o750); err != nil {
 		return nil, fmt.Errorf("create data directory: %w", err)
 	}
@@ -153,7 +173,7 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger) (*running, error) {
 		db.Close()
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
-	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web})
+	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey})
 	if err != nil {
 		db.Close()
 		return nil, err
@@ -163,7 +183,7 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger) (*running, error) {
 		db.Close()
 		return nil, fmt.Errorf("listen on %s: %w", addr, err)
 	}
-	r := &running{db: db, srv: srv, addr: l.Addr(), done: make(chan error, 1), log: log}
+	r := &running{db: db, srv: srv, addr: l.Addr(), done: make(chan error, 1), log: log, key: srv.ShownKey()}
 	go func() { r.done <- srv.Serve(l) }()
 	if m.Ready != nil {
 		m.Ready <- l.Addr()
@@ -198,6 +218,8 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "bbolt database file (created if missing)")
 	addr := fs.String("addr", "127.0.0.1:8080", "host:port to listen on, for gRPC and the dashboard")
 	level := fs.String("log-level", "info", "log level: debug, info, warn or error")
+	key := fs.String("instructor-key", "", "the instructor's credential (default: the one stored, or a new one shown once)")
+	keyFile := fs.String("instructor-key-file", "", "read the instructor key from this file")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -205,11 +227,25 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	r, err := m.start(*dbPath, *addr, log)
+	if *keyFile != "" {
+		b, err := os.ReadFile(*keyFile)
+		if err != nil {
+			return fmt.Errorf("--instructor-key-file: %w", err)
+		}
+		*key = strings.TrimSpace(string(b))
+	}
+	if *key != "" && len(*key) < 16 {
+		return usageError{"--instructor-key must be at least 16 characters"}
+	}
+	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key})
 	if err != nil {
 		return err
 	}
-	log.Info("serving", "addr", r.addr.String(), "db", *dbPath, "dashboard", "http://"+r.addr.String()+"/")
+	if r.key != "" {
+		fmt.Fprintf(m.Stderr, "\nNew instructor key (shown once; only its hash is stored):\n\n    %s\n\nOpen the dashboard with it: http://%s/#key=%s\n\n", r.key, r.addr, r.key)
+	}
+	warnPlaintext(log, r.addr)
+	log.Info("serving", "addr", r.addr.String(), "db", *dbPath, "dashboard", "http://"+r.addr.String()+"/", "version", version)
 	select {
 	case <-ctx.Done():
 	case err := <-r.done:

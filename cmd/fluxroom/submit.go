@@ -7,7 +7,10 @@ import (
 	"time"
 
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/grpc/metadata"
+	"google.golang.org/grpc/status"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
@@ -68,12 +71,25 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	if join.Bench.Experiment != rows.bench.Experiment {
 		return fmt.Errorf("bench %s is set up for %s, but the file's rows are %s", *bench, join.Bench.Experiment, rows.bench.Experiment)
 	}
+	tctx := metadata.AppendToOutgoingContext(cctx, "authorization", "Bearer "+join.StationToken)
 	var stored, dup int
 	var last *pb.SubmitReadingResponse
 	for i, r := range rows.readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
 			ReadingId: "csv-" + rows.keys[i], Values: quantitiesPB(r.Values)}
-		last, err = st.SubmitReading(cctx, req)
+		// Past the bench's rate limit the server says ResourceExhausted: wait
+		// and send the same reading again (its id makes that safe).
+		for {
+			last, err = st.SubmitReading(tctx, req)
+			if status.Code(err) != codes.ResourceExhausted {
+				break
+			}
+			select {
+			case <-tctx.Done():
+				return tctx.Err()
+			case <-time.After(250 * time.Millisecond):
+			}
+		}
 		if err != nil {
 			return fmt.Errorf("line %d: %w", rows.lines[i], err)
 		}

@@ -13,7 +13,6 @@ import (
 	"github.com/chromedp/cdproto/performance"
 	"github.com/chromedp/chromedp"
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
@@ -75,10 +74,7 @@ func (r *uiRig) dial(t testing.TB) {
 	if r.conn != nil {
 		r.conn.Close()
 	}
-	conn, err := grpc.NewClient(r.p.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
-	if err != nil {
-		t.Fatal(err)
-	}
+	conn := dialInstructor(t, r.p.addr)
 	t.Cleanup(func() { conn.Close() })
 	r.conn, r.in, r.st = conn, rpcpb.NewInstructorServiceClient(conn), rpcpb.NewStationServiceClient(conn)
 }
@@ -88,7 +84,7 @@ func (r *uiRig) url(path string) string {
 	if strings.Contains(path, "?") {
 		sep = "&"
 	}
-	return fmt.Sprintf("http://%s%s%ssession=%d", r.p.addr, path, sep, r.sess.SessionId)
+	return fmt.Sprintf("http://%s%s%ssession=%d#key=%s", r.p.addr, path, sep, r.sess.SessionId, testKey)
 }
 
 func (r *uiRig) submit(t testing.TB, label, id string, current, force float64) *pb.SubmitReadingResponse {

@@ -234,8 +234,10 @@ type Session struct {
 	// The course's grading policy as JSON (README.md, "Grading policy");
 	// empty for the default.
 	GradingPolicyJson string `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// A closed session takes no more readings and its join code stops working.
+	Closed        bool `protobuf:"varint,8,opt,name=closed,proto3" json:"closed,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Session) Reset() {
@@ -315,6 +317,13 @@ func (x *Session) GetGradingPolicyJson() string {
 		return x.GradingPolicyJson
 	}
 	return ""
+}
+
+func (x *Session) GetClosed() bool {
+	if x != nil {
+		return x.Closed
+	}
+	return false
 }
 
 // Tolerance is a course's rule for verdicts: consistent when |z| ≤
@@ -1792,9 +1801,12 @@ func (x *JoinBenchRequest) GetGroupMembers() string {
 }
 
 type JoinBenchResponse struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	Bench         *Bench                 `protobuf:"bytes,2,opt,name=bench,proto3" json:"bench,omitempty"`
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	Bench     *Bench                 `protobuf:"bytes,2,opt,name=bench,proto3" json:"bench,omitempty"`
+	// Send as "authorization: Bearer <token>" on the bench's other calls; it
+	// is good for this session and bench only.
+	StationToken  string `protobuf:"bytes,3,opt,name=station_token,json=stationToken,proto3" json:"station_token,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -1843,6 +1855,101 @@ func (x *JoinBenchResponse) GetBench() *Bench {
 	return nil
 }
 
+func (x *JoinBenchResponse) GetStationToken() string {
+	if x != nil {
+		return x.StationToken
+	}
+	return ""
+}
+
+type CloseSessionRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CloseSessionRequest) Reset() {
+	*x = CloseSessionRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseSessionRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseSessionRequest) ProtoMessage() {}
+
+func (x *CloseSessionRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseSessionRequest.ProtoReflect.Descriptor instead.
+func (*CloseSessionRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
+}
+
+func (x *CloseSessionRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+type CloseSessionResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Session       *Session               `protobuf:"bytes,1,opt,name=session,proto3" json:"session,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CloseSessionResponse) Reset() {
+	*x = CloseSessionResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CloseSessionResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CloseSessionResponse) ProtoMessage() {}
+
+func (x *CloseSessionResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CloseSessionResponse.ProtoReflect.Descriptor instead.
+func (*CloseSessionResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
+}
+
+func (x *CloseSessionResponse) GetSession() *Session {
+	if x != nil {
+		return x.Session
+	}
+	return nil
+}
+
 type SubmitReadingRequest struct {
 	state     protoimpl.MessageState `protogen:"open.v1"`
 	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
@@ -1857,7 +1964,7 @@ type SubmitReadingRequest struct {
 
 func (x *SubmitReadingRequest) Reset() {
 	*x = SubmitReadingRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1869,7 +1976,7 @@ func (x *SubmitReadingRequest) String() string {
 func (*SubmitReadingRequest) ProtoMessage() {}
 
 func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[20]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1882,7 +1989,7 @@ func (x *SubmitReadingRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingRequest.ProtoReflect.Descriptor instead.
 func (*SubmitReadingRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{20}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
 }
 
 func (x *SubmitReadingRequest) GetSessionId() uint64 {
@@ -1932,7 +2039,7 @@ type SubmitReadingResponse struct {
 
 func (x *SubmitReadingResponse) Reset() {
 	*x = SubmitReadingResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -1944,7 +2051,7 @@ func (x *SubmitReadingResponse) String() string {
 func (*SubmitReadingResponse) ProtoMessage() {}
 
 func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[21]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -1957,7 +2064,7 @@ func (x *SubmitReadingResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SubmitReadingResponse.ProtoReflect.Descriptor instead.
 func (*SubmitReadingResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{21}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
 }
 
 func (x *SubmitReadingResponse) GetReading() *Reading {
@@ -1991,7 +2098,7 @@ type GetBenchStateRequest struct {
 
 func (x *GetBenchStateRequest) Reset() {
 	*x = GetBenchStateRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2003,7 +2110,7 @@ func (x *GetBenchStateRequest) String() string {
 func (*GetBenchStateRequest) ProtoMessage() {}
 
 func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[22]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2016,7 +2123,7 @@ func (x *GetBenchStateRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchStateRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{22}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
 }
 
 func (x *GetBenchStateRequest) GetSessionId() uint64 {
@@ -2045,7 +2152,7 @@ type GetBenchStateResponse struct {
 
 func (x *GetBenchStateResponse) Reset() {
 	*x = GetBenchStateResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2057,7 +2164,7 @@ func (x *GetBenchStateResponse) String() string {
 func (*GetBenchStateResponse) ProtoMessage() {}
 
 func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[23]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2070,7 +2177,7 @@ func (x *GetBenchStateResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchStateResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchStateResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{23}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
 }
 
 func (x *GetBenchStateResponse) GetState() *BenchState {
@@ -2095,7 +2202,7 @@ type ListExperimentsRequest struct {
 
 func (x *ListExperimentsRequest) Reset() {
 	*x = ListExperimentsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2107,7 +2214,7 @@ func (x *ListExperimentsRequest) String() string {
 func (*ListExperimentsRequest) ProtoMessage() {}
 
 func (x *ListExperimentsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[24]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2120,7 +2227,7 @@ func (x *ListExperimentsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListExperimentsRequest.ProtoReflect.Descriptor instead.
 func (*ListExperimentsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{24}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
 }
 
 type ListExperimentsResponse struct {
@@ -2132,7 +2239,7 @@ type ListExperimentsResponse struct {
 
 func (x *ListExperimentsResponse) Reset() {
 	*x = ListExperimentsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2144,7 +2251,7 @@ func (x *ListExperimentsResponse) String() string {
 func (*ListExperimentsResponse) ProtoMessage() {}
 
 func (x *ListExperimentsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[25]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2157,7 +2264,7 @@ func (x *ListExperimentsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListExperimentsResponse.ProtoReflect.Descriptor instead.
 func (*ListExperimentsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{25}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
 }
 
 func (x *ListExperimentsResponse) GetExperiments() []*ExperimentSpec {
@@ -2180,7 +2287,7 @@ type UpdateSessionRequest struct {
 
 func (x *UpdateSessionRequest) Reset() {
 	*x = UpdateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2192,7 +2299,7 @@ func (x *UpdateSessionRequest) String() string {
 func (*UpdateSessionRequest) ProtoMessage() {}
 
 func (x *UpdateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[26]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2205,7 +2312,7 @@ func (x *UpdateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpdateSessionRequest.ProtoReflect.Descriptor instead.
 func (*UpdateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{26}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{28}
 }
 
 func (x *UpdateSessionRequest) GetSessionId() uint64 {
@@ -2245,7 +2352,7 @@ type UpdateSessionResponse struct {
 
 func (x *UpdateSessionResponse) Reset() {
 	*x = UpdateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2257,7 +2364,7 @@ func (x *UpdateSessionResponse) String() string {
 func (*UpdateSessionResponse) ProtoMessage() {}
 
 func (x *UpdateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[27]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2270,7 +2377,7 @@ func (x *UpdateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use UpdateSessionResponse.ProtoReflect.Descriptor instead.
 func (*UpdateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{27}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{29}
 }
 
 func (x *UpdateSessionResponse) GetSession() *Session {
@@ -2292,7 +2399,7 @@ type AddNoteRequest struct {
 
 func (x *AddNoteRequest) Reset() {
 	*x = AddNoteRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2304,7 +2411,7 @@ func (x *AddNoteRequest) String() string {
 func (*AddNoteRequest) ProtoMessage() {}
 
 func (x *AddNoteRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[28]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2317,7 +2424,7 @@ func (x *AddNoteRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddNoteRequest.ProtoReflect.Descriptor instead.
 func (*AddNoteRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{28}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{30}
 }
 
 func (x *AddNoteRequest) GetSessionId() uint64 {
@@ -2357,7 +2464,7 @@ type AddNoteResponse struct {
 
 func (x *AddNoteResponse) Reset() {
 	*x = AddNoteResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2369,7 +2476,7 @@ func (x *AddNoteResponse) String() string {
 func (*AddNoteResponse) ProtoMessage() {}
 
 func (x *AddNoteResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[29]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2382,7 +2489,7 @@ func (x *AddNoteResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddNoteResponse.ProtoReflect.Descriptor instead.
 func (*AddNoteResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{29}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{31}
 }
 
 func (x *AddNoteResponse) GetNote() *Note {
@@ -2403,7 +2510,7 @@ type AcknowledgeAlertRequest struct {
 
 func (x *AcknowledgeAlertRequest) Reset() {
 	*x = AcknowledgeAlertRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2415,7 +2522,7 @@ func (x *AcknowledgeAlertRequest) String() string {
 func (*AcknowledgeAlertRequest) ProtoMessage() {}
 
 func (x *AcknowledgeAlertRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[30]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2428,7 +2535,7 @@ func (x *AcknowledgeAlertRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AcknowledgeAlertRequest.ProtoReflect.Descriptor instead.
 func (*AcknowledgeAlertRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{30}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{32}
 }
 
 func (x *AcknowledgeAlertRequest) GetSessionId() uint64 {
@@ -2461,7 +2568,7 @@ type AcknowledgeAlertResponse struct {
 
 func (x *AcknowledgeAlertResponse) Reset() {
 	*x = AcknowledgeAlertResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2473,7 +2580,7 @@ func (x *AcknowledgeAlertResponse) String() string {
 func (*AcknowledgeAlertResponse) ProtoMessage() {}
 
 func (x *AcknowledgeAlertResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[31]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2486,7 +2593,7 @@ func (x *AcknowledgeAlertResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AcknowledgeAlertResponse.ProtoReflect.Descriptor instead.
 func (*AcknowledgeAlertResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{31}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{33}
 }
 
 func (x *AcknowledgeAlertResponse) GetNote() *Note {
@@ -2507,7 +2614,7 @@ type CreateSessionRequest struct {
 
 func (x *CreateSessionRequest) Reset() {
 	*x = CreateSessionRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2519,7 +2626,7 @@ func (x *CreateSessionRequest) String() string {
 func (*CreateSessionRequest) ProtoMessage() {}
 
 func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[32]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2532,7 +2639,7 @@ func (x *CreateSessionRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionRequest.ProtoReflect.Descriptor instead.
 func (*CreateSessionRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{32}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{34}
 }
 
 func (x *CreateSessionRequest) GetTitle() string {
@@ -2565,7 +2672,7 @@ type CreateSessionResponse struct {
 
 func (x *CreateSessionResponse) Reset() {
 	*x = CreateSessionResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2577,7 +2684,7 @@ func (x *CreateSessionResponse) String() string {
 func (*CreateSessionResponse) ProtoMessage() {}
 
 func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[33]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2590,7 +2697,7 @@ func (x *CreateSessionResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CreateSessionResponse.ProtoReflect.Descriptor instead.
 func (*CreateSessionResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{33}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{35}
 }
 
 func (x *CreateSessionResponse) GetSession() *Session {
@@ -2608,7 +2715,7 @@ type ListSessionsRequest struct {
 
 func (x *ListSessionsRequest) Reset() {
 	*x = ListSessionsRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2620,7 +2727,7 @@ func (x *ListSessionsRequest) String() string {
 func (*ListSessionsRequest) ProtoMessage() {}
 
 func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[34]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2633,7 +2740,7 @@ func (x *ListSessionsRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsRequest.ProtoReflect.Descriptor instead.
 func (*ListSessionsRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{34}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{36}
 }
 
 type ListSessionsResponse struct {
@@ -2646,7 +2753,7 @@ type ListSessionsResponse struct {
 
 func (x *ListSessionsResponse) Reset() {
 	*x = ListSessionsResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2658,7 +2765,7 @@ func (x *ListSessionsResponse) String() string {
 func (*ListSessionsResponse) ProtoMessage() {}
 
 func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[35]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2671,7 +2778,7 @@ func (x *ListSessionsResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListSessionsResponse.ProtoReflect.Descriptor instead.
 func (*ListSessionsResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{35}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{37}
 }
 
 func (x *ListSessionsResponse) GetSessions() []*Session {
@@ -2693,7 +2800,7 @@ type SetBenchesRequest struct {
 
 func (x *SetBenchesRequest) Reset() {
 	*x = SetBenchesRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2705,7 +2812,7 @@ func (x *SetBenchesRequest) String() string {
 func (*SetBenchesRequest) ProtoMessage() {}
 
 func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[36]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2718,7 +2825,7 @@ func (x *SetBenchesRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesRequest.ProtoReflect.Descriptor instead.
 func (*SetBenchesRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{36}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{38}
 }
 
 func (x *SetBenchesRequest) GetSessionId() uint64 {
@@ -2745,7 +2852,7 @@ type SetBenchesResponse struct {
 
 func (x *SetBenchesResponse) Reset() {
 	*x = SetBenchesResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2757,7 +2864,7 @@ func (x *SetBenchesResponse) String() string {
 func (*SetBenchesResponse) ProtoMessage() {}
 
 func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[37]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2770,7 +2877,7 @@ func (x *SetBenchesResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetBenchesResponse.ProtoReflect.Descriptor instead.
 func (*SetBenchesResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{37}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{39}
 }
 
 func (x *SetBenchesResponse) GetBenches() []*Bench {
@@ -2789,7 +2896,7 @@ type WatchRoomRequest struct {
 
 func (x *WatchRoomRequest) Reset() {
 	*x = WatchRoomRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2801,7 +2908,7 @@ func (x *WatchRoomRequest) String() string {
 func (*WatchRoomRequest) ProtoMessage() {}
 
 func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[38]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2814,7 +2921,7 @@ func (x *WatchRoomRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomRequest.ProtoReflect.Descriptor instead.
 func (*WatchRoomRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{38}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{40}
 }
 
 func (x *WatchRoomRequest) GetSessionId() uint64 {
@@ -2842,7 +2949,7 @@ type WatchRoomResponse struct {
 
 func (x *WatchRoomResponse) Reset() {
 	*x = WatchRoomResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2854,7 +2961,7 @@ func (x *WatchRoomResponse) String() string {
 func (*WatchRoomResponse) ProtoMessage() {}
 
 func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[39]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2867,7 +2974,7 @@ func (x *WatchRoomResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WatchRoomResponse.ProtoReflect.Descriptor instead.
 func (*WatchRoomResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{39}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{41}
 }
 
 func (x *WatchRoomResponse) GetSequence() uint64 {
@@ -2943,7 +3050,7 @@ type GetBenchDetailRequest struct {
 
 func (x *GetBenchDetailRequest) Reset() {
 	*x = GetBenchDetailRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -2955,7 +3062,7 @@ func (x *GetBenchDetailRequest) String() string {
 func (*GetBenchDetailRequest) ProtoMessage() {}
 
 func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[40]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -2968,7 +3075,7 @@ func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{40}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{42}
 }
 
 func (x *GetBenchDetailRequest) GetSessionId() uint64 {
@@ -2994,7 +3101,7 @@ type GetBenchDetailResponse struct {
 
 func (x *GetBenchDetailResponse) Reset() {
 	*x = GetBenchDetailResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3006,7 +3113,7 @@ func (x *GetBenchDetailResponse) String() string {
 func (*GetBenchDetailResponse) ProtoMessage() {}
 
 func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[41]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3019,7 +3126,7 @@ func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{41}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{43}
 }
 
 func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
@@ -3040,7 +3147,7 @@ type SetGradingPolicyRequest struct {
 
 func (x *SetGradingPolicyRequest) Reset() {
 	*x = SetGradingPolicyRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3052,7 +3159,7 @@ func (x *SetGradingPolicyRequest) String() string {
 func (*SetGradingPolicyRequest) ProtoMessage() {}
 
 func (x *SetGradingPolicyRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3065,7 +3172,7 @@ func (x *SetGradingPolicyRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGradingPolicyRequest.ProtoReflect.Descriptor instead.
 func (*SetGradingPolicyRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{42}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{44}
 }
 
 func (x *SetGradingPolicyRequest) GetSessionId() uint64 {
@@ -3091,7 +3198,7 @@ type SetGradingPolicyResponse struct {
 
 func (x *SetGradingPolicyResponse) Reset() {
 	*x = SetGradingPolicyResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3103,7 +3210,7 @@ func (x *SetGradingPolicyResponse) String() string {
 func (*SetGradingPolicyResponse) ProtoMessage() {}
 
 func (x *SetGradingPolicyResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3116,7 +3223,7 @@ func (x *SetGradingPolicyResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGradingPolicyResponse.ProtoReflect.Descriptor instead.
 func (*SetGradingPolicyResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{43}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{45}
 }
 
 func (x *SetGradingPolicyResponse) GetSession() *Session {
@@ -3139,7 +3246,7 @@ type OverrideGradeRequest struct {
 
 func (x *OverrideGradeRequest) Reset() {
 	*x = OverrideGradeRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3151,7 +3258,7 @@ func (x *OverrideGradeRequest) String() string {
 func (*OverrideGradeRequest) ProtoMessage() {}
 
 func (x *OverrideGradeRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3164,7 +3271,7 @@ func (x *OverrideGradeRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use OverrideGradeRequest.ProtoReflect.Descriptor instead.
 func (*OverrideGradeRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{44}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{46}
 }
 
 func (x *OverrideGradeRequest) GetSessionId() uint64 {
@@ -3211,7 +3318,7 @@ type OverrideGradeResponse struct {
 
 func (x *OverrideGradeResponse) Reset() {
 	*x = OverrideGradeResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3223,7 +3330,7 @@ func (x *OverrideGradeResponse) String() string {
 func (*OverrideGradeResponse) ProtoMessage() {}
 
 func (x *OverrideGradeResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3236,7 +3343,7 @@ func (x *OverrideGradeResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use OverrideGradeResponse.ProtoReflect.Descriptor instead.
 func (*OverrideGradeResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{45}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{47}
 }
 
 func (x *OverrideGradeResponse) GetNote() *Note {
@@ -3256,7 +3363,7 @@ type ExportRequest struct {
 
 func (x *ExportRequest) Reset() {
 	*x = ExportRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3268,7 +3375,7 @@ func (x *ExportRequest) String() string {
 func (*ExportRequest) ProtoMessage() {}
 
 func (x *ExportRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3281,7 +3388,7 @@ func (x *ExportRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportRequest.ProtoReflect.Descriptor instead.
 func (*ExportRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{46}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{48}
 }
 
 func (x *ExportRequest) GetSessionId() uint64 {
@@ -3309,7 +3416,7 @@ type ExportResponse struct {
 
 func (x *ExportResponse) Reset() {
 	*x = ExportResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3321,7 +3428,7 @@ func (x *ExportResponse) String() string {
 func (*ExportResponse) ProtoMessage() {}
 
 func (x *ExportResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3334,7 +3441,7 @@ func (x *ExportResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportResponse.ProtoReflect.Descriptor instead.
 func (*ExportResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{47}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{49}
 }
 
 func (x *ExportResponse) GetFilename() string {
@@ -3366,7 +3473,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xb0\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xc8\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -3376,7 +3483,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"created_at\x18\x04 \x01(\v2\x1a.google.protobuf.TimestampR\tcreatedAt\x124\n" +
 	"\ttolerance\x18\x05 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
 	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
-	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\"\x95\x01\n" +
+	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\x12\x16\n" +
+	"\x06closed\x18\b \x01(\bR\x06closed\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
@@ -3518,11 +3626,17 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tjoin_code\x18\x01 \x01(\tR\bjoinCode\x12\x1f\n" +
 	"\vbench_label\x18\x02 \x01(\tR\n" +
 	"benchLabel\x12#\n" +
-	"\rgroup_members\x18\x03 \x01(\tR\fgroupMembers\"\\\n" +
+	"\rgroup_members\x18\x03 \x01(\tR\fgroupMembers\"\x81\x01\n" +
 	"\x11JoinBenchResponse\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12(\n" +
-	"\x05bench\x18\x02 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\"\xa8\x02\n" +
+	"\x05bench\x18\x02 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12#\n" +
+	"\rstation_token\x18\x03 \x01(\tR\fstationToken\"4\n" +
+	"\x13CloseSessionRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\"F\n" +
+	"\x14CloseSessionResponse\x12.\n" +
+	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\"\xa8\x02\n" +
 	"\x14SubmitReadingRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
@@ -3655,7 +3769,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 51)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 53)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
@@ -3679,53 +3793,55 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*RoomSnapshot)(nil),             // 19: fluxroom.v1.RoomSnapshot
 	(*JoinBenchRequest)(nil),         // 20: fluxroom.v1.JoinBenchRequest
 	(*JoinBenchResponse)(nil),        // 21: fluxroom.v1.JoinBenchResponse
-	(*SubmitReadingRequest)(nil),     // 22: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),    // 23: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),     // 24: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),    // 25: fluxroom.v1.GetBenchStateResponse
-	(*ListExperimentsRequest)(nil),   // 26: fluxroom.v1.ListExperimentsRequest
-	(*ListExperimentsResponse)(nil),  // 27: fluxroom.v1.ListExperimentsResponse
-	(*UpdateSessionRequest)(nil),     // 28: fluxroom.v1.UpdateSessionRequest
-	(*UpdateSessionResponse)(nil),    // 29: fluxroom.v1.UpdateSessionResponse
-	(*AddNoteRequest)(nil),           // 30: fluxroom.v1.AddNoteRequest
-	(*AddNoteResponse)(nil),          // 31: fluxroom.v1.AddNoteResponse
-	(*AcknowledgeAlertRequest)(nil),  // 32: fluxroom.v1.AcknowledgeAlertRequest
-	(*AcknowledgeAlertResponse)(nil), // 33: fluxroom.v1.AcknowledgeAlertResponse
-	(*CreateSessionRequest)(nil),     // 34: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),    // 35: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),      // 36: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),     // 37: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),        // 38: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),       // 39: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),         // 40: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),        // 41: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),    // 42: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil),   // 43: fluxroom.v1.GetBenchDetailResponse
-	(*SetGradingPolicyRequest)(nil),  // 44: fluxroom.v1.SetGradingPolicyRequest
-	(*SetGradingPolicyResponse)(nil), // 45: fluxroom.v1.SetGradingPolicyResponse
-	(*OverrideGradeRequest)(nil),     // 46: fluxroom.v1.OverrideGradeRequest
-	(*OverrideGradeResponse)(nil),    // 47: fluxroom.v1.OverrideGradeResponse
-	(*ExportRequest)(nil),            // 48: fluxroom.v1.ExportRequest
-	(*ExportResponse)(nil),           // 49: fluxroom.v1.ExportResponse
-	nil,                              // 50: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 51: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 52: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 53: google.protobuf.Timestamp
+	(*CloseSessionRequest)(nil),      // 22: fluxroom.v1.CloseSessionRequest
+	(*CloseSessionResponse)(nil),     // 23: fluxroom.v1.CloseSessionResponse
+	(*SubmitReadingRequest)(nil),     // 24: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),    // 25: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),     // 26: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),    // 27: fluxroom.v1.GetBenchStateResponse
+	(*ListExperimentsRequest)(nil),   // 28: fluxroom.v1.ListExperimentsRequest
+	(*ListExperimentsResponse)(nil),  // 29: fluxroom.v1.ListExperimentsResponse
+	(*UpdateSessionRequest)(nil),     // 30: fluxroom.v1.UpdateSessionRequest
+	(*UpdateSessionResponse)(nil),    // 31: fluxroom.v1.UpdateSessionResponse
+	(*AddNoteRequest)(nil),           // 32: fluxroom.v1.AddNoteRequest
+	(*AddNoteResponse)(nil),          // 33: fluxroom.v1.AddNoteResponse
+	(*AcknowledgeAlertRequest)(nil),  // 34: fluxroom.v1.AcknowledgeAlertRequest
+	(*AcknowledgeAlertResponse)(nil), // 35: fluxroom.v1.AcknowledgeAlertResponse
+	(*CreateSessionRequest)(nil),     // 36: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),    // 37: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),      // 38: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),     // 39: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),        // 40: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),       // 41: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),         // 42: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),        // 43: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),    // 44: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 45: fluxroom.v1.GetBenchDetailResponse
+	(*SetGradingPolicyRequest)(nil),  // 46: fluxroom.v1.SetGradingPolicyRequest
+	(*SetGradingPolicyResponse)(nil), // 47: fluxroom.v1.SetGradingPolicyResponse
+	(*OverrideGradeRequest)(nil),     // 48: fluxroom.v1.OverrideGradeRequest
+	(*OverrideGradeResponse)(nil),    // 49: fluxroom.v1.OverrideGradeResponse
+	(*ExportRequest)(nil),            // 50: fluxroom.v1.ExportRequest
+	(*ExportResponse)(nil),           // 51: fluxroom.v1.ExportResponse
+	nil,                              // 52: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 53: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 55: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	53, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	55, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
 	4,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
 	5,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
 	5,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	53, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	50, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	51, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	53, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	55, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	52, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	53, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	55, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
 	12, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
 	10, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	53, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	55, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
 	2,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
 	2,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
 	11, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
@@ -3743,36 +3859,37 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	15, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
 	12, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	52, // 30: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	9,  // 31: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	15, // 32: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	6,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	4,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	7,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	4,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	3,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	8,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	8,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	19, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	15, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	13, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	16, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	3,  // 49: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 50: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
-	1,  // 51: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	2,  // 52: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 53: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	55, // [55:55] is the sub-list for method output_type
-	55, // [55:55] is the sub-list for method input_type
-	55, // [55:55] is the sub-list for extension type_name
-	55, // [55:55] is the sub-list for extension extendee
-	0,  // [0:55] is the sub-list for field type_name
+	3,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
+	54, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	15, // 33: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
+	15, // 34: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	9,  // 35: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	6,  // 36: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	4,  // 37: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 38: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 39: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	7,  // 40: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	4,  // 41: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 42: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	3,  // 43: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	8,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	8,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	19, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	15, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	13, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	16, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	3,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	1,  // 52: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
+	2,  // 53: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 54: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 55: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	56, // [56:56] is the sub-list for method output_type
+	56, // [56:56] is the sub-list for method input_type
+	56, // [56:56] is the sub-list for extension type_name
+	56, // [56:56] is the sub-list for extension extendee
+	0,  // [0:56] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -3780,7 +3897,7 @@ func file_fluxroom_v1_messages_proto_init() {
 	if File_fluxroom_v1_messages_proto != nil {
 		return
 	}
-	file_fluxroom_v1_messages_proto_msgTypes[39].OneofWrappers = []any{
+	file_fluxroom_v1_messages_proto_msgTypes[41].OneofWrappers = []any{
 		(*WatchRoomResponse_Snapshot)(nil),
 		(*WatchRoomResponse_Bench)(nil),
 		(*WatchRoomResponse_Findings)(nil),
@@ -3791,7 +3908,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      2,
-			NumMessages:   51,
+			NumMessages:   53,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -95,6 +95,7 @@ type Session struct {
 	Tolerance           *Tolerance             `protobuf:"bytes,5,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	StationsSeeVerdicts bool                   `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
 	GradingPolicyJson   string                 `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
+	Closed              bool                   `protobuf:"varint,8,opt,name=closed,proto3" json:"closed,omitempty"`
 	unknownFields       protoimpl.UnknownFields
 	sizeCache           protoimpl.SizeCache
 }
@@ -176,6 +177,13 @@ func (x *Session) GetGradingPolicyJson() string {
 		return x.GradingPolicyJson
 	}
 	return ""
+}
+
+func (x *Session) GetClosed() bool {
+	if x != nil {
+		return x.Closed
+	}
+	return false
 }
 
 type Tolerance struct {
@@ -516,7 +524,7 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xa8\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xc0\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -525,7 +533,8 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\x11created_unix_nano\x18\x04 \x01(\x03R\x0fcreatedUnixNano\x12;\n" +
 	"\ttolerance\x18\x05 \x01(\v2\x1d.fluxroom.record.v1.ToleranceR\ttolerance\x122\n" +
 	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
-	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\"\x95\x01\n" +
+	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\x12\x16\n" +
+	"\x06closed\x18\b \x01(\bR\x06closed\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +

@@ -35,7 +35,7 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\tJoinBench\x12\x1d.fluxroom.v1.JoinBenchRequest\x1a\x1e.fluxroom.v1.JoinBenchResponse\x12V\n" +
 	"\rSubmitReading\x12!.fluxroom.v1.SubmitReadingRequest\x1a\".fluxroom.v1.SubmitReadingResponse\x12V\n" +
 	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse\x12\\\n" +
-	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xb3\a\n" +
+	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\x88\b\n" +
 	"\x11InstructorService\x12V\n" +
 	"\rCreateSession\x12!.fluxroom.v1.CreateSessionRequest\x1a\".fluxroom.v1.CreateSessionResponse\x12S\n" +
 	"\fListSessions\x12 .fluxroom.v1.ListSessionsRequest\x1a!.fluxroom.v1.ListSessionsResponse\x12M\n" +
@@ -43,7 +43,8 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"SetBenches\x12\x1e.fluxroom.v1.SetBenchesRequest\x1a\x1f.fluxroom.v1.SetBenchesResponse\x12L\n" +
 	"\tWatchRoom\x12\x1d.fluxroom.v1.WatchRoomRequest\x1a\x1e.fluxroom.v1.WatchRoomResponse0\x01\x12Y\n" +
 	"\x0eGetBenchDetail\x12\".fluxroom.v1.GetBenchDetailRequest\x1a#.fluxroom.v1.GetBenchDetailResponse\x12V\n" +
-	"\rUpdateSession\x12!.fluxroom.v1.UpdateSessionRequest\x1a\".fluxroom.v1.UpdateSessionResponse\x12D\n" +
+	"\rUpdateSession\x12!.fluxroom.v1.UpdateSessionRequest\x1a\".fluxroom.v1.UpdateSessionResponse\x12S\n" +
+	"\fCloseSession\x12 .fluxroom.v1.CloseSessionRequest\x1a!.fluxroom.v1.CloseSessionResponse\x12D\n" +
 	"\aAddNote\x12\x1b.fluxroom.v1.AddNoteRequest\x1a\x1c.fluxroom.v1.AddNoteResponse\x12_\n" +
 	"\x10AcknowledgeAlert\x12$.fluxroom.v1.AcknowledgeAlertRequest\x1a%.fluxroom.v1.AcknowledgeAlertResponse\x12_\n" +
 	"\x10SetGradingPolicy\x12$.fluxroom.v1.SetGradingPolicyRequest\x1a%.fluxroom.v1.SetGradingPolicyResponse\x12V\n" +
@@ -61,26 +62,28 @@ var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.WatchRoomRequest)(nil),         // 7: fluxroom.v1.WatchRoomRequest
 	(*fluxroompb.GetBenchDetailRequest)(nil),    // 8: fluxroom.v1.GetBenchDetailRequest
 	(*fluxroompb.UpdateSessionRequest)(nil),     // 9: fluxroom.v1.UpdateSessionRequest
-	(*fluxroompb.AddNoteRequest)(nil),           // 10: fluxroom.v1.AddNoteRequest
-	(*fluxroompb.AcknowledgeAlertRequest)(nil),  // 11: fluxroom.v1.AcknowledgeAlertRequest
-	(*fluxroompb.SetGradingPolicyRequest)(nil),  // 12: fluxroom.v1.SetGradingPolicyRequest
-	(*fluxroompb.OverrideGradeRequest)(nil),     // 13: fluxroom.v1.OverrideGradeRequest
-	(*fluxroompb.ExportRequest)(nil),            // 14: fluxroom.v1.ExportRequest
-	(*fluxroompb.JoinBenchResponse)(nil),        // 15: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),    // 16: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),    // 17: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.ListExperimentsResponse)(nil),  // 18: fluxroom.v1.ListExperimentsResponse
-	(*fluxroompb.CreateSessionResponse)(nil),    // 19: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),     // 20: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),       // 21: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),        // 22: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil),   // 23: fluxroom.v1.GetBenchDetailResponse
-	(*fluxroompb.UpdateSessionResponse)(nil),    // 24: fluxroom.v1.UpdateSessionResponse
-	(*fluxroompb.AddNoteResponse)(nil),          // 25: fluxroom.v1.AddNoteResponse
-	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 26: fluxroom.v1.AcknowledgeAlertResponse
-	(*fluxroompb.SetGradingPolicyResponse)(nil), // 27: fluxroom.v1.SetGradingPolicyResponse
-	(*fluxroompb.OverrideGradeResponse)(nil),    // 28: fluxroom.v1.OverrideGradeResponse
-	(*fluxroompb.ExportResponse)(nil),           // 29: fluxroom.v1.ExportResponse
+	(*fluxroompb.CloseSessionRequest)(nil),      // 10: fluxroom.v1.CloseSessionRequest
+	(*fluxroompb.AddNoteRequest)(nil),           // 11: fluxroom.v1.AddNoteRequest
+	(*fluxroompb.AcknowledgeAlertRequest)(nil),  // 12: fluxroom.v1.AcknowledgeAlertRequest
+	(*fluxroompb.SetGradingPolicyRequest)(nil),  // 13: fluxroom.v1.SetGradingPolicyRequest
+	(*fluxroompb.OverrideGradeRequest)(nil),     // 14: fluxroom.v1.OverrideGradeRequest
+	(*fluxroompb.ExportRequest)(nil),            // 15: fluxroom.v1.ExportRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 16: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 17: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 18: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 19: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 20: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 21: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 22: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 23: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 24: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 25: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.CloseSessionResponse)(nil),     // 26: fluxroom.v1.CloseSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 27: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 28: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyResponse)(nil), // 29: fluxroom.v1.SetGradingPolicyResponse
+	(*fluxroompb.OverrideGradeResponse)(nil),    // 30: fluxroom.v1.OverrideGradeResponse
+	(*fluxroompb.ExportResponse)(nil),           // 31: fluxroom.v1.ExportResponse
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
@@ -93,28 +96,30 @@ var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	7,  // 7: fluxroom.v1.InstructorService.WatchRoom:input_type -> fluxroom.v1.WatchRoomRequest
 	8,  // 8: fluxroom.v1.InstructorService.GetBenchDetail:input_type -> fluxroom.v1.GetBenchDetailRequest
 	9,  // 9: fluxroom.v1.InstructorService.UpdateSession:input_type -> fluxroom.v1.UpdateSessionRequest
-	10, // 10: fluxroom.v1.InstructorService.AddNote:input_type -> fluxroom.v1.AddNoteRequest
-	11, // 11: fluxroom.v1.InstructorService.AcknowledgeAlert:input_type -> fluxroom.v1.AcknowledgeAlertRequest
-	12, // 12: fluxroom.v1.InstructorService.SetGradingPolicy:input_type -> fluxroom.v1.SetGradingPolicyRequest
-	13, // 13: fluxroom.v1.InstructorService.OverrideGrade:input_type -> fluxroom.v1.OverrideGradeRequest
-	14, // 14: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
-	15, // 15: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	16, // 16: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	17, // 17: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	18, // 18: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
-	19, // 19: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	20, // 20: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	21, // 21: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	22, // 22: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	23, // 23: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	24, // 24: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
-	25, // 25: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
-	26, // 26: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
-	27, // 27: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
-	28, // 28: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
-	29, // 29: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
-	15, // [15:30] is the sub-list for method output_type
-	0,  // [0:15] is the sub-list for method input_type
+	10, // 10: fluxroom.v1.InstructorService.CloseSession:input_type -> fluxroom.v1.CloseSessionRequest
+	11, // 11: fluxroom.v1.InstructorService.AddNote:input_type -> fluxroom.v1.AddNoteRequest
+	12, // 12: fluxroom.v1.InstructorService.AcknowledgeAlert:input_type -> fluxroom.v1.AcknowledgeAlertRequest
+	13, // 13: fluxroom.v1.InstructorService.SetGradingPolicy:input_type -> fluxroom.v1.SetGradingPolicyRequest
+	14, // 14: fluxroom.v1.InstructorService.OverrideGrade:input_type -> fluxroom.v1.OverrideGradeRequest
+	15, // 15: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
+	16, // 16: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	17, // 17: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	18, // 18: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	19, // 19: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	20, // 20: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	21, // 21: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	22, // 22: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	23, // 23: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	24, // 24: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	25, // 25: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	26, // 26: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
+	27, // 27: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	28, // 28: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	29, // 29: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
+	30, // 30: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
+	31, // 31: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
+	16, // [16:32] is the sub-list for method output_type
+	0,  // [0:16] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name

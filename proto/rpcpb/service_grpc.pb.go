@@ -35,7 +35,9 @@ const (
 //
 // For semantics around ctx use and closing/ending streaming RPCs, please refer to https://pkg.go.dev/google.golang.org/grpc/?tab=doc#ClientConn.NewStream.
 //
-// StationService is used by the laptop at a bench.
+// StationService is used by the laptop at a bench. JoinBench and
+// ListExperiments need no credential; the others take the station token
+// JoinBench returns (or the instructor key).
 type StationServiceClient interface {
 	// JoinBench exchanges the session's join code and a bench label for the
 	// bench's identity.
@@ -101,7 +103,9 @@ func (c *stationServiceClient) ListExperiments(ctx context.Context, in *fluxroom
 // All implementations must embed UnimplementedStationServiceServer
 // for forward compatibility.
 //
-// StationService is used by the laptop at a bench.
+// StationService is used by the laptop at a bench. JoinBench and
+// ListExperiments need no credential; the others take the station token
+// JoinBench returns (or the instructor key).
 type StationServiceServer interface {
 	// JoinBench exchanges the session's join code and a bench label for the
 	// bench's identity.
@@ -263,6 +267,7 @@ const (
 	InstructorService_WatchRoom_FullMethodName        = "/fluxroom.v1.InstructorService/WatchRoom"
 	InstructorService_GetBenchDetail_FullMethodName   = "/fluxroom.v1.InstructorService/GetBenchDetail"
 	InstructorService_UpdateSession_FullMethodName    = "/fluxroom.v1.InstructorService/UpdateSession"
+	InstructorService_CloseSession_FullMethodName     = "/fluxroom.v1.InstructorService/CloseSession"
 	InstructorService_AddNote_FullMethodName          = "/fluxroom.v1.InstructorService/AddNote"
 	InstructorService_AcknowledgeAlert_FullMethodName = "/fluxroom.v1.InstructorService/AcknowledgeAlert"
 	InstructorService_SetGradingPolicy_FullMethodName = "/fluxroom.v1.InstructorService/SetGradingPolicy"
@@ -274,7 +279,8 @@ const (
 //
 // For semantics around ctx use and closing/ending streaming RPCs, please refer to https://pkg.go.dev/google.golang.org/grpc/?tab=doc#ClientConn.NewStream.
 //
-// InstructorService is used by the instructor's dashboard.
+// InstructorService is used by the instructor's dashboard; every call needs
+// the instructor key as "authorization: Bearer <key>".
 type InstructorServiceClient interface {
 	CreateSession(ctx context.Context, in *fluxroompb.CreateSessionRequest, opts ...grpc.CallOption) (*fluxroompb.CreateSessionResponse, error)
 	ListSessions(ctx context.Context, in *fluxroompb.ListSessionsRequest, opts ...grpc.CallOption) (*fluxroompb.ListSessionsResponse, error)
@@ -283,6 +289,9 @@ type InstructorServiceClient interface {
 	WatchRoom(ctx context.Context, in *fluxroompb.WatchRoomRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[fluxroompb.WatchRoomResponse], error)
 	GetBenchDetail(ctx context.Context, in *fluxroompb.GetBenchDetailRequest, opts ...grpc.CallOption) (*fluxroompb.GetBenchDetailResponse, error)
 	UpdateSession(ctx context.Context, in *fluxroompb.UpdateSessionRequest, opts ...grpc.CallOption) (*fluxroompb.UpdateSessionResponse, error)
+	// CloseSession ends a session: its join code and station tokens stop
+	// working; its data stays for grading and export.
+	CloseSession(ctx context.Context, in *fluxroompb.CloseSessionRequest, opts ...grpc.CallOption) (*fluxroompb.CloseSessionResponse, error)
 	// AddNote stores a timestamped note on a bench in the audit log.
 	AddNote(ctx context.Context, in *fluxroompb.AddNoteRequest, opts ...grpc.CallOption) (*fluxroompb.AddNoteResponse, error)
 	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
@@ -373,6 +382,16 @@ func (c *instructorServiceClient) UpdateSession(ctx context.Context, in *fluxroo
 	return out, nil
 }
 
+func (c *instructorServiceClient) CloseSession(ctx context.Context, in *fluxroompb.CloseSessionRequest, opts ...grpc.CallOption) (*fluxroompb.CloseSessionResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.CloseSessionResponse)
+	err := c.cc.Invoke(ctx, InstructorService_CloseSession_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 func (c *instructorServiceClient) AddNote(ctx context.Context, in *fluxroompb.AddNoteRequest, opts ...grpc.CallOption) (*fluxroompb.AddNoteResponse, error) {
 	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
 	out := new(fluxroompb.AddNoteResponse)
@@ -427,7 +446,8 @@ func (c *instructorServiceClient) Export(ctx context.Context, in *fluxroompb.Exp
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
 //
-// InstructorService is used by the instructor's dashboard.
+// InstructorService is used by the instructor's dashboard; every call needs
+// the instructor key as "authorization: Bearer <key>".
 type InstructorServiceServer interface {
 	CreateSession(context.Context, *fluxroompb.CreateSessionRequest) (*fluxroompb.CreateSessionResponse, error)
 	ListSessions(context.Context, *fluxroompb.ListSessionsRequest) (*fluxroompb.ListSessionsResponse, error)
@@ -436,6 +456,9 @@ type InstructorServiceServer interface {
 	WatchRoom(*fluxroompb.WatchRoomRequest, grpc.ServerStreamingServer[fluxroompb.WatchRoomResponse]) error
 	GetBenchDetail(context.Context, *fluxroompb.GetBenchDetailRequest) (*fluxroompb.GetBenchDetailResponse, error)
 	UpdateSession(context.Context, *fluxroompb.UpdateSessionRequest) (*fluxroompb.UpdateSessionResponse, error)
+	// CloseSession ends a session: its join code and station tokens stop
+	// working; its data stays for grading and export.
+	CloseSession(context.Context, *fluxroompb.CloseSessionRequest) (*fluxroompb.CloseSessionResponse, error)
 	// AddNote stores a timestamped note on a bench in the audit log.
 	AddNote(context.Context, *fluxroompb.AddNoteRequest) (*fluxroompb.AddNoteResponse, error)
 	// AcknowledgeAlert records that the instructor has seen a bench's unsafe
@@ -474,6 +497,9 @@ func (UnimplementedInstructorServiceServer) GetBenchDetail(context.Context, *flu
 }
 func (UnimplementedInstructorServiceServer) UpdateSession(context.Context, *fluxroompb.UpdateSessionRequest) (*fluxroompb.UpdateSessionResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method UpdateSession not implemented")
+}
+func (UnimplementedInstructorServiceServer) CloseSession(context.Context, *fluxroompb.CloseSessionRequest) (*fluxroompb.CloseSessionResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method CloseSession not implemented")
 }
 func (UnimplementedInstructorServiceServer) AddNote(context.Context, *fluxroompb.AddNoteRequest) (*fluxroompb.AddNoteResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method AddNote not implemented")
@@ -612,6 +638,24 @@ func _InstructorService_UpdateSession_Handler(srv interface{}, ctx context.Conte
 	return interceptor(ctx, in, info, handler)
 }
 
+func _InstructorService_CloseSession_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.CloseSessionRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).CloseSession(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_CloseSession_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).CloseSession(ctx, req.(*fluxroompb.CloseSessionRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 func _InstructorService_AddNote_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
 	in := new(fluxroompb.AddNoteRequest)
 	if err := dec(in); err != nil {
@@ -728,6 +772,10 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "UpdateSession",
 			Handler:    _InstructorService_UpdateSession_Handler,
+		},
+		{
+			MethodName: "CloseSession",
+			Handler:    _InstructorService_CloseSession_Handler,
 		},
 		{
 			MethodName: "AddNote",

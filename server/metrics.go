@@ -1,0 +1,83 @@
+package server
+
+import (
+	"fmt"
+	"net/http"
+	"sort"
+	"sync"
+	"sync/atomic"
+	"time"
+)
+
+// metrics are the server's counters, served in the Prometheus text format
+// at /metrics [pub: Prometheus exposition formats, text format 0.0.4].
+type metrics struct {
+	readings    atomic.Int64
+	duplicates  atomic.Int64
+	rejected    atomic.Int64
+	rateLimited atomic.Int64
+	started     time.Time
+
+	mu      sync.Mutex
+	latency map[string]*histogram
+}
+
+// latencyBuckets are the upper bounds, in seconds, of the RPC latency
+// histogram.
+var latencyBuckets = []float64{0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.25, 0.5, 1, 5}
+
+type histogram struct {
+	counts []int64 // per bucket, then +Inf
+	sum    float64
+	n      int64
+}
+
+func newMetrics() *metrics { return &metrics{latency: map[string]*histogram{}, started: time.Now()} }
+
+func (m *metrics) observe(method string, d time.Duration) {
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	h := m.latency[method]
+	if h == nil {
+		h = &histogram{counts: make([]int64, len(latencyBuckets)+1)}
+		m.latency[method] = h
+	}
+	s := d.Seconds()
+	i := sort.SearchFloat64s(latencyBuckets, s)
+	h.counts[i]++
+	h.sum += s
+	h.n++
+}
+
+func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
+	m := s.metrics
+	w.Header().Set("Content-Type", "text/plain; version=0.0.4")
+	counter := func(name, help string, v int64) {
+		fmt.Fprintf(w, "# HELP %s %s\n# TYPE %s counter\n%s %d\n", name, help, name, name, v)
+	}
+	counter("fluxroom_readings_stored_total", "Readings stored.", m.readings.Load())
+	counter("fluxroom_readings_duplicate_total", "Submissions of a reading id already stored.", m.duplicates.Load())
+	counter("fluxroom_rejected_inputs_total", "Requests answered InvalidArgument.", m.rejected.Load())
+	counter("fluxroom_rate_limited_total", "Readings refused by a station's rate limit.", m.rateLimited.Load())
+	fmt.Fprintf(w, "# HELP fluxroom_watchers Open room streams.\n# TYPE fluxroom_watchers gauge\nfluxroom_watchers %d\n", s.hub.watcherCount())
+	fmt.Fprintf(w, "# HELP fluxroom_uptime_seconds Seconds since the server started.\n# TYPE fluxroom_uptime_seconds gauge\nfluxroom_uptime_seconds %.0f\n", time.Since(m.started).Seconds())
+	m.mu.Lock()
+	defer m.mu.Unlock()
+	methods := make([]string, 0, len(m.latency))
+	for k := range m.latency {
+		methods = append(methods, k)
+	}
+	sort.Strings(methods)
+	fmt.Fprintf(w, "# HELP fluxroom_rpc_seconds RPC latency.\n# TYPE fluxroom_rpc_seconds histogram\n")
+	for _, meth := range methods {
+		h := m.latency[meth]
+		var cum int64
+		for i, b := range latencyBuckets {
+			cum += h.counts[i]
+			fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"%g\"} %d\n", meth, b, cum)
+		}
+		cum += h.counts[len(latencyBuckets)]
+		fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"+Inf\"} %d\n", meth, cum)
+		fmt.Fprintf(w, "fluxroom_rpc_seconds_sum{method=%q} %g\nfluxroom_rpc_seconds_count{method=%q} %d\n", meth, h.sum, meth, h.n)
+	}
+}
