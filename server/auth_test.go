@@ -83,7 +83,10 @@ func TestAuthorizationMatrix(t *testing.T) {
 			_, err := c.CreateSession(ctx, &pb.CreateSessionRequest{Title: "x"})
 			return err
 		}),
-		in("ListSessions", func(c rpcpb.InstructorServiceClient) error { _, err := c.ListSessions(ctx, &pb.ListSessionsRequest{}); return err }),
+		in("ListSessions", func(c rpcpb.InstructorServiceClient) error {
+			_, err := c.ListSessions(ctx, &pb.ListSessionsRequest{})
+			return err
+		}),
 		in("SetBenches", func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sid})
 			return err
