@@ -56,6 +56,15 @@ type Config struct {
 	// MaxMessageBytes bounds one request; default 64 KiB, far above any
 	// reading.
 	MaxMessageBytes int
+	// FailPoint, when set, is called at each stage of a submission
+	// ("received", "committed", "replying"); an error it returns fails the
+	// call there. Tests use it to show that nothing is acknowledged before
+	// it is committed.
+	FailPoint func(stage string) error
+	// AckBeforeCommit makes SubmitReading reply before its reading is
+	// written. It exists only as the negative control of the durability
+	// test, which must show that it loses readings; never use it.
+	AckBeforeCommit bool
 }
 
 // Server serves the fluxroom API on one listener.
@@ -72,6 +81,8 @@ type Server struct {
 	grpc    *grpc.Server
 	// stallAfter and stallCheck: see Config.
 	stallAfter, stallCheck time.Duration
+	failPoint              func(string) error
+	ackBeforeCommit        bool
 	http                   *http.Server
 	health                 *health.Server
 
@@ -95,6 +106,7 @@ func New(cfg Config) (*Server, error) {
 	// Ten minutes without a reading is long in a lab where a point takes
 	// one or two // common practice.
 	s.stallAfter, s.stallCheck = cfg.StallAfter, cfg.StallCheck
+	s.failPoint, s.ackBeforeCommit = cfg.FailPoint, cfg.AckBeforeCommit
 	if s.stallAfter == 0 {
 		s.stallAfter = 10 * time.Minute
 	}
@@ -220,6 +232,14 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	}
 	s.mu.Unlock()
 	return err
+}
+
+// fail runs the fail point of a submission stage.
+func (s *Server) fail(stage string) error {
+	if s.failPoint == nil {
+		return nil
+	}
+	return s.failPoint(stage)
 }
 
 // ShownKey is the instructor key New made because none was stored or given;

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"sort"
 	"strings"
+	"time"
 	"unicode/utf8"
 
 	"google.golang.org/grpc/codes"
@@ -92,8 +93,24 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		return nil, status.Error(codes.FailedPrecondition, "the session is closed; it takes no more readings")
 	}
 	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now(), Supersedes: req.GetSupersedes()}
+	if err := st.s.fail("received"); err != nil {
+		return nil, err
+	}
+	if st.s.ackBeforeCommit {
+		// The negative control: acknowledge now, write later.
+		go func() {
+			time.Sleep(50 * time.Millisecond)
+			st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
+		}()
+		return &pb.SubmitReadingResponse{Reading: readingToPB(r)}, nil
+	}
+	// AppendReading returns once bbolt has committed the transaction, which
+	// fsyncs the file: only then is the reading acknowledged.
 	stored, dup, err := st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
 	if err != nil {
+		return nil, err
+	}
+	if err := st.s.fail("committed"); err != nil {
 		return nil, err
 	}
 	if dup {
@@ -103,6 +120,9 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	}
 	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
+		return nil, err
+	}
+	if err := st.s.fail("replying"); err != nil {
 		return nil, err
 	}
 	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), State: state, Duplicate: dup}, nil

@@ -156,7 +156,10 @@ type running struct {
 
 // serverOptions are what start needs beyond the database and address.
 type serverOptions struct {
-	instructorKey string
+	instructorKey   string
+	ackBeforeCommit bool
+	stationRate     float64
+	stationBurst    int
 }
 
 // start opens the database and serves on addr until ctx ends or stop runs.
@@ -173,7 +176,8 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		db.Close()
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
-	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey})
+	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey,
+		AckBeforeCommit: opts.ackBeforeCommit, StationRate: opts.stationRate, StationBurst: opts.stationBurst})
 	if err != nil {
 		db.Close()
 		return nil, err
@@ -220,6 +224,9 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	level := fs.String("log-level", "info", "log level: debug, info, warn or error")
 	key := fs.String("instructor-key", "", "the instructor's credential (default: the one stored, or a new one shown once)")
 	keyFile := fs.String("instructor-key-file", "", "read the instructor key from this file")
+	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
+	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
+	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -237,7 +244,11 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if *key != "" && len(*key) < 16 {
 		return usageError{"--instructor-key must be at least 16 characters"}
 	}
-	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key})
+	if *ackEarly {
+		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
+	}
+	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, ackBeforeCommit: *ackEarly,
+		stationRate: *stRate, stationBurst: *stBurst})
 	if err != nil {
 		return err
 	}
