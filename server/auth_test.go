@@ -123,6 +123,18 @@ func TestAuthorizationMatrix(t *testing.T) {
 			_, err := c.OverrideGrade(ctx, &pb.OverrideGradeRequest{SessionId: sid, BenchId: own, Points: 1, Reason: "r"})
 			return err
 		}),
+		in("Backup", func(c rpcpb.InstructorServiceClient) error {
+			s, err := c.Backup(ctx, &pb.BackupRequest{})
+			if err != nil {
+				return err
+			}
+			_, err = s.Recv()
+			return err
+		}),
+		in("CloseSession", func(c rpcpb.InstructorServiceClient) error {
+			_, err := c.CloseSession(ctx, &pb.CloseSessionRequest{SessionId: 999})
+			return err
+		}),
 		in("Export", func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.Export(ctx, &pb.ExportRequest{SessionId: sid, Format: pb.ExportFormat_EXPORT_FORMAT_JSON})
 			return err

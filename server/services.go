@@ -1,6 +1,7 @@
 package server
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"crypto/rand"
@@ -443,6 +444,37 @@ func (in instructorService) Export(ctx context.Context, req *pb.ExportRequest) (
 		return nil, err
 	}
 	return &pb.ExportResponse{Filename: name, ContentType: ctype, Content: buf.Bytes()}, nil
+}
+
+// chunkWriter sends what it is given as BackupChunks.
+type chunkWriter struct {
+	stream rpcpb.InstructorService_BackupServer
+	total  int64
+	first  bool
+}
+
+func (c *chunkWriter) Write(p []byte) (int, error) {
+	const max = 256 << 10
+	for off := 0; off < len(p); off += max {
+		end := min(off+max, len(p))
+		ch := &pb.BackupChunk{Data: p[off:end]}
+		if c.first {
+			ch.TotalBytes, c.first = c.total, false
+		}
+		if err := c.stream.Send(ch); err != nil {
+			return off, err
+		}
+	}
+	return len(p), nil
+}
+
+func (in instructorService) Backup(req *pb.BackupRequest, stream rpcpb.InstructorService_BackupServer) error {
+	w := &chunkWriter{stream: stream, total: in.s.db.Size(), first: true}
+	bw := bufio.NewWriterSize(w, 256<<10)
+	if _, err := in.s.db.Backup(bw); err != nil {
+		return err
+	}
+	return bw.Flush()
 }
 
 // prefixFields puts prefix before every field of a validation error.

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"time"
 
 	"go.etcd.io/bbolt"
@@ -102,6 +103,28 @@ func (db *DB) SetInstructorKeyHash(hash []byte) error {
 		return fmt.Errorf("store: set instructor key: %w", err)
 	}
 	return nil
+}
+
+// Backup writes a consistent copy of the whole file to w from one read
+// transaction, while writers go on. It returns the copy's size.
+func (db *DB) Backup(w io.Writer) (int64, error) {
+	var n int64
+	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		var err error
+		n, err = tx.WriteTo(w)
+		return err
+	})
+	if err != nil {
+		return n, fmt.Errorf("store: backup: %w", err)
+	}
+	return n, nil
+}
+
+// Size is the size of a consistent copy, for progress reports.
+func (db *DB) Size() int64 {
+	var n int64
+	db.bolt.View(func(tx *bbolt.Tx) error { n = tx.Size(); return nil })
+	return n
 }
 
 // Close closes the file.

@@ -64,6 +64,8 @@ Commands:
   submit  send a readings CSV to a live session: fluxroom submit --server HOST:PORT --code CODE --bench LABEL FILE.csv
   export  write a session's gradebook, readings, JSON or report: fluxroom export --db FILE --session N --format csv|readings|json|html --out FILE
   catalogue list every diagnosis code with its cause and suggested action
+  backup  copy the database while serving: fluxroom backup --server HOST:PORT --instructor-key KEY --out FILE (or --db FILE)
+  restore put a checked backup in place (server stopped): fluxroom restore --from FILE --db FILE
   version print the version
   help    show this text
 
@@ -91,6 +93,10 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.catalogueCmd(ctx, args[1:])
 	case "export":
 		return m.exportCmd(ctx, args[1:])
+	case "backup":
+		return m.backupCmd(ctx, args[1:])
+	case "restore":
+		return m.restoreCmd(ctx, args[1:])
 	case "version":
 		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":

@@ -3465,6 +3465,96 @@ func (x *ExportResponse) GetContent() []byte {
 	return nil
 }
 
+type BackupRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *BackupRequest) Reset() {
+	*x = BackupRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *BackupRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*BackupRequest) ProtoMessage() {}
+
+func (x *BackupRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use BackupRequest.ProtoReflect.Descriptor instead.
+func (*BackupRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{50}
+}
+
+// BackupChunk is a piece of a consistent copy of the database file.
+type BackupChunk struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Data  []byte                 `protobuf:"bytes,1,opt,name=data,proto3" json:"data,omitempty"`
+	// Set on the first chunk: the size of the whole copy.
+	TotalBytes    int64 `protobuf:"varint,2,opt,name=total_bytes,json=totalBytes,proto3" json:"total_bytes,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *BackupChunk) Reset() {
+	*x = BackupChunk{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *BackupChunk) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*BackupChunk) ProtoMessage() {}
+
+func (x *BackupChunk) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use BackupChunk.ProtoReflect.Descriptor instead.
+func (*BackupChunk) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{51}
+}
+
+func (x *BackupChunk) GetData() []byte {
+	if x != nil {
+		return x.Data
+	}
+	return nil
+}
+
+func (x *BackupChunk) GetTotalBytes() int64 {
+	if x != nil {
+		return x.TotalBytes
+	}
+	return 0
+}
+
 var File_fluxroom_v1_messages_proto protoreflect.FileDescriptor
 
 const file_fluxroom_v1_messages_proto_rawDesc = "" +
@@ -3740,7 +3830,12 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x0eExportResponse\x12\x1a\n" +
 	"\bfilename\x18\x01 \x01(\tR\bfilename\x12!\n" +
 	"\fcontent_type\x18\x02 \x01(\tR\vcontentType\x12\x18\n" +
-	"\acontent\x18\x03 \x01(\fR\acontent*\x9e\x01\n" +
+	"\acontent\x18\x03 \x01(\fR\acontent\"\x0f\n" +
+	"\rBackupRequest\"B\n" +
+	"\vBackupChunk\x12\x12\n" +
+	"\x04data\x18\x01 \x01(\fR\x04data\x12\x1f\n" +
+	"\vtotal_bytes\x18\x02 \x01(\x03R\n" +
+	"totalBytes*\x9e\x01\n" +
 	"\aVerdict\x12\x17\n" +
 	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11VERDICT_NEED_DATA\x10\x01\x12\x16\n" +
@@ -3769,7 +3864,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 53)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 55)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
@@ -3823,25 +3918,27 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*OverrideGradeResponse)(nil),    // 49: fluxroom.v1.OverrideGradeResponse
 	(*ExportRequest)(nil),            // 50: fluxroom.v1.ExportRequest
 	(*ExportResponse)(nil),           // 51: fluxroom.v1.ExportResponse
-	nil,                              // 52: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 53: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 55: google.protobuf.Timestamp
+	(*BackupRequest)(nil),            // 52: fluxroom.v1.BackupRequest
+	(*BackupChunk)(nil),              // 53: fluxroom.v1.BackupChunk
+	nil,                              // 54: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 55: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 56: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 57: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	55, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	57, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
 	4,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
 	5,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
 	5,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	55, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	52, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	53, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	55, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	57, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	54, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	55, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	57, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
 	12, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
 	10, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	55, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	57, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
 	2,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
 	2,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
 	11, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
@@ -3860,7 +3957,7 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	12, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
 	3,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
-	54, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	56, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
 	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
 	15, // 33: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
 	15, // 34: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
@@ -3908,7 +4005,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      2,
-			NumMessages:   53,
+			NumMessages:   55,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -35,7 +35,7 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\tJoinBench\x12\x1d.fluxroom.v1.JoinBenchRequest\x1a\x1e.fluxroom.v1.JoinBenchResponse\x12V\n" +
 	"\rSubmitReading\x12!.fluxroom.v1.SubmitReadingRequest\x1a\".fluxroom.v1.SubmitReadingResponse\x12V\n" +
 	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse\x12\\\n" +
-	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\x88\b\n" +
+	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xca\b\n" +
 	"\x11InstructorService\x12V\n" +
 	"\rCreateSession\x12!.fluxroom.v1.CreateSessionRequest\x1a\".fluxroom.v1.CreateSessionResponse\x12S\n" +
 	"\fListSessions\x12 .fluxroom.v1.ListSessionsRequest\x1a!.fluxroom.v1.ListSessionsResponse\x12M\n" +
@@ -49,7 +49,8 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\x10AcknowledgeAlert\x12$.fluxroom.v1.AcknowledgeAlertRequest\x1a%.fluxroom.v1.AcknowledgeAlertResponse\x12_\n" +
 	"\x10SetGradingPolicy\x12$.fluxroom.v1.SetGradingPolicyRequest\x1a%.fluxroom.v1.SetGradingPolicyResponse\x12V\n" +
 	"\rOverrideGrade\x12!.fluxroom.v1.OverrideGradeRequest\x1a\".fluxroom.v1.OverrideGradeResponse\x12A\n" +
-	"\x06Export\x12\x1a.fluxroom.v1.ExportRequest\x1a\x1b.fluxroom.v1.ExportResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
+	"\x06Export\x12\x1a.fluxroom.v1.ExportRequest\x1a\x1b.fluxroom.v1.ExportResponse\x12@\n" +
+	"\x06Backup\x12\x1a.fluxroom.v1.BackupRequest\x1a\x18.fluxroom.v1.BackupChunk0\x01B(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
 
 var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.JoinBenchRequest)(nil),         // 0: fluxroom.v1.JoinBenchRequest
@@ -68,22 +69,24 @@ var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.SetGradingPolicyRequest)(nil),  // 13: fluxroom.v1.SetGradingPolicyRequest
 	(*fluxroompb.OverrideGradeRequest)(nil),     // 14: fluxroom.v1.OverrideGradeRequest
 	(*fluxroompb.ExportRequest)(nil),            // 15: fluxroom.v1.ExportRequest
-	(*fluxroompb.JoinBenchResponse)(nil),        // 16: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),    // 17: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),    // 18: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.ListExperimentsResponse)(nil),  // 19: fluxroom.v1.ListExperimentsResponse
-	(*fluxroompb.CreateSessionResponse)(nil),    // 20: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),     // 21: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),       // 22: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),        // 23: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil),   // 24: fluxroom.v1.GetBenchDetailResponse
-	(*fluxroompb.UpdateSessionResponse)(nil),    // 25: fluxroom.v1.UpdateSessionResponse
-	(*fluxroompb.CloseSessionResponse)(nil),     // 26: fluxroom.v1.CloseSessionResponse
-	(*fluxroompb.AddNoteResponse)(nil),          // 27: fluxroom.v1.AddNoteResponse
-	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 28: fluxroom.v1.AcknowledgeAlertResponse
-	(*fluxroompb.SetGradingPolicyResponse)(nil), // 29: fluxroom.v1.SetGradingPolicyResponse
-	(*fluxroompb.OverrideGradeResponse)(nil),    // 30: fluxroom.v1.OverrideGradeResponse
-	(*fluxroompb.ExportResponse)(nil),           // 31: fluxroom.v1.ExportResponse
+	(*fluxroompb.BackupRequest)(nil),            // 16: fluxroom.v1.BackupRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 17: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 18: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 19: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 20: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 21: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 22: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 23: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 24: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 25: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 26: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.CloseSessionResponse)(nil),     // 27: fluxroom.v1.CloseSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 28: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 29: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyResponse)(nil), // 30: fluxroom.v1.SetGradingPolicyResponse
+	(*fluxroompb.OverrideGradeResponse)(nil),    // 31: fluxroom.v1.OverrideGradeResponse
+	(*fluxroompb.ExportResponse)(nil),           // 32: fluxroom.v1.ExportResponse
+	(*fluxroompb.BackupChunk)(nil),              // 33: fluxroom.v1.BackupChunk
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
@@ -102,24 +105,26 @@ var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	13, // 13: fluxroom.v1.InstructorService.SetGradingPolicy:input_type -> fluxroom.v1.SetGradingPolicyRequest
 	14, // 14: fluxroom.v1.InstructorService.OverrideGrade:input_type -> fluxroom.v1.OverrideGradeRequest
 	15, // 15: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
-	16, // 16: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	17, // 17: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	18, // 18: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	19, // 19: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
-	20, // 20: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	21, // 21: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	22, // 22: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	23, // 23: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	24, // 24: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	25, // 25: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
-	26, // 26: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
-	27, // 27: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
-	28, // 28: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
-	29, // 29: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
-	30, // 30: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
-	31, // 31: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
-	16, // [16:32] is the sub-list for method output_type
-	0,  // [0:16] is the sub-list for method input_type
+	16, // 16: fluxroom.v1.InstructorService.Backup:input_type -> fluxroom.v1.BackupRequest
+	17, // 17: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	18, // 18: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	19, // 19: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	20, // 20: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	21, // 21: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	22, // 22: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	23, // 23: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	24, // 24: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	25, // 25: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	26, // 26: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	27, // 27: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
+	28, // 28: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	29, // 29: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	30, // 30: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
+	31, // 31: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
+	32, // 32: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
+	33, // 33: fluxroom.v1.InstructorService.Backup:output_type -> fluxroom.v1.BackupChunk
+	17, // [17:34] is the sub-list for method output_type
+	0,  // [0:17] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name

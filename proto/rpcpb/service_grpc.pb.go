@@ -273,6 +273,7 @@ const (
 	InstructorService_SetGradingPolicy_FullMethodName = "/fluxroom.v1.InstructorService/SetGradingPolicy"
 	InstructorService_OverrideGrade_FullMethodName    = "/fluxroom.v1.InstructorService/OverrideGrade"
 	InstructorService_Export_FullMethodName           = "/fluxroom.v1.InstructorService/Export"
+	InstructorService_Backup_FullMethodName           = "/fluxroom.v1.InstructorService/Backup"
 )
 
 // InstructorServiceClient is the client API for InstructorService service.
@@ -303,6 +304,8 @@ type InstructorServiceClient interface {
 	OverrideGrade(ctx context.Context, in *fluxroompb.OverrideGradeRequest, opts ...grpc.CallOption) (*fluxroompb.OverrideGradeResponse, error)
 	// Export returns the session's gradebook, readings, JSON or report.
 	Export(ctx context.Context, in *fluxroompb.ExportRequest, opts ...grpc.CallOption) (*fluxroompb.ExportResponse, error)
+	// Backup streams a consistent copy of the database file while serving.
+	Backup(ctx context.Context, in *fluxroompb.BackupRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[fluxroompb.BackupChunk], error)
 }
 
 type instructorServiceClient struct {
@@ -442,6 +445,25 @@ func (c *instructorServiceClient) Export(ctx context.Context, in *fluxroompb.Exp
 	return out, nil
 }
 
+func (c *instructorServiceClient) Backup(ctx context.Context, in *fluxroompb.BackupRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[fluxroompb.BackupChunk], error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	stream, err := c.cc.NewStream(ctx, &InstructorService_ServiceDesc.Streams[1], InstructorService_Backup_FullMethodName, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	x := &grpc.GenericClientStream[fluxroompb.BackupRequest, fluxroompb.BackupChunk]{ClientStream: stream}
+	if err := x.ClientStream.SendMsg(in); err != nil {
+		return nil, err
+	}
+	if err := x.ClientStream.CloseSend(); err != nil {
+		return nil, err
+	}
+	return x, nil
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type InstructorService_BackupClient = grpc.ServerStreamingClient[fluxroompb.BackupChunk]
+
 // InstructorServiceServer is the server API for InstructorService service.
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
@@ -470,6 +492,8 @@ type InstructorServiceServer interface {
 	OverrideGrade(context.Context, *fluxroompb.OverrideGradeRequest) (*fluxroompb.OverrideGradeResponse, error)
 	// Export returns the session's gradebook, readings, JSON or report.
 	Export(context.Context, *fluxroompb.ExportRequest) (*fluxroompb.ExportResponse, error)
+	// Backup streams a consistent copy of the database file while serving.
+	Backup(*fluxroompb.BackupRequest, grpc.ServerStreamingServer[fluxroompb.BackupChunk]) error
 	mustEmbedUnimplementedInstructorServiceServer()
 }
 
@@ -515,6 +539,9 @@ func (UnimplementedInstructorServiceServer) OverrideGrade(context.Context, *flux
 }
 func (UnimplementedInstructorServiceServer) Export(context.Context, *fluxroompb.ExportRequest) (*fluxroompb.ExportResponse, error) {
 	return nil, status.Error(codes.Unimplemented, "method Export not implemented")
+}
+func (UnimplementedInstructorServiceServer) Backup(*fluxroompb.BackupRequest, grpc.ServerStreamingServer[fluxroompb.BackupChunk]) error {
+	return status.Error(codes.Unimplemented, "method Backup not implemented")
 }
 func (UnimplementedInstructorServiceServer) mustEmbedUnimplementedInstructorServiceServer() {}
 func (UnimplementedInstructorServiceServer) testEmbeddedByValue()                           {}
@@ -746,6 +773,17 @@ func _InstructorService_Export_Handler(srv interface{}, ctx context.Context, dec
 	return interceptor(ctx, in, info, handler)
 }
 
+func _InstructorService_Backup_Handler(srv interface{}, stream grpc.ServerStream) error {
+	m := new(fluxroompb.BackupRequest)
+	if err := stream.RecvMsg(m); err != nil {
+		return err
+	}
+	return srv.(InstructorServiceServer).Backup(m, &grpc.GenericServerStream[fluxroompb.BackupRequest, fluxroompb.BackupChunk]{ServerStream: stream})
+}
+
+// This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
+type InstructorService_BackupServer = grpc.ServerStreamingServer[fluxroompb.BackupChunk]
+
 // InstructorService_ServiceDesc is the grpc.ServiceDesc for InstructorService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -802,6 +840,11 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 		{
 			StreamName:    "WatchRoom",
 			Handler:       _InstructorService_WatchRoom_Handler,
+			ServerStreams: true,
+		},
+		{
+			StreamName:    "Backup",
+			Handler:       _InstructorService_Backup_Handler,
 			ServerStreams: true,
 		},
 	},

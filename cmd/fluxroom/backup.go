@@ -1,0 +1,157 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+
+	"go.etcd.io/bbolt"
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials/insecure"
+
+	"example.com/fluxroom/internal/bearer"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+// backupCmd makes a consistent copy of the database: from a running server
+// over the Backup RPC (hot), or from the file when no server holds it.
+func (m *Main) backupCmd(ctx context.Context, args []string) error {
+	fs := m.newFlags("backup")
+	addr := fs.String("server", "", "a running server, host:port (hot backup)")
+	key := fs.String("instructor-key", "", "the instructor key, for --server")
+	dbPath := fs.String("db", "", "the database file, when no server is running")
+	out := fs.String("out", "", "the backup file to write")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	if *out == "" || (*addr == "") == (*dbPath == "") {
+		return usageError{"backup: give --out and one of --server (with --instructor-key) or --db"}
+	}
+	tmp := *out + ".partial"
+	f, err := os.Create(tmp)
+	if err != nil {
+		return err
+	}
+	var n int64
+	if *addr != "" {
+		n, err = backupFromServer(ctx, *addr, *key, f)
+	} else {
+		var db *store.DB
+		db, err = store.Open(*dbPath, store.Options{})
+		if errors.Is(err, bbolt.ErrTimeout) {
+			err = fmt.Errorf("%s is in use by a running server: use --server for a hot backup", *dbPath)
+		}
+		if err == nil {
+			n, err = db.Backup(f)
+			db.Close()
+		}
+	}
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = checkFile(tmp)
+	}
+	if err != nil {
+		os.Remove(tmp)
+		return fmt.Errorf("backup: %w", err)
+	}
+	if err := os.Rename(tmp, *out); err != nil {
+		return err
+	}
+	fmt.Fprintf(m.Stdout, "backup: %s, %d bytes, checked\n", *out, n)
+	return nil
+}
+
+func backupFromServer(ctx context.Context, addr, key string, w io.Writer) (int64, error) {
+	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(key)))
+	if err != nil {
+		return 0, err
+	}
+	defer conn.Close()
+	stream, err := rpcpb.NewInstructorServiceClient(conn).Backup(ctx, &pb.BackupRequest{})
+	if err != nil {
+		return 0, err
+	}
+	var n, total int64
+	for {
+		ch, err := stream.Recv()
+		if errors.Is(err, io.EOF) {
+			break
+		}
+		if err != nil {
+			return n, err
+		}
+		if ch.TotalBytes > 0 {
+			total = ch.TotalBytes
+		}
+		k, err := w.Write(ch.Data)
+		n += int64(k)
+		if err != nil {
+			return n, err
+		}
+	}
+	if total > 0 && n != total {
+		return n, fmt.Errorf("got %d of %d bytes", n, total)
+	}
+	return n, nil
+}
+
+// checkFile opens a database file and runs bbolt's consistency check.
+func checkFile(path string) error {
+	db, err := store.Open(path, store.Options{})
+	if err != nil {
+		return err
+	}
+	defer db.Close()
+	return db.Check()
+}
+
+// restoreCmd puts a backup in place of a database file, after checking it;
+// the server must be stopped (the file's lock says so).
+func (m *Main) restoreCmd(ctx context.Context, args []string) error {
+	fs := m.newFlags("restore")
+	from := fs.String("from", "", "the backup file")
+	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "the database file to replace")
+	if err := parse(fs, args); err != nil {
+		return err
+	}
+	if *from == "" {
+		return usageError{"restore: --from is required"}
+	}
+	if err := checkFile(*from); err != nil {
+		return fmt.Errorf("restore: the backup does not check out: %w", err)
+	}
+	if _, err := os.Stat(*dbPath); err == nil {
+		db, err := store.Open(*dbPath, store.Options{})
+		if err != nil {
+			return fmt.Errorf("restore: %s is in use or damaged (%w); stop the server first", *dbPath, err)
+		}
+		db.Close()
+		if err := os.Rename(*dbPath, *dbPath+".before-restore"); err != nil {
+			return err
+		}
+		fmt.Fprintf(m.Stdout, "restore: the old file is kept as %s\n", *dbPath+".before-restore")
+	}
+	b, err := os.ReadFile(*from)
+	if err != nil {
+		return err
+	}
+	tmp := filepath.Join(filepath.Dir(*dbPath), ".restore-"+filepath.Base(*dbPath))
+	if err := os.WriteFile(tmp, b, 0o600); err != nil {
+		return err
+	}
+	if err := os.Rename(tmp, *dbPath); err != nil {
+		return err
+	}
+	fmt.Fprintf(m.Stdout, "restore: %s now holds %s\n", *dbPath, *from)
+	return nil
+}

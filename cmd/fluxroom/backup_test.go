@@ -1,0 +1,79 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"path/filepath"
+	"sync"
+	"testing"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+// TestHotBackupAndRestore backs up a serving database while readings keep
+// arriving, checks the copy, restores it in place of a new file and serves
+// it again.
+func TestHotBackupAndRestore(t *testing.T) {
+	dbPath := filepath.Join(t.TempDir(), "live.db")
+	p := startProgram(t, t.TempDir(), dbPath, "127.0.0.1:0")
+	conn := dialInstructor(t, p.addr)
+	defer conn.Close()
+	ctx := context.Background()
+	in, st := rpcpb.NewInstructorServiceClient(conn), rpcpb.NewStationServiceClient(conn)
+	cs, _ := in.CreateSession(ctx, &pb.CreateSessionRequest{Title: "backup"})
+	sb, _ := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: []*pb.Bench{{Label: "A1", Experiment: "coil_force"}}})
+	bid := sb.Benches[0].BenchId
+	send := func(i int) {
+		if _, err := st.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: cs.Session.SessionId, BenchId: bid, ReadingId: fmt.Sprintf("b%d", i),
+			Values: map[string]*pb.Quantity{"current": q(float64(i%5), "A"), "force": q(0.48*float64(i%5), "N")}}); err != nil {
+			t.Error(err)
+		}
+	}
+	for i := 0; i < 40; i++ {
+		send(i)
+	}
+	out := filepath.Join(t.TempDir(), "backup.db")
+	var wg sync.WaitGroup
+	wg.Add(1)
+	go func() { // writers go on during the backup
+		defer wg.Done()
+		for i := 40; i < 80; i++ {
+			send(i)
+		}
+	}()
+	if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"backup", "--server", p.addr, "--instructor-key", testKey, "--out", out}); err != nil {
+		t.Fatal(err)
+	}
+	wg.Wait()
+	p.stop(t)
+
+	b, err := store.Open(out, store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	_, rs, _ := b.BenchReadings(cs.Session.SessionId, bid)
+	if err := b.Check(); err != nil || len(rs) < 40 {
+		t.Errorf("backup: check %v, %d readings; want clean and at least the 40 sent before it", err, len(rs))
+	}
+	b.Close()
+
+	restored := filepath.Join(t.TempDir(), "restored.db")
+	if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"restore", "--from", out, "--db", restored}); err != nil {
+		t.Fatal(err)
+	}
+	p2 := startProgram(t, t.TempDir(), restored, "127.0.0.1:0")
+	defer p2.stop(t)
+	c2 := dialInstructor(t, p2.addr)
+	defer c2.Close()
+	d, err := rpcpb.NewInstructorServiceClient(c2).GetBenchDetail(ctx, &pb.GetBenchDetailRequest{SessionId: cs.Session.SessionId, BenchId: bid})
+	if err != nil || len(d.Detail.Readings) != len(rs) {
+		t.Errorf("restored server: %v, %d readings; want %d", err, len(d.GetDetail().GetReadings()), len(rs))
+	}
+	// Restoring over a file a server holds is refused.
+	if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"restore", "--from", out, "--db", restored}); err == nil {
+		t.Error("restore over a served file succeeded")
+	}
+}
