@@ -10,6 +10,7 @@ import (
 	"sort"
 	"strings"
 	"time"
+	"unicode"
 	"unicode/utf8"
 
 	"google.golang.org/grpc/codes"
@@ -174,7 +175,7 @@ func newJoinCode() string {
 
 func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSessionRequest) (*pb.CreateSessionResponse, error) {
 	title := strings.TrimSpace(req.GetTitle())
-	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) {
+	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) || strings.ContainsFunc(title, unicode.IsControl) {
 		return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
 	}
 	tol := toleranceFromPB(req.GetTolerance())
@@ -342,7 +343,7 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 		return nil, err
 	}
 	if t := strings.TrimSpace(req.GetTitle()); t != "" {
-		if utf8.RuneCountInString(t) > 80 || !utf8.ValidString(t) {
+		if utf8.RuneCountInString(t) > 80 || !utf8.ValidString(t) || strings.ContainsFunc(t, unicode.IsControl) {
 			return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
 		}
 		sess.Title = t
