@@ -2,6 +2,8 @@ package server
 
 import (
 	"context"
+	crand "crypto/rand"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"log/slog"
@@ -19,6 +21,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/reflection"
 	"google.golang.org/grpc/status"
 
@@ -171,6 +174,11 @@ func New(cfg Config) (*Server, error) {
 // HTTP server (gRPC-Web, the dashboard).
 func (s *Server) Serve(l net.Listener) error {
 	m := cmux.New(l)
+	// grpc-go clients wait for the server's SETTINGS before they send
+	// headers, so the matcher answers with one. That would break a
+	// browser's HTTP/2 connection (its server sends SETTINGS again), which
+	// is why Serve is for plaintext, where browsers speak HTTP/1.1, and
+	// ServeAllHTTP is for TLS.
 	grpcL := m.MatchWithWriters(
 		cmux.HTTP2MatchHeaderFieldSendSettings("content-type", "application/grpc"),
 		cmux.HTTP2MatchHeaderFieldSendSettings("content-type", "application/grpc+proto"),
@@ -182,18 +190,7 @@ func (s *Server) Serve(l net.Listener) error {
 	errc := make(chan error, 2)
 	go func() { errc <- s.grpc.Serve(grpcL) }()
 	go func() { errc <- s.http.Serve(httpL) }()
-	go func() {
-		t := time.NewTicker(s.stallCheck)
-		defer t.Stop()
-		for {
-			select {
-			case <-s.done:
-				return
-			case <-t.C:
-				s.checkStalls()
-			}
-		}
-	}()
+	s.startTicker()
 	err := m.Serve()
 	select {
 	case <-s.done:
@@ -204,6 +201,41 @@ func (s *Server) Serve(l net.Listener) error {
 		return fmt.Errorf("server: serve: %w", err)
 	}
 	return nil
+}
+
+// ServeAllHTTP serves every connection through the HTTP server: native gRPC
+// too, by way of grpc.Server.ServeHTTP, which is slower than Serve's path
+// but shares a TLS connection's HTTP/2 with browsers safely. Use it for TLS
+// listeners.
+func (s *Server) ServeAllHTTP(l net.Listener) error {
+	s.startTicker()
+	err := s.http.Serve(l)
+	select {
+	case <-s.done:
+		return nil
+	default:
+	}
+	if errors.Is(err, http.ErrServerClosed) || errors.Is(err, net.ErrClosed) {
+		return nil
+	}
+	return fmt.Errorf("server: serve: %w", err)
+}
+
+// startTicker runs the room's stall checks and the store's health check.
+func (s *Server) startTicker() {
+	go func() {
+		t := time.NewTicker(s.stallCheck)
+		defer t.Stop()
+		for {
+			select {
+			case <-s.done:
+				return
+			case <-t.C:
+				s.checkStalls()
+				s.checkStore()
+			}
+		}
+	}()
 }
 
 // Shutdown ends open room streams (clients reconnect), lets unary calls in
@@ -234,6 +266,18 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	return err
 }
 
+// checkStore sets the health service from whether the database answers.
+func (s *Server) checkStore() {
+	st := healthpb.HealthCheckResponse_SERVING
+	if err := s.db.Ping(); err != nil {
+		s.log.Error("database does not answer", "err", err)
+		st = healthpb.HealthCheckResponse_NOT_SERVING
+	}
+	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName} {
+		s.health.SetServingStatus(name, st)
+	}
+}
+
 // fail runs the fail point of a submission stage.
 func (s *Server) fail(stage string) error {
 	if s.failPoint == nil {
@@ -252,11 +296,24 @@ func (s *Server) StationToken(sessionID, benchID uint64) string {
 	return s.auth.stationToken(sessionID, benchID)
 }
 
+// requestID is a short random id that ties a call's log lines together and
+// is returned to the caller as the x-request-id header.
+func requestID() string {
+	b := make([]byte, 6)
+	crand.Read(b)
+	return hex.EncodeToString(b)
+}
+
 func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
 	start := time.Now()
+	rid := requestID()
+	grpc.SetHeader(ctx, metadata.Pairs("x-request-id", rid))
+	log := s.log.With("request_id", rid)
 	resp, err := handler(ctx, req)
-	err = toStatus(ctx, s.log, info.FullMethod, err)
-	s.metrics.observe(info.FullMethod, time.Since(start))
+	err = toStatus(ctx, log, info.FullMethod, err)
+	d := time.Since(start)
+	s.metrics.observe(info.FullMethod, d)
+	log.DebugContext(ctx, "rpc", "method", info.FullMethod, "code", status.Code(err).String(), "ms", float64(d.Microseconds())/1000)
 	if status.Code(err) == codes.InvalidArgument {
 		s.metrics.rejected.Add(1)
 	}
@@ -264,7 +321,13 @@ func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServe
 }
 
 func (s *Server) streamErrors(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {
-	return toStatus(ss.Context(), s.log, info.FullMethod, handler(srv, ss))
+	rid := requestID()
+	ss.SetHeader(metadata.Pairs("x-request-id", rid))
+	log := s.log.With("request_id", rid)
+	log.DebugContext(ss.Context(), "stream opened", "method", info.FullMethod)
+	err := toStatus(ss.Context(), log, info.FullMethod, handler(srv, ss))
+	log.DebugContext(ss.Context(), "stream closed", "method", info.FullMethod, "code", status.Code(err).String())
+	return err
 }
 
 // bench loads a bench named by a request, as a field error when it is not

@@ -127,6 +127,16 @@ func (db *DB) Size() int64 {
 	return n
 }
 
+// Ping reads the schema version: a cheap sign that the file still answers.
+func (db *DB) Ping() error {
+	return db.bolt.View(func(tx *bbolt.Tx) error {
+		if tx.Bucket(bucketMeta).Get(keySchemaVersion) == nil {
+			return errors.New("store: no schema version")
+		}
+		return nil
+	})
+}
+
 // Close closes the file.
 func (db *DB) Close() error { return db.bolt.Close() }
 

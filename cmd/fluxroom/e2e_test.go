@@ -86,7 +86,7 @@ type program struct {
 	done   chan error
 }
 
-func startProgram(t testing.TB, web, dbPath, addr string) *program {
+func startProgram(t testing.TB, web, dbPath, addr string, extra ...string) *program {
 	t.Helper()
 	ready := make(chan net.Addr, 1)
 	m := NewMain(io.Discard, io.Discard)
@@ -95,7 +95,7 @@ func startProgram(t testing.TB, web, dbPath, addr string) *program {
 	ctx, cancel := context.WithCancel(context.Background())
 	p := &program{cancel: cancel, done: make(chan error, 1)}
 	go func() {
-		p.done <- m.Run(ctx, []string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--instructor-key", testKey})
+		p.done <- m.Run(ctx, append([]string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--instructor-key", testKey}, extra...))
 	}()
 	select {
 	case a := <-ready:

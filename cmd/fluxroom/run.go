@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"crypto/tls"
 	"embed"
 	"errors"
 	"flag"
@@ -154,6 +155,7 @@ type running struct {
 	db *store.DB
 	// key is the instructor key when start made a new one.
 	key  string
+	tls  bool
 	srv  *server.Server
 	addr net.Addr
 	done chan error
@@ -163,6 +165,7 @@ type running struct {
 // serverOptions are what start needs beyond the database and address.
 type serverOptions struct {
 	instructorKey   string
+	tlsCert, tlsKey string
 	ackBeforeCommit bool
 	stationRate     float64
 	stationBurst    int
@@ -193,8 +196,23 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		db.Close()
 		return nil, fmt.Errorf("listen on %s: %w", addr, err)
 	}
-	r := &running{db: db, srv: srv, addr: l.Addr(), done: make(chan error, 1), log: log, key: srv.ShownKey()}
-	go func() { r.done <- srv.Serve(l) }()
+	if opts.tlsCert != "" || opts.tlsKey != "" {
+		cert, err := tls.LoadX509KeyPair(opts.tlsCert, opts.tlsKey)
+		if err != nil {
+			l.Close()
+			db.Close()
+			return nil, fmt.Errorf("--tls-cert/--tls-key: %w", err)
+		}
+		// TLS ends here; behind it the one port still splits native gRPC
+		// from the browser's HTTP/2 and HTTP/1.1.
+		l = tls.NewListener(l, &tls.Config{Certificates: []tls.Certificate{cert}, NextProtos: []string{"h2", "http/1.1"}, MinVersion: tls.VersionTLS12})
+	}
+	r := &running{db: db, srv: srv, addr: l.Addr(), done: make(chan error, 1), log: log, key: srv.ShownKey(), tls: opts.tlsCert != ""}
+	if r.tls {
+		go func() { r.done <- srv.ServeAllHTTP(l) }()
+	} else {
+		go func() { r.done <- srv.Serve(l) }()
+	}
 	if m.Ready != nil {
 		m.Ready <- l.Addr()
 	}
@@ -230,6 +248,8 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	level := fs.String("log-level", "info", "log level: debug, info, warn or error")
 	key := fs.String("instructor-key", "", "the instructor's credential (default: the one stored, or a new one shown once)")
 	keyFile := fs.String("instructor-key-file", "", "read the instructor key from this file")
+	tlsCert := fs.String("tls-cert", "", "TLS certificate file (PEM); with --tls-key, serves gRPC and the dashboard over TLS")
+	tlsKey := fs.String("tls-key", "", "TLS private key file (PEM)")
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
 	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
 	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
@@ -254,14 +274,20 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
 	}
 	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, ackBeforeCommit: *ackEarly,
-		stationRate: *stRate, stationBurst: *stBurst})
+		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey})
 	if err != nil {
 		return err
 	}
-	if r.key != "" {
-		fmt.Fprintf(m.Stderr, "\nNew instructor key (shown once; only its hash is stored):\n\n    %s\n\nOpen the dashboard with it: http://%s/#key=%s\n\n", r.key, r.addr, r.key)
+	scheme := "http"
+	if r.tls {
+		scheme = "https"
 	}
-	warnPlaintext(log, r.addr)
+	if r.key != "" {
+		fmt.Fprintf(m.Stderr, "\nNew instructor key (shown once; only its hash is stored):\n\n    %s\n\nOpen the dashboard with it: %s://%s/#key=%s\n\n", r.key, scheme, r.addr, r.key)
+	}
+	if !r.tls {
+		warnPlaintext(log, r.addr)
+	}
 	log.Info("serving", "addr", r.addr.String(), "db", *dbPath, "dashboard", "http://"+r.addr.String()+"/", "version", version)
 	select {
 	case <-ctx.Done():

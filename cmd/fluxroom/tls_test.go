@@ -1,0 +1,118 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"crypto/ecdsa"
+	"crypto/elliptic"
+	"crypto/rand"
+	"crypto/tls"
+	"crypto/x509"
+	"crypto/x509/pkix"
+	"encoding/binary"
+	"encoding/pem"
+	"io"
+	"math/big"
+	"net"
+	"net/http"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials"
+	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/internal/bearer"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+)
+
+// selfSigned writes a certificate for 127.0.0.1 and returns its files and
+// a pool that trusts it.
+func selfSigned(t *testing.T) (certFile, keyFile string, pool *x509.CertPool) {
+	t.Helper()
+	key, _ := ecdsa.GenerateKey(elliptic.P256(), rand.Reader)
+	tmpl := &x509.Certificate{SerialNumber: big.NewInt(1), Subject: pkix.Name{CommonName: "fluxroom test"},
+		NotBefore: time.Now().Add(-time.Hour), NotAfter: time.Now().Add(time.Hour), IPAddresses: []net.IP{net.ParseIP("127.0.0.1")},
+		KeyUsage: x509.KeyUsageDigitalSignature, ExtKeyUsage: []x509.ExtKeyUsage{x509.ExtKeyUsageServerAuth}}
+	der, err := x509.CreateCertificate(rand.Reader, tmpl, tmpl, &key.PublicKey, key)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	certFile, keyFile = filepath.Join(dir, "cert.pem"), filepath.Join(dir, "key.pem")
+	os.WriteFile(certFile, pem.EncodeToMemory(&pem.Block{Type: "CERTIFICATE", Bytes: der}), 0o600)
+	kb, _ := x509.MarshalECPrivateKey(key)
+	os.WriteFile(keyFile, pem.EncodeToMemory(&pem.Block{Type: "EC PRIVATE KEY", Bytes: kb}), 0o600)
+	cert, _ := x509.ParseCertificate(der)
+	pool = x509.NewCertPool()
+	pool.AddCert(cert)
+	return certFile, keyFile, pool
+}
+
+// TestTLSOnOnePort serves over TLS and reaches, on the one port: native
+// gRPC, the dashboard page over HTTP/2 and HTTP/1.1, and gRPC-Web as a
+// browser sends it.
+func TestTLSOnOnePort(t *testing.T) {
+	certFile, keyFile, pool := selfSigned(t)
+	p := startProgram(t, t.TempDir(), filepath.Join(t.TempDir(), "f.db"), "127.0.0.1:0", "--tls-cert", certFile, "--tls-key", keyFile)
+	defer p.stop(t)
+	ctx := context.Background()
+
+	conn, err := grpc.NewClient(p.addr, grpc.WithTransportCredentials(credentials.NewTLS(&tls.Config{RootCAs: pool})),
+		grpc.WithPerRPCCredentials(bearer.Token(testKey)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close()
+	if _, err := rpcpb.NewInstructorServiceClient(conn).ListSessions(ctx, &pb.ListSessionsRequest{}); err != nil {
+		t.Errorf("native gRPC over TLS: %v", err)
+	}
+	if h, err := healthpb.NewHealthClient(conn).Check(ctx, &healthpb.HealthCheckRequest{}); err != nil || h.Status != healthpb.HealthCheckResponse_SERVING {
+		t.Errorf("health over TLS: %v %v", h, err)
+	}
+
+	for _, h2 := range []bool{true, false} {
+		tr := &http.Transport{TLSClientConfig: &tls.Config{RootCAs: pool}, ForceAttemptHTTP2: h2}
+		if !h2 {
+			tr.TLSNextProto = map[string]func(string, *tls.Conn) http.RoundTripper{}
+		}
+		c := &http.Client{Transport: tr, Timeout: 10 * time.Second}
+		resp, err := c.Get("https://" + p.addr + "/")
+		if err != nil {
+			t.Fatalf("page over TLS (h2 %v): %v", h2, err)
+		}
+		resp.Body.Close()
+		if resp.StatusCode != 200 || (resp.ProtoMajor == 2) != h2 {
+			t.Errorf("page over TLS: %s %s, want 200 over HTTP/%d", resp.Status, resp.Proto, map[bool]int{true: 2, false: 1}[h2])
+		}
+		// gRPC-Web, framed as the dashboard frames it.
+		body, _ := proto.Marshal(&pb.ListExperimentsRequest{})
+		frame := make([]byte, 5+len(body))
+		binary.BigEndian.PutUint32(frame[1:5], uint32(len(body)))
+		copy(frame[5:], body)
+		req, _ := http.NewRequest("POST", "https://"+p.addr+"/fluxroom.v1.StationService/ListExperiments", bytes.NewReader(frame))
+		req.Header.Set("Content-Type", "application/grpc-web+proto")
+		req.Header.Set("X-Grpc-Web", "1")
+		resp, err = c.Do(req)
+		if err != nil {
+			t.Fatalf("gRPC-Web over TLS (h2 %v): %v", h2, err)
+		}
+		out, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != 200 || !strings.Contains(strings.ToLower(string(out)), "grpc-status: 0") || len(out) < 100 {
+			t.Errorf("gRPC-Web over TLS (h2 %v): %s, %d bytes, trailer %q", h2, resp.Status, len(out), tail(out))
+		}
+	}
+}
+
+func tail(b []byte) string {
+	if len(b) > 60 {
+		b = b[len(b)-60:]
+	}
+	return string(b)
+}
