@@ -31,6 +31,7 @@ test-short:
 
 bench:
 	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
+	$(GO) test -run='^$$' -bench=ExportTerm -benchtime=1x ./internal/export/
 
 demo: build
 	$(BIN)/fluxroom demo
