@@ -470,9 +470,9 @@ func (c *chunkWriter) Write(p []byte) (int, error) {
 }
 
 func (in instructorService) Backup(req *pb.BackupRequest, stream rpcpb.InstructorService_BackupServer) error {
-	w := &chunkWriter{stream: stream, total: in.s.db.Size(), first: true}
+	w := &chunkWriter{stream: stream, first: true}
 	bw := bufio.NewWriterSize(w, 256<<10)
-	if _, err := in.s.db.Backup(bw); err != nil {
+	if _, err := in.s.db.Backup(bw, func(n int64) { w.total = n }); err != nil {
 		return err
 	}
 	return bw.Flush()

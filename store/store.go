@@ -106,10 +106,14 @@ func (db *DB) SetInstructorKeyHash(hash []byte) error {
 }
 
 // Backup writes a consistent copy of the whole file to w from one read
-// transaction, while writers go on. It returns the copy's size.
-func (db *DB) Backup(w io.Writer) (int64, error) {
+// transaction, while writers go on. size, when not nil, learns the copy's
+// size before the first byte. It returns the bytes written.
+func (db *DB) Backup(w io.Writer, size func(int64)) (int64, error) {
 	var n int64
 	err := db.bolt.View(func(tx *bbolt.Tx) error {
+		if size != nil {
+			size(tx.Size())
+		}
 		var err error
 		n, err = tx.WriteTo(w)
 		return err
@@ -118,13 +122,6 @@ func (db *DB) Backup(w io.Writer) (int64, error) {
 		return n, fmt.Errorf("store: backup: %w", err)
 	}
 	return n, nil
-}
-
-// Size is the size of a consistent copy, for progress reports.
-func (db *DB) Size() int64 {
-	var n int64
-	db.bolt.View(func(tx *bbolt.Tx) error { n = tx.Size(); return nil })
-	return n
 }
 
 // Ping reads the schema version: a cheap sign that the file still answers.

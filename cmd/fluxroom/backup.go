@@ -47,7 +47,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 			err = fmt.Errorf("%s is in use by a running server: use --server for a hot backup", *dbPath)
 		}
 		if err == nil {
-			n, err = db.Backup(f)
+			n, err = db.Backup(f, nil)
 			db.Close()
 		}
 	}

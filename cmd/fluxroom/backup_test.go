@@ -44,10 +44,11 @@ func TestHotBackupAndRestore(t *testing.T) {
 			send(i)
 		}
 	}()
-	if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"backup", "--server", p.addr, "--instructor-key", testKey, "--out", out}); err != nil {
+	err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"backup", "--server", p.addr, "--instructor-key", testKey, "--out", out})
+	wg.Wait()
+	if err != nil {
 		t.Fatal(err)
 	}
-	wg.Wait()
 	p.stop(t)
 
 	b, err := store.Open(out, store.Options{})
