@@ -6,24 +6,9 @@ import (
 	"google.golang.org/protobuf/types/known/timestamppb"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
-
-func quantitiesFromPB(m map[string]*pb.Quantity) map[string]domain.Quantity {
-	out := make(map[string]domain.Quantity, len(m))
-	for k, q := range m {
-		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
-	}
-	return out
-}
-
-func quantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
-	out := make(map[string]*pb.Quantity, len(m))
-	for k, q := range m {
-		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
-	}
-	return out
-}
 
 func toleranceFromPB(t *pb.Tolerance) domain.Tolerance {
 	return domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()}
@@ -42,16 +27,16 @@ func sessionToPB(s domain.Session) *pb.Session {
 
 func benchFromPB(b *pb.Bench) domain.Bench {
 	return domain.Bench{ID: b.GetBenchId(), Label: b.GetLabel(), Row: int(b.GetRow()), Column: int(b.GetColumn()),
-		Experiment: b.GetExperiment(), Constants: quantitiesFromPB(b.GetConstants()), Members: b.GetMembers()}
+		Experiment: b.GetExperiment(), Constants: wire.QuantitiesFromPB(b.GetConstants()), Members: b.GetMembers()}
 }
 
 func benchToPB(b domain.Bench) *pb.Bench {
 	return &pb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
-		Experiment: b.Experiment, Constants: quantitiesToPB(b.Constants), Members: b.Members}
+		Experiment: b.Experiment, Constants: wire.QuantitiesToPB(b.Constants), Members: b.Members}
 }
 
 func readingToPB(r domain.Reading) *pb.Reading {
-	out := &pb.Reading{ReadingId: r.ID, Values: quantitiesToPB(r.Values), Sequence: r.Sequence, Supersedes: r.Supersedes}
+	out := &pb.Reading{ReadingId: r.ID, Values: wire.QuantitiesToPB(r.Values), Sequence: r.Sequence, Supersedes: r.Supersedes}
 	if !r.ReceivedAt.IsZero() {
 		out.ReceivedAt = timestamppb.New(r.ReceivedAt)
 	}

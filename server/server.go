@@ -26,6 +26,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -380,6 +381,28 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 		}
 	}
 	return st, a, rs, nil
+}
+
+// session loads the session a request names, as a field error when there
+// is none.
+func (s *Server) session(id uint64) (domain.Session, error) {
+	sess, err := s.db.Session(id)
+	if errors.Is(err, store.ErrNotFound) {
+		return domain.Session{}, domain.Invalid("session_id", "no session %d", id)
+	}
+	return sess, err
+}
+
+// graded reads a whole session and grades it under its policy.
+func (s *Server) graded(id uint64) (export.Session, error) {
+	d, err := s.db.ReadSession(id)
+	if errors.Is(err, store.ErrNotFound) {
+		return export.Session{}, domain.Invalid("session_id", "no session %d", id)
+	}
+	if err != nil {
+		return export.Session{}, err
+	}
+	return export.Prepare(d)
 }
 
 // checkSupersedes makes sure a correction names an earlier reading of the

@@ -18,6 +18,7 @@ import (
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/export"
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -80,7 +81,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	if err != nil {
 		return nil, err
 	}
-	values := quantitiesFromPB(req.GetValues())
+	values := wire.QuantitiesFromPB(req.GetValues())
 	if err := domain.ValidateReading("values", bench, values); err != nil {
 		return nil, err
 	}
@@ -335,10 +336,7 @@ func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBench
 }
 
 func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSessionRequest) (*pb.UpdateSessionResponse, error) {
-	sess, err := in.s.db.Session(req.GetSessionId())
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
-	}
+	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
@@ -364,10 +362,7 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 }
 
 func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGradingPolicyRequest) (*pb.SetGradingPolicyResponse, error) {
-	sess, err := in.s.db.Session(req.GetSessionId())
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
-	}
+	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
@@ -382,14 +377,7 @@ func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGra
 }
 
 func (in instructorService) OverrideGrade(ctx context.Context, req *pb.OverrideGradeRequest) (*pb.OverrideGradeResponse, error) {
-	d, err := in.s.db.ReadSession(req.GetSessionId())
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
-	}
-	if err != nil {
-		return nil, err
-	}
-	ex, err := export.Prepare(d)
+	ex, err := in.s.graded(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
@@ -428,14 +416,7 @@ func (in instructorService) Export(ctx context.Context, req *pb.ExportRequest) (
 	if !ok {
 		return nil, domain.Invalid("format", "choose one of GRADEBOOK_CSV, READINGS_CSV, JSON, HTML")
 	}
-	d, err := in.s.db.ReadSession(req.GetSessionId())
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
-	}
-	if err != nil {
-		return nil, err
-	}
-	ex, err := export.Prepare(d)
+	ex, err := in.s.graded(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
@@ -492,10 +473,7 @@ func prefixFields(err error, prefix string) error {
 }
 
 func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessionRequest) (*pb.CloseSessionResponse, error) {
-	sess, err := in.s.db.Session(req.GetSessionId())
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("session_id", "no session %d", req.GetSessionId())
-	}
+	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}

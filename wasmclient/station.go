@@ -12,6 +12,7 @@ import (
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -132,7 +133,7 @@ func (s *Station) sender(ctx app.Context) {
 		}
 		item := q[0]
 		res, err := unary[pb.SubmitReadingResponse](ctx, s.client, ProcSubmitReading, &pb.SubmitReadingRequest{
-			SessionId: item.SessionID, BenchId: item.BenchID, ReadingId: item.ReadingID, Values: quantitiesPB(item.Values),
+			SessionId: item.SessionID, BenchId: item.BenchID, ReadingId: item.ReadingID, Values: wire.QuantitiesToPB(item.Values),
 			Supersedes: item.Supersedes})
 		switch code := codeOf(err); {
 		case err == nil:
@@ -397,12 +398,4 @@ func inputID(name string, inputs []app.UI) string {
 		return name
 	}
 	return "v-" + name
-}
-
-func quantitiesPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
-	out := make(map[string]*pb.Quantity, len(m))
-	for k, q := range m {
-		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
-	}
-	return out
 }

@@ -22,6 +22,7 @@ import (
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/bearer"
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -169,7 +170,7 @@ func setUpDemoRoom(ctx context.Context, in rpcpb.InstructorServiceClient, class 
 	var benches []*pb.Bench
 	for _, b := range class {
 		benches = append(benches, &pb.Bench{Label: b.label, Row: b.row, Column: b.col, Experiment: b.group.Experiment,
-			Constants: quantitiesPB(b.group.Bench.Constants)})
+			Constants: wire.QuantitiesToPB(b.group.Bench.Constants)})
 	}
 	if _, err := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: benches}); err != nil {
 		return nil, fmt.Errorf("set demo benches: %w", err)
@@ -190,7 +191,7 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 	tctx := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer "+join.StationToken)
 	for i, r := range b.group.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: quantitiesPB(r.Values)}
+			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: wire.QuantitiesToPB(r.Values)}
 		if err := submitWithRetry(tctx, st, req); err != nil {
 			return err
 		}
@@ -199,14 +200,6 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 		}
 	}
 	return nil
-}
-
-func quantitiesPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
-	out := make(map[string]*pb.Quantity, len(m))
-	for k, q := range m {
-		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
-	}
-	return out
 }
 
 // newDemoKey is a fresh instructor key for one demo run.

@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -76,7 +77,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	var last *pb.SubmitReadingResponse
 	for i, r := range rows.readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: "csv-" + rows.keys[i], Values: quantitiesPB(r.Values)}
+			ReadingId: "csv-" + rows.keys[i], Values: wire.QuantitiesToPB(r.Values)}
 		// Past the bench's rate limit the server says ResourceExhausted: wait
 		// and send the same reading again (its id makes that safe).
 		for {

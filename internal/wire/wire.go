@@ -1,0 +1,27 @@
+// Package wire converts the quantities every client and the server send
+// between the domain's type and the wire's. It imports only the domain and
+// the message package, so the browser build may use it too.
+package wire
+
+import (
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// QuantitiesToPB converts a map of quantities for the wire.
+func QuantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
+	out := make(map[string]*pb.Quantity, len(m))
+	for k, q := range m {
+		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+	}
+	return out
+}
+
+// QuantitiesFromPB converts a map of quantities from the wire.
+func QuantitiesFromPB(m map[string]*pb.Quantity) map[string]domain.Quantity {
+	out := make(map[string]domain.Quantity, len(m))
+	for k, q := range m {
+		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
+	}
+	return out
+}
