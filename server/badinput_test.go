@@ -318,3 +318,56 @@ func FuzzSubmitReading(f *testing.F) {
 		}
 	})
 }
+
+// FuzzSetBenches: arbitrary labels, positions, experiments and constants
+// never panic; a rejected request changes no bench.
+func FuzzSetBenches(f *testing.F) {
+	f.Add("A1", int32(0), int32(0), "coil_force", "turns", 100.0, "1", "")
+	f.Add("", int32(-1), int32(99), "levitation", "gap_field", math.NaN(), "G", "x\ny")
+	f.Add("Z9", int32(3), int32(3), "e_over_m", "coil_radius", 1e308, "cm", strings.Repeat("m", 300))
+	f.Fuzz(func(t *testing.T, label string, row, col int32, exp, name string, v float64, unit, members string) {
+		r := fuzzRig(t)
+		ctx := context.Background()
+		before, _ := r.db.Benches(r.sid)
+		_, err := instructorService{s: r.srv}.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: r.sid, Benches: []*pb.Bench{
+			{Label: label, Row: row, Column: col, Experiment: exp, Members: members, Constants: map[string]*pb.Quantity{name: {Value: v, Unit: unit}}}}})
+		if err == nil {
+			return
+		}
+		var ve *domain.ValidationError
+		if _, ok := status.FromError(err); !ok && !errors.As(err, &ve) {
+			t.Fatalf("error %v is neither a field error nor a status", err)
+		}
+		if after, _ := r.db.Benches(r.sid); len(after) != len(before) {
+			t.Fatalf("a rejected SetBenches changed the benches: %d → %d", len(before), len(after))
+		}
+	})
+}
+
+// FuzzJoinAndSession: join requests and session titles and tolerances.
+func FuzzJoinAndSession(f *testing.F) {
+	f.Add("FUZZED", "F1", "Ada", "PHY 142", 2.0, 3.0)
+	f.Add("", "", "\x00", "", math.NaN(), -1.0)
+	f.Fuzz(func(t *testing.T, code, label, members, title string, zc, zo float64) {
+		r := fuzzRig(t)
+		ctx := context.Background()
+		_, err := stationService{s: r.srv}.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: label, GroupMembers: members})
+		checkFuzzErr(t, err)
+		before, _ := r.db.Sessions()
+		_, err = instructorService{s: r.srv}.CreateSession(ctx, &pb.CreateSessionRequest{Title: title, Tolerance: &pb.Tolerance{ZConsistent: zc, ZOff: zo}})
+		checkFuzzErr(t, err)
+		if after, _ := r.db.Sessions(); err != nil && len(after) != len(before) {
+			t.Fatalf("a rejected CreateSession stored a session")
+		}
+	})
+}
+
+func checkFuzzErr(t *testing.T, err error) {
+	if err == nil {
+		return
+	}
+	var ve *domain.ValidationError
+	if _, ok := status.FromError(err); !ok && !errors.As(err, &ve) {
+		t.Fatalf("error %v is neither a field error nor a status", err)
+	}
+}
