@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"sync"
 	"time"
 
 	"go.etcd.io/bbolt"
@@ -27,7 +28,29 @@ var (
 // DB is the fluxroom database: one bbolt file.
 type DB struct {
 	bolt *bbolt.DB
+	// appends feeds the one writer that commits readings in groups.
+	appends chan appendReq
+	wg      sync.WaitGroup
+	// closeMu keeps AppendReading from sending after Close.
+	closeMu sync.RWMutex
+	closed  bool
 }
+
+// appendReq is one reading waiting for the group commit.
+type appendReq struct {
+	sessionID, benchID uint64
+	r                  domain.Reading
+	done               chan appendRes
+}
+
+type appendRes struct {
+	stored    domain.Reading
+	duplicate bool
+	err       error
+}
+
+// maxGroup bounds how many readings one commit takes.
+const maxGroup = 512
 
 // Options tune Open. The zero value is a sensible default.
 type Options struct {
@@ -46,12 +69,50 @@ func Open(path string, opts Options) (*DB, error) {
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	db := &DB{bolt: b}
+	db := &DB{bolt: b, appends: make(chan appendReq, maxGroup)}
 	if err := b.Update(db.prepare); err != nil {
 		b.Close()
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
+	db.wg.Add(1)
+	go db.writer()
 	return db, nil
+}
+
+// writer commits the readings that arrive while the previous commit runs
+// in one transaction: group commit. Each waits for its own result, sent
+// only after bbolt's commit (and its fsync) returned, so nothing is
+// acknowledged before it is on disk, and one fsync serves many stations.
+func (db *DB) writer() {
+	defer db.wg.Done()
+	for first := range db.appends {
+		group := []appendReq{first}
+	drain:
+		for len(group) < maxGroup {
+			select {
+			case req, ok := <-db.appends:
+				if !ok {
+					break drain
+				}
+				group = append(group, req)
+			default:
+				break drain
+			}
+		}
+		results := make([]appendRes, len(group))
+		err := db.bolt.Update(func(tx *bbolt.Tx) error {
+			for i, req := range group {
+				results[i].stored, results[i].duplicate, results[i].err = appendOne(tx, req.sessionID, req.benchID, req.r)
+			}
+			return nil
+		})
+		for i, req := range group {
+			if err != nil {
+				results[i] = appendRes{err: err}
+			}
+			req.done <- results[i]
+		}
+	}
 }
 
 func (db *DB) prepare(tx *bbolt.Tx) error {
@@ -134,8 +195,17 @@ func (db *DB) Ping() error {
 	})
 }
 
-// Close closes the file.
-func (db *DB) Close() error { return db.bolt.Close() }
+// Close stops the writer and closes the file.
+func (db *DB) Close() error {
+	db.closeMu.Lock()
+	if !db.closed {
+		db.closed = true
+		close(db.appends)
+	}
+	db.closeMu.Unlock()
+	db.wg.Wait()
+	return db.bolt.Close()
+}
 
 // Path is the file's path.
 func (db *DB) Path() string { return db.bolt.Path() }
@@ -555,47 +625,63 @@ func listReadings(tx *bbolt.Tx, sessionID, benchID uint64) ([]domain.Reading, er
 }
 
 // AppendReading stores a reading for a bench, in one transaction with its
-// id index. When the bench already has a reading with the same ID, nothing is
-// written and the stored reading is returned with duplicate true.
+// id index; it returns once that transaction is committed. When the bench
+// already has a reading with the same ID, nothing is written and the stored
+// reading is returned with duplicate true. Concurrent calls share commits.
 func (db *DB) AppendReading(sessionID, benchID uint64, r domain.Reading) (stored domain.Reading, duplicate bool, err error) {
-	err = db.bolt.Update(func(tx *bbolt.Tx) error {
-		if _, err := getBench(tx, sessionID, benchID); err != nil {
-			return err
-		}
-		ids := tx.Bucket(bucketReadingIDs)
-		idKey := readingIDKey(sessionID, benchID, r.ID)
-		readings := tx.Bucket(bucketReadings)
-		if raw := ids.Get(idKey); raw != nil {
-			seq, err := decodeU64(raw)
-			if err != nil {
-				return err
-			}
-			v := readings.Get(readingKey(sessionID, benchID, seq))
-			if v == nil {
-				return fmt.Errorf("store: reading id %q points at missing reading %d", r.ID, seq)
-			}
-			var rec recordpb.Reading
-			if err := proto.Unmarshal(v, &rec); err != nil {
-				return fmt.Errorf("store: decode reading: %w", err)
-			}
-			stored, duplicate = readingFromRecord(&rec), true
-			return nil
-		}
-		seq, err := readings.NextSequence()
-		if err != nil {
-			return err
-		}
-		r.Sequence = seq
-		if err := putRecord(readings, readingKey(sessionID, benchID, seq), readingRecord(r)); err != nil {
-			return err
-		}
-		stored = r
-		return ids.Put(idKey, u64(seq))
-	})
-	if err != nil {
-		return domain.Reading{}, false, fmt.Errorf("store: append reading: %w", err)
+	done := make(chan appendRes, 1)
+	db.closeMu.RLock()
+	if db.closed {
+		db.closeMu.RUnlock()
+		return domain.Reading{}, false, errors.New("store: append reading: the database is closed")
 	}
-	return stored, duplicate, nil
+	db.appends <- appendReq{sessionID: sessionID, benchID: benchID, r: r, done: done}
+	db.closeMu.RUnlock()
+	res := <-done
+	if res.err != nil {
+		return domain.Reading{}, false, fmt.Errorf("store: append reading: %w", res.err)
+	}
+	return res.stored, res.duplicate, nil
+}
+
+// appendOne writes one reading inside a transaction. It checks everything
+// before it writes, so an error leaves the transaction as it was for the
+// other readings of the group.
+func appendOne(tx *bbolt.Tx, sessionID, benchID uint64, r domain.Reading) (domain.Reading, bool, error) {
+	if _, err := getBench(tx, sessionID, benchID); err != nil {
+		return domain.Reading{}, false, err
+	}
+	ids := tx.Bucket(bucketReadingIDs)
+	idKey := readingIDKey(sessionID, benchID, r.ID)
+	readings := tx.Bucket(bucketReadings)
+	if raw := ids.Get(idKey); raw != nil {
+		seq, err := decodeU64(raw)
+		if err != nil {
+			return domain.Reading{}, false, err
+		}
+		v := readings.Get(readingKey(sessionID, benchID, seq))
+		if v == nil {
+			return domain.Reading{}, false, fmt.Errorf("store: reading id %q points at missing reading %d", r.ID, seq)
+		}
+		var rec recordpb.Reading
+		if err := proto.Unmarshal(v, &rec); err != nil {
+			return domain.Reading{}, false, fmt.Errorf("store: decode reading: %w", err)
+		}
+		return readingFromRecord(&rec), true, nil
+	}
+	seq, err := readings.NextSequence()
+	if err != nil {
+		return domain.Reading{}, false, err
+	}
+	r.Sequence = seq
+	v, err := proto.Marshal(readingRecord(r))
+	if err != nil {
+		return domain.Reading{}, false, fmt.Errorf("store: encode: %w", err)
+	}
+	if err := readings.Put(readingKey(sessionID, benchID, seq), v); err != nil {
+		return domain.Reading{}, false, err
+	}
+	return r, false, ids.Put(idKey, u64(seq))
 }
 
 func putRecord(b *bbolt.Bucket, key []byte, m proto.Message) error {

@@ -2,7 +2,9 @@ package store
 
 import (
 	"errors"
+	"fmt"
 	"path/filepath"
+	"sync"
 	"testing"
 	"time"
 
@@ -202,6 +204,60 @@ func TestSessionUpdateAndNotesSurviveReopen(t *testing.T) {
 	notes, _ := db.Notes(s.ID)
 	if diff := cmp.Diff(notes, []domain.Note{note}); diff != "" {
 		t.Errorf("notes (-got +want):\n%s", diff)
+	}
+	if err := db.Check(); err != nil {
+		t.Error(err)
+	}
+}
+
+// TestGroupCommit: many concurrent appends share commits, each gets its own
+// answer, duplicates within one group are caught, and an append after
+// Close is an error, not a panic.
+func TestGroupCommit(t *testing.T) {
+	db, path := openTemp(t)
+	s, _ := db.CreateSession(domain.Session{Title: "g", JoinCode: "GGGGGG"})
+	bs, _ := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}, {Label: "A2", Experiment: "coil_force"}})
+	var wg sync.WaitGroup
+	var mu sync.Mutex
+	dups, errs := 0, 0
+	for i := 0; i < 400; i++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			b := bs[i%2].ID
+			id := fmt.Sprintf("r%d", i/2%100) // each id twice per bench
+			_, dup, err := db.AppendReading(s.ID, b, domain.Reading{ID: id, Values: map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}}})
+			if i%50 == 0 {
+				_, _, err2 := db.AppendReading(s.ID, 9999, domain.Reading{ID: "x"})
+				if !errors.Is(err2, ErrNotFound) {
+					t.Errorf("append to a missing bench: %v", err2)
+				}
+			}
+			mu.Lock()
+			defer mu.Unlock()
+			if dup {
+				dups++
+			}
+			if err != nil {
+				errs++
+			}
+		}()
+	}
+	wg.Wait()
+	if dups != 200 || errs != 0 {
+		t.Errorf("%d duplicates, %d errors; want 200 and 0", dups, errs)
+	}
+	db.Close()
+	if _, _, err := db.AppendReading(s.ID, bs[0].ID, domain.Reading{ID: "late"}); err == nil {
+		t.Error("append after Close succeeded")
+	}
+	db, _ = Open(path, Options{})
+	defer db.Close()
+	for _, b := range bs {
+		_, rs, _ := db.BenchReadings(s.ID, b.ID)
+		if len(rs) != 100 {
+			t.Errorf("bench %d has %d readings, want 100", b.ID, len(rs))
+		}
 	}
 	if err := db.Check(); err != nil {
 		t.Error(err)
