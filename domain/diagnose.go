@@ -174,20 +174,39 @@ func (fs findings) ranked() (ds []Diagnosis, raise bool) {
 	return ds, raise
 }
 
-// outlierSlip finds one point whose value is ×10 or ×0.1 of what the rest
-// predict, and returns its index, or -1. predict gives the expected y of
-// point i from a fit without it; sd is the scatter of the others.
-func outlierSlip(y []float64, predict func(i int) (float64, float64)) int {
-	for i := range y {
-		want, sd := predict(i)
-		if sd <= 0 || want == 0 {
+// outlierSlip finds one point whose value is ×10 or ×0.1 of what a line
+// through the other points predicts, and returns its index, or -1. The
+// leave-one-out prediction and scatter come from the hat values of the full
+// fit, so the check is O(n): ŷ₍ᵢ₎ = yᵢ − eᵢ/(1−hᵢᵢ), hᵢᵢ = 1/n + (xᵢ−x̄)²/Sxx
+// [pub: any regression text, leave-one-out residuals]. floor is the least
+// scatter the instruments allow.
+func outlierSlip(x, y []float64, f Fit, floor float64) int {
+	n := float64(len(x))
+	if len(x) < 4 || f.Sxx == 0 {
+		return -1
+	}
+	mx := mean(x)
+	var ssr float64
+	e := make([]float64, len(x))
+	for i := range x {
+		e[i] = y[i] - (f.Intercept + f.Slope*x[i])
+		ssr += e[i] * e[i]
+	}
+	for i := range x {
+		h := 1/n + (x[i]-mx)*(x[i]-mx)/f.Sxx
+		if h >= 1 {
 			continue
 		}
-		if math.Abs(y[i]-want) < 5*sd {
+		loo := e[i] / (1 - h)
+		want := y[i] - loo
+		// Residual variance of the fit without point i.
+		s2 := (ssr - e[i]*e[i]/(1-h)) / (n - 3)
+		sd := math.Max(math.Sqrt(math.Max(s2, 0)), floor)
+		if sd <= 0 || want == 0 || math.Abs(loo) < 5*sd {
 			continue
 		}
-		for _, f := range []float64{10, 0.1} {
-			if math.Abs(y[i]/f-want) < 3*sd+0.02*math.Abs(want) {
+		for _, fac := range []float64{10, 0.1} {
+			if math.Abs(y[i]/fac-want) < 3*sd+0.02*math.Abs(want) {
 				return i
 			}
 		}

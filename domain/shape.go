@@ -13,15 +13,7 @@ import (
 func lineShape(fs *findings, x, y []float64, f Fit, uy float64, yName, yUnit string) {
 	n := len(x)
 	if n >= 4 {
-		slip := outlierSlip(y, func(i int) (float64, float64) {
-			xs := append(append([]float64(nil), x[:i]...), x[i+1:]...)
-			ys := append(append([]float64(nil), y[:i]...), y[i+1:]...)
-			g, err := FitLine(xs, ys)
-			if err != nil {
-				return 0, 0
-			}
-			return g.Intercept + g.Slope*x[i], math.Max(g.ResidualSD, uy)
-		})
+		slip := outlierSlip(x, y, f, uy)
 		if slip >= 0 {
 			fs.add(CodeDecimalSlipPoint, fmt.Sprintf("reading %d: %s %.4g %s, while the other readings put it near %.4g", slip+1, yName, y[slip], yUnit,
 				predictWithout(x, y, slip)), 0.9, true)

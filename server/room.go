@@ -26,6 +26,11 @@ type roomState struct {
 	results  map[uint64]domain.BenchResult
 	findings []domain.RoomFinding
 	stalled  map[uint64]bool
+	// The data the states were judged from, so a new reading is judged
+	// without reading the bench back from the file.
+	session  domain.Session
+	benches  map[uint64]domain.Bench
+	readings map[uint64][]domain.Reading
 }
 
 func (r *rooms) get(sessionID uint64) (*roomState, bool) {
@@ -66,18 +71,17 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 	if rs, ok := s.rooms.get(sessionID); ok {
 		return rs, nil
 	}
-	benches, err := s.db.Benches(sessionID)
+	d, err := s.db.ReadSession(sessionID)
 	if err != nil {
 		return nil, err
 	}
-	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{}}
-	for _, b := range benches {
-		st, a, readings, err := s.benchState(sessionID, b.ID)
-		if err != nil {
+	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{},
+		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings}
+	for _, b := range d.Benches {
+		rs.benches[b.ID] = b
+		if err := s.judgeCached(rs, b.ID, d.Notes); err != nil {
 			return nil, err
 		}
-		rs.states[b.ID] = st
-		rs.results[b.ID] = domain.ResultOf(b, a, readings)
 	}
 	rs.findings = domain.RoomFindings(rs.resultList())
 	rs.stalled = domain.StalledBenches(rs.resultList(), s.now(), s.stallAfter)
@@ -136,4 +140,41 @@ func (s *Server) checkStalls() {
 		}
 		mu.Unlock()
 	}
+}
+
+// judgeCached judges a bench from the room's cached data. notes are the
+// session's audit log when already at hand; nil reads it, and only when the
+// bench is unsafe (to see whether its alert was acknowledged).
+func (s *Server) judgeCached(rs *roomState, benchID uint64, notes []domain.Note) error {
+	b := rs.benches[benchID]
+	readings := rs.readings[benchID]
+	tol := s.tol
+	if rs.session.Tolerance != (domain.Tolerance{}) {
+		tol = rs.session.EffectiveTolerance()
+	}
+	a := domain.Assess(b, readings, tol)
+	st := stateToPB(b, a)
+	if a.Verdict == domain.Unsafe {
+		if notes == nil {
+			var err error
+			if notes, err = s.db.Notes(rs.session.ID); err != nil {
+				return err
+			}
+		}
+		st.AlertAcknowledged = acknowledged(notes, benchID, a.LastReadingAt)
+	}
+	rs.states[benchID] = st
+	rs.results[benchID] = domain.ResultOf(b, a, readings)
+	return nil
+}
+
+// acknowledged reports whether an instructor acknowledged the bench's
+// alert at or after its last reading.
+func acknowledged(notes []domain.Note, benchID uint64, last time.Time) bool {
+	for _, n := range notes {
+		if n.BenchID == benchID && n.Kind == domain.NoteKindAcknowledged && !n.At.Before(last) {
+			return true
+		}
+	}
+	return false
 }

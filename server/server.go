@@ -374,11 +374,7 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 		if err != nil {
 			return nil, domain.Assessment{}, nil, err
 		}
-		for _, n := range notes {
-			if n.BenchID == benchID && n.Kind == domain.NoteKindAcknowledged && !n.At.Before(a.LastReadingAt) {
-				st.AlertAcknowledged = true
-			}
-		}
+		st.AlertAcknowledged = acknowledged(notes, benchID, a.LastReadingAt)
 	}
 	return st, a, rs, nil
 }
@@ -438,7 +434,7 @@ func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
 	if err := s.db.AppendNote(sessionID, n); err != nil {
 		return nil, err
 	}
-	if _, err := s.publishBench(sessionID, n.BenchID); err != nil {
+	if _, err := s.publishBench(sessionID, n.BenchID, nil); err != nil {
 		return nil, err
 	}
 	return noteToPB(n), nil
@@ -456,7 +452,7 @@ func (s *Server) rejudgeRoom(sessionID uint64) error {
 		return err
 	}
 	for _, b := range benches {
-		if _, err := s.publishBench(sessionID, b.ID); err != nil {
+		if _, err := s.publishBench(sessionID, b.ID, nil); err != nil {
 			return err
 		}
 	}
@@ -465,8 +461,10 @@ func (s *Server) rejudgeRoom(sessionID uint64) error {
 
 // publishBench judges a bench after a change and sends its state, and the
 // room's findings when they change, to the room's watchers, in the order the
-// states were read.
-func (s *Server) publishBench(sessionID, benchID uint64) (*pb.BenchState, error) {
+// states were read. added is the reading just stored, when that is the
+// change: it joins the cached readings without a read of the file; any other
+// change (nil) reloads the bench.
+func (s *Server) publishBench(sessionID, benchID uint64, added *domain.Reading) (*pb.BenchState, error) {
 	mu := s.hub.sessionLock(sessionID)
 	mu.Lock()
 	defer mu.Unlock()
@@ -474,13 +472,25 @@ func (s *Server) publishBench(sessionID, benchID uint64) (*pb.BenchState, error)
 	if err != nil {
 		return nil, err
 	}
-	st, a, readings, err := s.benchState(sessionID, benchID)
-	if err != nil {
+	if _, known := rs.benches[benchID]; added != nil && known {
+		// Concurrent submissions may publish out of commit order: keep the
+		// cache in the file's order, by sequence.
+		list := append(rs.readings[benchID], *added)
+		for i := len(list) - 1; i > 0 && list[i].Sequence < list[i-1].Sequence; i-- {
+			list[i], list[i-1] = list[i-1], list[i]
+		}
+		rs.readings[benchID] = list
+	} else {
+		b, readings, err := s.db.BenchReadings(sessionID, benchID)
+		if err != nil {
+			return nil, err
+		}
+		rs.benches[benchID], rs.readings[benchID] = b, readings
+	}
+	if err := s.judgeCached(rs, benchID, nil); err != nil {
 		return nil, err
 	}
-	b := benchFromPB(st.GetBench())
-	rs.states[benchID] = st
-	rs.results[benchID] = domain.ResultOf(b, a, readings)
+	st := rs.states[benchID]
 	now := s.now()
 	// Only this bench's flag changes here; checkStalls publishes the others'.
 	rs.stalled[benchID] = domain.StalledBenches(rs.resultList(), now, s.stallAfter)[benchID]

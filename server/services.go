@@ -121,7 +121,11 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	} else {
 		st.s.metrics.readings.Add(1)
 	}
-	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId())
+	var added *domain.Reading
+	if !dup {
+		added = &stored
+	}
+	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId(), added)
 	if err != nil {
 		return nil, err
 	}
@@ -266,7 +270,7 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 	out := &pb.SetBenchesResponse{}
 	for _, b := range all {
 		out.Benches = append(out.Benches, benchToPB(b))
-		if _, err := in.s.publishBench(req.GetSessionId(), b.ID); err != nil {
+		if _, err := in.s.publishBench(req.GetSessionId(), b.ID, nil); err != nil {
 			return nil, err
 		}
 	}

@@ -67,6 +67,7 @@ Commands:
   catalogue list every diagnosis code with its cause and suggested action
   backup  copy the database while serving: fluxroom backup --server HOST:PORT --instructor-key KEY --out FILE (or --db FILE)
   restore put a checked backup in place (server stopped): fluxroom restore --from FILE --db FILE
+  loadtest the scale benchmark of make bench (see README, Performance)
   version print the version
   help    show this text
 
@@ -98,6 +99,8 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.backupCmd(ctx, args[1:])
 	case "restore":
 		return m.restoreCmd(ctx, args[1:])
+	case "loadtest":
+		return m.loadCmd(ctx, args[1:])
 	case "version":
 		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":
