@@ -1,9 +1,13 @@
 package domain
 
 import (
+	"encoding/binary"
 	"fmt"
+	"hash/fnv"
+	"io"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -32,16 +36,25 @@ func ResultOf(b Bench, a Assessment, readings []Reading) BenchResult {
 		r.Ratio = a.Measured.Value / a.Predicted.Value
 		r.RelU = math.Hypot(a.Measured.RelUncertainty(), a.Predicted.Uncertainty/math.Abs(a.Predicted.Value))
 	}
-	if len(readings) >= 3 {
-		var sb strings.Builder
+	if e, ok := LookupExperiment(b.Experiment); ok && len(readings) >= 3 {
+		// A 64-bit FNV-1a hash of every value as typed, in the experiment's
+		// order: cheap enough to keep on every change.
+		h := fnv.New64a()
+		var buf [8]byte
 		for _, rd := range readings {
-			for _, k := range sortedKeys(rd.Values) {
-				q := rd.Values[k]
-				fmt.Fprintf(&sb, "%s=%g%s;", k, q.Value, q.Unit)
+			for _, s := range e.Values {
+				q, ok := rd.Values[s.Name]
+				if !ok {
+					h.Write([]byte{0})
+					continue
+				}
+				binary.LittleEndian.PutUint64(buf[:], math.Float64bits(q.Value))
+				h.Write(buf[:])
+				io.WriteString(h, q.Unit)
 			}
-			sb.WriteByte('|')
+			h.Write([]byte{'|'})
 		}
-		r.Fingerprint = sb.String()
+		r.Fingerprint = strconv.FormatUint(h.Sum64(), 16) + "/" + strconv.Itoa(len(readings))
 	}
 	return r
 }
