@@ -80,6 +80,8 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 				ms3(res.watch, 0.5), ms3(res.watch, 0.99), ms3(res.watch, 0.999), len(res.watch), res.missing)
 			fmt.Fprintf(w, "  process CPU per reading %.0f µs (server and load generator together); peak heap %.0f MB; %.0f bytes on disk per reading\n",
 				res.cpuPerReading*1e6, res.peakHeapMB, res.bytesPerReading)
+			fmt.Fprintf(w, "  start to serving %.1f ms; heap per idle station connection about %.1f KB (half of both ends' growth)\n",
+				float64(res.startToServing.Microseconds())/1000, res.bytesPerIdleConn/1024)
 		}
 	}
 	return nil
@@ -200,6 +202,8 @@ func u64key(v uint64) []byte {
 }
 
 type loadResult struct {
+	startToServing       time.Duration
+	bytesPerIdleConn     float64
 	closedRate, openRate float64
 	ack, watch           []time.Duration
 	missing              int
@@ -224,6 +228,7 @@ func runLoad(stations, watchers int, rate float64, callers int, dur time.Duratio
 	defer os.RemoveAll(dir)
 	m := NewMain(io.Discard, io.Discard)
 	key := "load-test-instructor-key-000"
+	t0 := time.Now()
 	r, err := m.start(filepath.Join(dir, "load.db"), "127.0.0.1:0", slog.New(slog.NewTextHandler(io.Discard, nil)),
 		serverOptions{instructorKey: key, stationRate: 1e6, stationBurst: 1e6})
 	if err != nil {
@@ -231,6 +236,14 @@ func runLoad(stations, watchers int, rate float64, callers int, dur time.Duratio
 	}
 	defer r.stop()
 	addr := r.addr.String()
+	if c, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials())); err == nil {
+		healthpb.NewHealthClient(c).Check(context.Background(), &healthpb.HealthCheckRequest{}, grpc.WaitForReady(true))
+		res.startToServing = time.Since(t0)
+		c.Close()
+	}
+	runtime.GC()
+	var ms0 runtime.MemStats
+	runtime.ReadMemStats(&ms0)
 	admin, _ := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(key)))
 	defer admin.Close()
 	ctx := context.Background()
@@ -269,6 +282,12 @@ func runLoad(stations, watchers int, rate float64, callers int, dur time.Duratio
 			all = append(all, &station{sid: cs.Session.SessionId, bid: b.BenchId, st: rpcpb.NewStationServiceClient(c)})
 		}
 	}
+	runtime.GC()
+	var ms1 runtime.MemStats
+	runtime.ReadMemStats(&ms1)
+	// Both ends of every connection live in this process: half the growth
+	// is an estimate of the server's share.
+	res.bytesPerIdleConn = float64(int64(ms1.HeapInuse)-int64(ms0.HeapInuse)) / 2 / float64(len(all))
 	submit := func(ctx context.Context, s *station) error {
 		k := s.n.Add(1)
 		I := float64(k%9) * 0.5
