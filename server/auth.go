@@ -178,14 +178,14 @@ func (s *Server) authorize(ctx context.Context, method string, req any) error {
 		if !ok || br.GetSessionId() != sid || br.GetBenchId() != bid {
 			return status.Error(codes.PermissionDenied, "a station may only use its own bench")
 		}
-		sess, err := s.db.Session(sid)
+		closed, err := s.sessionClosed(sid)
 		if err != nil {
 			if errors.Is(err, store.ErrNotFound) {
 				return status.Error(codes.PermissionDenied, "the session of this token is gone")
 			}
 			return err
 		}
-		if sess.Closed {
+		if closed {
 			return status.Error(codes.PermissionDenied, "the session is closed")
 		}
 		if method == stationSvc+"SubmitReading" && !s.auth.allow(sid, bid) {
@@ -218,3 +218,18 @@ const (
 	stationRateDefault  = 5
 	stationBurstDefault = 20
 )
+
+// sessionClosed says whether a session is closed. Sessions never reopen, so
+// the answer is remembered: a station's every call then costs no read of
+// the file.
+func (s *Server) sessionClosed(id uint64) (bool, error) {
+	if v, ok := s.closed.Load(id); ok {
+		return v.(bool), nil
+	}
+	sess, err := s.db.Session(id)
+	if err != nil {
+		return false, err
+	}
+	s.closed.Store(id, sess.Closed)
+	return sess.Closed, nil
+}

@@ -73,12 +73,14 @@ type Config struct {
 
 // Server serves the fluxroom API on one listener.
 type Server struct {
-	db      *store.DB
-	log     *slog.Logger
-	now     func() time.Time
-	tol     domain.Tolerance
-	hub     *hub
-	rooms   rooms
+	db    *store.DB
+	log   *slog.Logger
+	now   func() time.Time
+	tol   domain.Tolerance
+	hub   *hub
+	rooms rooms
+	// closed remembers which sessions are closed (session id → bool).
+	closed  sync.Map
 	auth    *auth
 	shown   string
 	metrics *metrics

@@ -90,9 +90,9 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 			return nil, err
 		}
 	}
-	if sess, err := st.s.db.Session(req.GetSessionId()); err != nil {
+	if closed, err := st.s.sessionClosed(req.GetSessionId()); err != nil {
 		return nil, err
-	} else if sess.Closed {
+	} else if closed {
 		return nil, status.Error(codes.FailedPrecondition, "the session is closed; it takes no more readings")
 	}
 	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now(), Supersedes: req.GetSupersedes()}
@@ -485,6 +485,7 @@ func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessi
 	if sess, err = in.s.db.UpdateSession(sess); err != nil {
 		return nil, err
 	}
+	in.s.closed.Store(sess.ID, true)
 	return &pb.CloseSessionResponse{Session: sessionToPB(sess)}, nil
 }
 
