@@ -27,12 +27,7 @@ func FormatMeasurement(v, u float64, unit string) string {
 		scale := math.Pow(10, float64(exp))
 		v, u = v/scale, u/scale
 	}
-	lead := int(math.Floor(math.Log10(u)))
-	sig := 1
-	if u/math.Pow(10, float64(lead)) < 3 {
-		sig = 2
-	}
-	dec := max(sig-1-lead, 0)
+	dec := max(uncertaintyDecimals(u), 0)
 	body := fmt.Sprintf("%.*f ± %.*f", dec, roundTo(v, dec), dec, roundTo(u, dec))
 	if exp != 0 {
 		return fmt.Sprintf("(%s)e%d%s", body, exp, suffix)
@@ -43,4 +38,16 @@ func FormatMeasurement(v, u float64, unit string) string {
 func roundTo(x float64, dec int) float64 {
 	p := math.Pow(10, float64(dec))
 	return math.Round(x*p) / p
+}
+
+// uncertaintyDecimals is the decimal place to round to for an uncertainty
+// u > 0: two significant figures when its leading digit is 1 or 2, else one
+// // common practice. Negative means rounding left of the point.
+func uncertaintyDecimals(u float64) int {
+	lead := int(math.Floor(math.Log10(u)))
+	sig := 1
+	if u/math.Pow(10, float64(lead)) < 3 {
+		sig = 2
+	}
+	return sig - 1 - lead
 }

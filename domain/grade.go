@@ -275,12 +275,7 @@ func RoundToUncertainty(v, u float64) (string, string) {
 	if !(u > 0) || math.IsInf(u, 0) || math.IsNaN(v) {
 		return strconv.FormatFloat(v, 'f', -1, 64), ""
 	}
-	lead := int(math.Floor(math.Log10(u)))
-	sig := 1
-	if u/math.Pow(10, float64(lead)) < 3 {
-		sig = 2
-	}
-	dec := sig - 1 - lead
+	dec := uncertaintyDecimals(u)
 	if dec >= 0 {
 		return fmt.Sprintf("%.*f", dec, roundTo(v, dec)), fmt.Sprintf("%.*f", dec, roundTo(u, dec))
 	}

@@ -148,24 +148,36 @@ func (s *Server) checkStalls() {
 func (s *Server) judgeCached(rs *roomState, benchID uint64, notes []domain.Note) error {
 	b := rs.benches[benchID]
 	readings := rs.readings[benchID]
+	st, a, err := s.judge(rs.session, b, readings, notes)
+	if err != nil {
+		return err
+	}
+	rs.states[benchID] = st
+	rs.results[benchID] = domain.ResultOf(b, a, readings)
+	return nil
+}
+
+// judge assesses a bench under its session's tolerance and, when it is
+// unsafe, looks up whether its alert was acknowledged. notes is the
+// session's audit log when already at hand; nil reads it, and only then.
+// It is the one place a bench's state is made.
+func (s *Server) judge(sess domain.Session, b domain.Bench, readings []domain.Reading, notes []domain.Note) (*pb.BenchState, domain.Assessment, error) {
 	tol := s.tol
-	if rs.session.Tolerance != (domain.Tolerance{}) {
-		tol = rs.session.EffectiveTolerance()
+	if sess.Tolerance != (domain.Tolerance{}) {
+		tol = sess.EffectiveTolerance()
 	}
 	a := domain.Assess(b, readings, tol)
 	st := stateToPB(b, a)
 	if a.Verdict == domain.Unsafe {
 		if notes == nil {
 			var err error
-			if notes, err = s.db.Notes(rs.session.ID); err != nil {
-				return err
+			if notes, err = s.db.Notes(sess.ID); err != nil {
+				return nil, domain.Assessment{}, err
 			}
 		}
-		st.AlertAcknowledged = acknowledged(notes, benchID, a.LastReadingAt)
+		st.AlertAcknowledged = acknowledged(notes, b.ID, a.LastReadingAt)
 	}
-	rs.states[benchID] = st
-	rs.results[benchID] = domain.ResultOf(b, a, readings)
-	return nil
+	return st, a, nil
 }
 
 // acknowledged reports whether an instructor acknowledged the bench's

@@ -365,18 +365,9 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}
-	tol := s.tol
-	if sess.Tolerance != (domain.Tolerance{}) {
-		tol = sess.EffectiveTolerance()
-	}
-	a := domain.Assess(b, rs, tol)
-	st := stateToPB(b, a)
-	if a.Verdict == domain.Unsafe {
-		notes, err := s.db.Notes(sessionID)
-		if err != nil {
-			return nil, domain.Assessment{}, nil, err
-		}
-		st.AlertAcknowledged = acknowledged(notes, benchID, a.LastReadingAt)
+	st, a, err := s.judge(sess, b, rs, nil)
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
 	}
 	return st, a, rs, nil
 }
@@ -495,9 +486,10 @@ func (s *Server) publishBench(sessionID, benchID uint64, added *domain.Reading) 
 	st := rs.states[benchID]
 	now := s.now()
 	// Only this bench's flag changes here; checkStalls publishes the others'.
-	rs.stalled[benchID] = domain.StalledBenches(rs.resultList(), now, s.stallAfter)[benchID]
+	results := rs.resultList()
+	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
 	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
-	if f := domain.RoomFindings(rs.resultList()); !sameFindings(f, rs.findings) {
+	if f := domain.RoomFindings(results); !sameFindings(f, rs.findings) {
 		rs.findings = f
 		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
 	}
