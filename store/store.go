@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"os"
 	"sync"
 	"time"
 
@@ -52,20 +53,40 @@ type appendRes struct {
 // maxGroup bounds how many readings one commit takes.
 const maxGroup = 512
 
+// appendFill is the fill of the append-only buckets' pages. Keys arrive in
+// order at the end of each session's range, so a split page is never
+// written into again below its last key.
+const appendFill = 1.0
+
+// initialMmap is a term of readings at the measured ≈ 200 bytes each, with
+// room to spare: 1 GiB.
+const initialMmap = 1 << 30
+
 // Options tune Open. The zero value is a sensible default.
 type Options struct {
 	// Timeout bounds the wait for the file lock; another fluxroom holding
 	// the file makes Open fail instead of hang. Default 1 s.
 	Timeout time.Duration
+	// ReadOnly opens an existing file to read or check it, changing
+	// nothing: no buckets are made and an older schema is not upgraded
+	// (reads of it are then not supported; Check is). It waits for a
+	// server holding the file like any other Open.
+	ReadOnly bool
 }
 
 // Open opens or creates the database at path, creates missing buckets and
-// checks the schema version.
+// checks the schema version, upgrading an older file.
 func Open(path string, opts Options) (*DB, error) {
 	if opts.Timeout == 0 {
 		opts.Timeout = time.Second
 	}
-	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout})
+	if opts.ReadOnly {
+		return openReadOnly(path, opts)
+	}
+	// A remap of the file waits for every open read transaction and holds
+	// up the writer meanwhile: map more than a term's file from the start,
+	// so it does not happen in class. It is address space, not memory.
+	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout, InitialMmapSize: initialMmap})
 	if err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
@@ -76,6 +97,37 @@ func Open(path string, opts Options) (*DB, error) {
 	}
 	db.wg.Add(1)
 	go db.writer()
+	return db, nil
+}
+
+func openReadOnly(path string, opts Options) (*DB, error) {
+	if _, err := os.Stat(path); err != nil {
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout, ReadOnly: true})
+	if err != nil {
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	err = b.View(func(tx *bbolt.Tx) error {
+		meta := tx.Bucket(bucketMeta)
+		if meta == nil {
+			return errors.New("not a fluxroom database (no meta bucket)")
+		}
+		v, err := decodeU64(meta.Get(keySchemaVersion))
+		if err != nil {
+			return err
+		}
+		if v > SchemaVersion {
+			return fmt.Errorf("%w: the file has schema version %d and this fluxroom reads up to %d; use a newer fluxroom", ErrSchema, v, SchemaVersion)
+		}
+		return nil
+	})
+	if err != nil {
+		b.Close()
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	db := &DB{bolt: b, appends: make(chan appendReq), closed: true}
+	close(db.appends)
 	return db, nil
 }
 
@@ -133,7 +185,13 @@ func (db *DB) prepare(tx *bbolt.Tx) error {
 	if v > SchemaVersion {
 		return fmt.Errorf("%w: the file has schema version %d and this fluxroom reads up to %d; use a newer fluxroom", ErrSchema, v, SchemaVersion)
 	}
-	return nil
+	// Older files are upgraded in the opening transaction: all or nothing.
+	for ; v < SchemaVersion; v++ {
+		if err := upgrades[v](tx); err != nil {
+			return fmt.Errorf("store: upgrade schema %d to %d: %w", v, v+1, err)
+		}
+	}
+	return meta.Put(keySchemaVersion, u64(SchemaVersion))
 }
 
 // Credentials returns the stored hash of the instructor key and the secret
@@ -272,6 +330,7 @@ func (db *DB) AppendNote(sessionID uint64, n domain.Note) error {
 			return err
 		}
 		ev := tx.Bucket(bucketEvents)
+		ev.FillPercent = appendFill
 		seq, err := ev.NextSequence()
 		if err != nil {
 			return err
@@ -412,10 +471,12 @@ func (db *DB) ReadSession(sessionID uint64) (SessionData, error) {
 		if d.Benches, err = listBenches(tx, sessionID); err != nil {
 			return err
 		}
+		all, err := sessionReadings(tx, sessionID, 0)
+		if err != nil {
+			return err
+		}
 		for _, b := range d.Benches {
-			if d.Readings[b.ID], err = listReadings(tx, sessionID, b.ID); err != nil {
-				return err
-			}
+			d.Readings[b.ID] = all[b.ID]
 		}
 		d.Notes, err = listNotes(tx, sessionID)
 		return err
@@ -608,18 +669,29 @@ func (db *DB) BenchReadings(sessionID, benchID uint64) (domain.Bench, []domain.R
 }
 
 func listReadings(tx *bbolt.Tx, sessionID, benchID uint64) ([]domain.Reading, error) {
-	var out []domain.Reading
-	prefix := benchKey(sessionID, benchID)
+	all, err := sessionReadings(tx, sessionID, benchID)
+	return all[benchID], err
+}
+
+// sessionReadings reads a session's readings by bench, each in arrival
+// order; with only set, that bench's alone.
+func sessionReadings(tx *bbolt.Tx, sessionID, only uint64) (map[uint64][]domain.Reading, error) {
+	out := map[uint64][]domain.Reading{}
+	prefix := sessionKey(sessionID)
 	c := tx.Bucket(bucketReadings).Cursor()
 	for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
-		if _, _, _, err := decodeReadingKey(k); err != nil {
+		_, bid, _, err := decodeReadingKey(k)
+		if err != nil {
 			return nil, err
+		}
+		if only != 0 && bid != only {
+			continue
 		}
 		var r recordpb.Reading
 		if err := proto.Unmarshal(v, &r); err != nil {
 			return nil, fmt.Errorf("store: decode reading: %w", err)
 		}
-		out = append(out, readingFromRecord(&r))
+		out[bid] = append(out[bid], readingFromRecord(&r))
 	}
 	return out, nil
 }
@@ -648,12 +720,16 @@ func (db *DB) AppendReading(sessionID, benchID uint64, r domain.Reading) (stored
 // before it writes, so an error leaves the transaction as it was for the
 // other readings of the group.
 func appendOne(tx *bbolt.Tx, sessionID, benchID uint64, r domain.Reading) (domain.Reading, bool, error) {
-	if _, err := getBench(tx, sessionID, benchID); err != nil {
-		return domain.Reading{}, false, err
+	if tx.Bucket(bucketBenches).Get(benchKey(sessionID, benchID)) == nil {
+		return domain.Reading{}, false, fmt.Errorf("%w: bench %d in session %d", ErrNotFound, benchID, sessionID)
 	}
 	ids := tx.Bucket(bucketReadingIDs)
 	idKey := readingIDKey(sessionID, benchID, r.ID)
 	readings := tx.Bucket(bucketReadings)
+	// Each bench's readings are appended at the end of its key range:
+	// full pages on a split, where bbolt's default of half-full pages
+	// would leave the file half empty.
+	readings.FillPercent = appendFill
 	if raw := ids.Get(idKey); raw != nil {
 		seq, err := decodeU64(raw)
 		if err != nil {

@@ -105,9 +105,10 @@ func backupFromServer(ctx context.Context, addr, key string, w io.Writer) (int64
 	return n, nil
 }
 
-// checkFile opens a database file and runs bbolt's consistency check.
+// checkFile opens a database file read-only, so a backup stays exactly as
+// it was written, and runs bbolt's consistency check.
 func checkFile(path string) error {
-	db, err := store.Open(path, store.Options{})
+	db, err := store.Open(path, store.Options{ReadOnly: true})
 	if err != nil {
 		return err
 	}
@@ -131,7 +132,7 @@ func (m *Main) restoreCmd(ctx context.Context, args []string) error {
 		return fmt.Errorf("restore: the backup does not check out: %w", err)
 	}
 	if _, err := os.Stat(*dbPath); err == nil {
-		db, err := store.Open(*dbPath, store.Options{})
+		db, err := store.Open(*dbPath, store.Options{ReadOnly: true})
 		if err != nil {
 			return fmt.Errorf("restore: %s is in use or damaged (%w); stop the server first", *dbPath, err)
 		}
