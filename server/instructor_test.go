@@ -23,13 +23,13 @@ func TestCorrectionsNotesAndStationView(t *testing.T) {
 	if _, err := submit(ctx, r, sid, bid, "slip", 4, 19.2); err != nil {
 		t.Fatal(err)
 	}
-	fix, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: "fix", Supersedes: "slip",
+	_, err := r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: "fix", Supersedes: "slip",
 		Values: map[string]*pb.Quantity{"current": q(4, "A"), "force": q(1.92, "N")}})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if fix.State.ReadingCount != 5 || fix.State.Verdict != pb.Verdict_VERDICT_CONSISTENT {
-		t.Errorf("after the correction: %d readings, %v (%s); want 5 counted and consistent", fix.State.ReadingCount, fix.State.Verdict, fix.State.Reason)
+	if fix := stateNow(t, r, sid, bid); fix.ReadingCount != 5 || fix.Verdict != pb.Verdict_VERDICT_CONSISTENT {
+		t.Errorf("after the correction: %d readings, %v (%s); want 5 counted and consistent", fix.ReadingCount, fix.Verdict, fix.Reason)
 	}
 	// Correcting a reading that is not there is bad input, and stores nothing.
 	_, err = r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: "fix2", Supersedes: "nope",
@@ -84,12 +84,11 @@ func TestUnsafeAlertAcknowledged(t *testing.T) {
 	sess, benches := setupRoom(t, r)
 	sid, bid := sess.SessionId, benches[0].BenchId
 	// 6 A through a coil rated 5 A.
-	res, err := submit(ctx, r, sid, bid, "hot", 6, 2.9)
-	if err != nil {
+	if _, err := submit(ctx, r, sid, bid, "hot", 6, 2.9); err != nil {
 		t.Fatal(err)
 	}
-	if res.State.Verdict != pb.Verdict_VERDICT_UNSAFE || res.State.Caution == "" || res.State.AlertAcknowledged {
-		t.Fatalf("state = %v, caution %q, acknowledged %v; want unsafe with a caution, not acknowledged", res.State.Verdict, res.State.Caution, res.State.AlertAcknowledged)
+	if res := stateNow(t, r, sid, bid); res.Verdict != pb.Verdict_VERDICT_UNSAFE || res.Caution == "" || res.AlertAcknowledged {
+		t.Fatalf("state = %v, caution %q, acknowledged %v; want unsafe with a caution, not acknowledged", res.Verdict, res.Caution, res.AlertAcknowledged)
 	}
 	if _, err := r.instructor.AcknowledgeAlert(ctx, &pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: bid, Author: "instructor"}); err != nil {
 		t.Fatal(err)
@@ -99,8 +98,8 @@ func TestUnsafeAlertAcknowledged(t *testing.T) {
 		t.Errorf("after acknowledging: %v acknowledged %v; want unsafe, acknowledged", st.State.Verdict, st.State.AlertAcknowledged)
 	}
 	// A new unsafe reading raises the alert again.
-	res, _ = submit(ctx, r, sid, bid, "hotter", 6.5, 3.1)
-	if res.State.AlertAcknowledged {
+	submit(ctx, r, sid, bid, "hotter", 6.5, 3.1)
+	if stateNow(t, r, sid, bid).AlertAcknowledged {
 		t.Error("a later unsafe reading stayed acknowledged")
 	}
 }

@@ -18,8 +18,8 @@ type metrics struct {
 	rateLimited atomic.Int64
 	started     time.Time
 
-	mu      sync.Mutex
-	latency map[string]*histogram
+	// latency: method → *histogram, lock-free on the path of every call.
+	latency sync.Map
 }
 
 // latencyBuckets are the upper bounds, in seconds, of the RPC latency
@@ -27,26 +27,22 @@ type metrics struct {
 var latencyBuckets = []float64{0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.25, 0.5, 1, 5}
 
 type histogram struct {
-	counts []int64 // per bucket, then +Inf
-	sum    float64
-	n      int64
+	counts []atomic.Int64 // per bucket, then +Inf
+	sumNs  atomic.Int64
+	n      atomic.Int64
 }
 
-func newMetrics() *metrics { return &metrics{latency: map[string]*histogram{}, started: time.Now()} }
+func newMetrics() *metrics { return &metrics{started: time.Now()} }
 
 func (m *metrics) observe(method string, d time.Duration) {
-	m.mu.Lock()
-	defer m.mu.Unlock()
-	h := m.latency[method]
-	if h == nil {
-		h = &histogram{counts: make([]int64, len(latencyBuckets)+1)}
-		m.latency[method] = h
+	v, ok := m.latency.Load(method)
+	if !ok {
+		v, _ = m.latency.LoadOrStore(method, &histogram{counts: make([]atomic.Int64, len(latencyBuckets)+1)})
 	}
-	s := d.Seconds()
-	i := sort.SearchFloat64s(latencyBuckets, s)
-	h.counts[i]++
-	h.sum += s
-	h.n++
+	h := v.(*histogram)
+	h.counts[sort.SearchFloat64s(latencyBuckets, d.Seconds())].Add(1)
+	h.sumNs.Add(int64(d))
+	h.n.Add(1)
 }
 
 func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
@@ -61,23 +57,22 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	counter("fluxroom_rate_limited_total", "Readings refused by a station's rate limit.", m.rateLimited.Load())
 	fmt.Fprintf(w, "# HELP fluxroom_watchers Open room streams.\n# TYPE fluxroom_watchers gauge\nfluxroom_watchers %d\n", s.hub.watcherCount())
 	fmt.Fprintf(w, "# HELP fluxroom_uptime_seconds Seconds since the server started.\n# TYPE fluxroom_uptime_seconds gauge\nfluxroom_uptime_seconds %.0f\n", time.Since(m.started).Seconds())
-	m.mu.Lock()
-	defer m.mu.Unlock()
-	methods := make([]string, 0, len(m.latency))
-	for k := range m.latency {
-		methods = append(methods, k)
-	}
+	var methods []string
+	m.latency.Range(func(k, _ any) bool { methods = append(methods, k.(string)); return true })
 	sort.Strings(methods)
 	fmt.Fprintf(w, "# HELP fluxroom_rpc_seconds RPC latency.\n# TYPE fluxroom_rpc_seconds histogram\n")
 	for _, meth := range methods {
-		h := m.latency[meth]
+		v, _ := m.latency.Load(meth)
+		h := v.(*histogram)
+		// Read the count first: a call observed meanwhile only makes the
+		// buckets run ahead of it, never a bucket above the count.
+		n := h.n.Load()
 		var cum int64
 		for i, b := range latencyBuckets {
-			cum += h.counts[i]
-			fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"%g\"} %d\n", meth, b, cum)
+			cum += h.counts[i].Load()
+			fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"%g\"} %d\n", meth, b, min(cum, n))
 		}
-		cum += h.counts[len(latencyBuckets)]
-		fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"+Inf\"} %d\n", meth, cum)
-		fmt.Fprintf(w, "fluxroom_rpc_seconds_sum{method=%q} %g\nfluxroom_rpc_seconds_count{method=%q} %d\n", meth, h.sum, meth, h.n)
+		fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"+Inf\"} %d\n", meth, n)
+		fmt.Fprintf(w, "fluxroom_rpc_seconds_sum{method=%q} %g\nfluxroom_rpc_seconds_count{method=%q} %d\n", meth, time.Duration(h.sumNs.Load()).Seconds(), meth, n)
 	}
 }

@@ -2,15 +2,15 @@ package server
 
 import (
 	"context"
-	crand "crypto/rand"
-	"encoding/hex"
 	"errors"
 	"fmt"
 	"log/slog"
 	"net"
 	"net/http"
 	"slices"
+	"strconv"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"connectrpc.com/vanguard"
@@ -92,6 +92,17 @@ type Server struct {
 	http                   *http.Server
 	health                 *health.Server
 
+	// judges holds each session's roomJudge; judgeWG waits for them at
+	// shutdown.
+	judges  sync.Map
+	judgeWG sync.WaitGroup
+	// benches caches the benches stations submit to, so a reading costs no
+	// read of the file before its write.
+	benches benchCache
+
+	ridPrefix string
+	ridNext   atomic.Uint64
+
 	mu   sync.Mutex
 	mux  cmux.CMux
 	done chan struct{}
@@ -102,7 +113,8 @@ func New(cfg Config) (*Server, error) {
 	if cfg.DB == nil || cfg.Logger == nil {
 		return nil, errors.New("server: Config needs DB and Logger")
 	}
-	s := &Server{db: cfg.DB, log: cfg.Logger, now: cfg.Now, tol: cfg.Tolerance, hub: newHub(), done: make(chan struct{})}
+	s := &Server{db: cfg.DB, log: cfg.Logger, now: cfg.Now, tol: cfg.Tolerance, hub: newHub(), done: make(chan struct{}),
+		ridPrefix: strconv.FormatInt(time.Now().Unix()%(1<<24), 36) + "-"}
 	if s.now == nil {
 		s.now = time.Now
 	}
@@ -255,6 +267,9 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	case <-ctx.Done():
 		s.grpc.Stop()
 	}
+	// The judges stop at s.done; a reading they had not judged yet is in
+	// the file and is judged when its room is next loaded.
+	s.judgeWG.Wait()
 	err := s.http.Shutdown(ctx)
 	// cmux's listeners share the one socket: whichever server closes it
 	// first, the other finds it closed.
@@ -301,22 +316,25 @@ func (s *Server) StationToken(sessionID, benchID uint64) string {
 
 // requestID is a short random id that ties a call's log lines together and
 // is returned to the caller as the x-request-id header.
-func requestID() string {
-	b := make([]byte, 6)
-	crand.Read(b)
-	return hex.EncodeToString(b)
+// requestID names a call in the logs: the process's start time and a
+// counter, unique per process and free to make.
+func (s *Server) requestID() string {
+	return s.ridPrefix + strconv.FormatUint(s.ridNext.Add(1), 36)
 }
 
 func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
 	start := time.Now()
-	rid := requestID()
+	rid := s.requestID()
 	grpc.SetHeader(ctx, metadata.Pairs("x-request-id", rid))
-	log := s.log.With("request_id", rid)
 	resp, err := handler(ctx, req)
-	err = toStatus(ctx, log, info.FullMethod, err)
+	if err != nil {
+		err = toStatus(ctx, s.log.With("request_id", rid), info.FullMethod, err)
+	}
 	d := time.Since(start)
 	s.metrics.observe(info.FullMethod, d)
-	log.DebugContext(ctx, "rpc", "method", info.FullMethod, "code", status.Code(err).String(), "ms", float64(d.Microseconds())/1000)
+	if s.log.Enabled(ctx, slog.LevelDebug) {
+		s.log.DebugContext(ctx, "rpc", "request_id", rid, "method", info.FullMethod, "code", status.Code(err).String(), "ms", float64(d.Microseconds())/1000)
+	}
 	if status.Code(err) == codes.InvalidArgument {
 		s.metrics.rejected.Add(1)
 	}
@@ -324,7 +342,7 @@ func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServe
 }
 
 func (s *Server) streamErrors(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {
-	rid := requestID()
+	rid := s.requestID()
 	ss.SetHeader(metadata.Pairs("x-request-id", rid))
 	log := s.log.With("request_id", rid)
 	log.DebugContext(ss.Context(), "stream opened", "method", info.FullMethod)
@@ -342,11 +360,68 @@ func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
 	if benchID == 0 {
 		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
 	}
+	if b, ok := s.benches.get(sessionID, benchID); ok {
+		return b, nil
+	}
+	gen := s.benches.generation(sessionID)
 	b, err := s.db.Bench(sessionID, benchID)
 	if errors.Is(err, store.ErrNotFound) {
 		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
 	}
-	return b, err
+	if err != nil {
+		return domain.Bench{}, err
+	}
+	s.benches.put(sessionID, b, gen)
+	return b, nil
+}
+
+// benchCache holds benches read from the file. Every write of a session's
+// benches calls forget, which also bumps the session's generation, so a
+// read that raced with the write is not cached.
+type benchCache struct {
+	mu  sync.RWMutex
+	m   map[[2]uint64]domain.Bench
+	gen map[uint64]uint64
+}
+
+func (c *benchCache) get(sessionID, benchID uint64) (domain.Bench, bool) {
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	b, ok := c.m[[2]uint64{sessionID, benchID}]
+	return b, ok
+}
+
+func (c *benchCache) generation(sessionID uint64) uint64 {
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	return c.gen[sessionID]
+}
+
+func (c *benchCache) put(sessionID uint64, b domain.Bench, gen uint64) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.gen[sessionID] != gen {
+		return
+	}
+	if c.m == nil {
+		c.m = map[[2]uint64]domain.Bench{}
+	}
+	c.m[[2]uint64{sessionID, b.ID}] = b
+}
+
+// forget drops a session's cached benches; call it after writing them.
+func (c *benchCache) forget(sessionID uint64) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.gen == nil {
+		c.gen = map[uint64]uint64{}
+	}
+	c.gen[sessionID]++
+	for k := range c.m {
+		if k[0] == sessionID {
+			delete(c.m, k)
+		}
+	}
 }
 
 // benchState reads a bench and its readings and judges them.
@@ -427,7 +502,7 @@ func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
 	if err := s.db.AppendNote(sessionID, n); err != nil {
 		return nil, err
 	}
-	if _, err := s.publishBench(sessionID, n.BenchID, nil); err != nil {
+	if err := s.publishBench(sessionID, n.BenchID); err != nil {
 		return nil, err
 	}
 	return noteToPB(n), nil
@@ -445,55 +520,39 @@ func (s *Server) rejudgeRoom(sessionID uint64) error {
 		return err
 	}
 	for _, b := range benches {
-		if _, err := s.publishBench(sessionID, b.ID, nil); err != nil {
+		if err := s.publishBench(sessionID, b.ID); err != nil {
 			return err
 		}
 	}
 	return nil
 }
 
-// publishBench judges a bench after a change and sends its state, and the
-// room's findings when they change, to the room's watchers, in the order the
-// states were read. added is the reading just stored, when that is the
-// change: it joins the cached readings without a read of the file; any other
-// change (nil) reloads the bench.
-func (s *Server) publishBench(sessionID, benchID uint64, added *domain.Reading) (*pb.BenchState, error) {
+// publishBench reads a bench back from the file after a change other than a
+// new reading (its benches, notes, tolerance), judges it and sends its
+// state, and the room's findings when they change, to the room's watchers.
+func (s *Server) publishBench(sessionID, benchID uint64) error {
 	mu := s.hub.sessionLock(sessionID)
 	mu.Lock()
 	defer mu.Unlock()
 	rs, err := s.loadRoom(sessionID)
 	if err != nil {
-		return nil, err
+		return err
 	}
-	if _, known := rs.benches[benchID]; added != nil && known {
-		// Concurrent submissions may publish out of commit order: keep the
-		// cache in the file's order, by sequence.
-		list := append(rs.readings[benchID], *added)
-		for i := len(list) - 1; i > 0 && list[i].Sequence < list[i-1].Sequence; i-- {
-			list[i], list[i-1] = list[i-1], list[i]
-		}
-		rs.readings[benchID] = list
-	} else {
-		b, readings, err := s.db.BenchReadings(sessionID, benchID)
-		if err != nil {
-			return nil, err
-		}
-		rs.benches[benchID], rs.readings[benchID] = b, readings
+	b, readings, err := s.db.BenchReadings(sessionID, benchID)
+	if err != nil {
+		return err
 	}
+	rs.benches[benchID], rs.readings[benchID] = b, readings
 	if err := s.judgeCached(rs, benchID, nil); err != nil {
-		return nil, err
+		return err
 	}
-	st := rs.states[benchID]
 	now := s.now()
 	// Only this bench's flag changes here; checkStalls publishes the others'.
 	results := rs.resultList()
 	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
 	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
-	if f := domain.RoomFindings(results); !sameFindings(f, rs.findings) {
-		rs.findings = f
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
-	}
-	return st, nil
+	s.publishFindings(sessionID, rs, results)
+	return nil
 }
 
 // snapshot is the whole room now, from the room cache.

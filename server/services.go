@@ -61,7 +61,9 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 	for _, b := range benches {
 		if strings.EqualFold(b.Label, strings.TrimSpace(req.GetBenchLabel())) {
 			if members != "" && members != b.Members {
-				if err := st.s.db.SetMembers(sess.ID, b.ID, members); err != nil {
+				err := st.s.db.SetMembers(sess.ID, b.ID, members)
+				st.s.benches.forget(sess.ID)
+				if err != nil {
 					return nil, err
 				}
 				b.Members = members
@@ -120,19 +122,12 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		st.s.metrics.duplicates.Add(1)
 	} else {
 		st.s.metrics.readings.Add(1)
-	}
-	var added *domain.Reading
-	if !dup {
-		added = &stored
-	}
-	state, err := st.s.publishBench(req.GetSessionId(), req.GetBenchId(), added)
-	if err != nil {
-		return nil, err
+		st.s.judged(req.GetSessionId(), req.GetBenchId(), stored)
 	}
 	if err := st.s.fail("replying"); err != nil {
 		return nil, err
 	}
-	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), State: state, Duplicate: dup}, nil
+	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), Duplicate: dup}, nil
 }
 
 func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
@@ -263,6 +258,7 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 		return nil, &domain.ValidationError{Violations: vs}
 	}
 	all, err := in.s.db.PutBenches(req.GetSessionId(), benches)
+	in.s.benches.forget(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
@@ -270,7 +266,7 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 	out := &pb.SetBenchesResponse{}
 	for _, b := range all {
 		out.Benches = append(out.Benches, benchToPB(b))
-		if _, err := in.s.publishBench(req.GetSessionId(), b.ID, nil); err != nil {
+		if err := in.s.publishBench(req.GetSessionId(), b.ID); err != nil {
 			return nil, err
 		}
 	}

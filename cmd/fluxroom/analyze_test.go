@@ -104,6 +104,13 @@ func TestSubmitIsIdempotent(t *testing.T) {
 	if err := NewMain(&first, io.Discard).Run(ctx, args); err != nil {
 		t.Fatal(err)
 	}
+	// A station sees its verdict only once the session allows it.
+	if !strings.Contains(first.String(), "shown after class") {
+		t.Errorf("first run, verdicts hidden: %s", first.String())
+	}
+	if _, err := in.UpdateSession(ctx, &pb.UpdateSessionRequest{SessionId: cs.Session.SessionId, StationsSeeVerdicts: true}); err != nil {
+		t.Fatal(err)
+	}
 	if err := NewMain(&second, io.Discard).Run(ctx, args); err != nil {
 		t.Fatal(err)
 	}

@@ -100,8 +100,12 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 			stored++
 		}
 	}
+	now, err := st.GetBenchState(tctx, &pb.GetBenchStateRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId})
+	if err != nil {
+		return fmt.Errorf("read the bench's state back: %w", err)
+	}
 	fmt.Fprintf(m.Stdout, "bench %s: %d readings stored, %d already there; now %s: %s\n", *bench, stored, dup,
-		last.GetState().GetVerdictLabel(), last.GetState().GetReason())
+		now.GetState().GetVerdictLabel(), now.GetState().GetReason())
 	if len(errs) > 0 {
 		return fmt.Errorf("%d bad rows or cells were not sent", len(errs))
 	}

@@ -2027,10 +2027,12 @@ func (x *SubmitReadingRequest) GetSupersedes() string {
 	return ""
 }
 
+// The answer comes once the reading is durable. The bench is judged after
+// that, for the room stream and GetBenchState: an answer waits for no
+// fit, and a station never sees more than its session allows.
 type SubmitReadingResponse struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
 	Reading *Reading               `protobuf:"bytes,1,opt,name=reading,proto3" json:"reading,omitempty"`
-	State   *BenchState            `protobuf:"bytes,2,opt,name=state,proto3" json:"state,omitempty"`
 	// True when a reading with this id was already stored; nothing new was.
 	Duplicate     bool `protobuf:"varint,3,opt,name=duplicate,proto3" json:"duplicate,omitempty"`
 	unknownFields protoimpl.UnknownFields
@@ -2070,13 +2072,6 @@ func (*SubmitReadingResponse) Descriptor() ([]byte, []int) {
 func (x *SubmitReadingResponse) GetReading() *Reading {
 	if x != nil {
 		return x.Reading
-	}
-	return nil
-}
-
-func (x *SubmitReadingResponse) GetState() *BenchState {
-	if x != nil {
-		return x.State
 	}
 	return nil
 }
@@ -3739,11 +3734,10 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"supersedes\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
-	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\x94\x01\n" +
+	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"r\n" +
 	"\x15SubmitReadingResponse\x12.\n" +
-	"\areading\x18\x01 \x01(\v2\x14.fluxroom.v1.ReadingR\areading\x12-\n" +
-	"\x05state\x18\x02 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x12\x1c\n" +
-	"\tduplicate\x18\x03 \x01(\bR\tduplicate\"P\n" +
+	"\areading\x18\x01 \x01(\v2\x14.fluxroom.v1.ReadingR\areading\x12\x1c\n" +
+	"\tduplicate\x18\x03 \x01(\bR\tduplicateJ\x04\b\x02\x10\x03R\x05state\"P\n" +
 	"\x14GetBenchStateRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
@@ -3959,34 +3953,33 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	3,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
 	56, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
 	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	15, // 33: fluxroom.v1.SubmitReadingResponse.state:type_name -> fluxroom.v1.BenchState
-	15, // 34: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	9,  // 35: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	6,  // 36: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	4,  // 37: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 38: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 39: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	7,  // 40: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	4,  // 41: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 42: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	3,  // 43: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	8,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	8,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	19, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	15, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	13, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	16, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	3,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
-	1,  // 52: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	2,  // 53: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 54: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 55: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	56, // [56:56] is the sub-list for method output_type
-	56, // [56:56] is the sub-list for method input_type
-	56, // [56:56] is the sub-list for extension type_name
-	56, // [56:56] is the sub-list for extension extendee
-	0,  // [0:56] is the sub-list for field type_name
+	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	6,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	4,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	7,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	4,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	3,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	8,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	8,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	19, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	15, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	13, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	16, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	3,  // 49: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 50: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	1,  // 51: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
+	2,  // 52: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 53: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	55, // [55:55] is the sub-list for method output_type
+	55, // [55:55] is the sub-list for method input_type
+	55, // [55:55] is the sub-list for extension type_name
+	55, // [55:55] is the sub-list for extension extendee
+	0,  // [0:55] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }

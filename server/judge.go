@@ -1,0 +1,150 @@
+package server
+
+import (
+	"sync"
+	"time"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// A reading is acknowledged as soon as it is durable; its bench is judged
+// and published to the room by the session's judge, one goroutine per
+// session with new readings. The judge takes every reading that arrived
+// while it was busy in one pass: a bench that got three readings is judged
+// once, and the room's findings are worked out once per pass, so a busy
+// room costs less per reading than a quiet one instead of more.
+
+// roomJudge is a session's queue of committed readings waiting to be
+// judged.
+type roomJudge struct {
+	mu      sync.Mutex
+	pending map[uint64][]domain.Reading // bench id → readings, in commit order
+	wake    chan struct{}
+}
+
+// judged enqueues a committed reading for its session's judge and returns
+// at once.
+func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
+	v, ok := s.judges.Load(sessionID)
+	if !ok {
+		j := &roomJudge{pending: map[uint64][]domain.Reading{}, wake: make(chan struct{}, 1)}
+		if v, ok = s.judges.LoadOrStore(sessionID, j); !ok {
+			s.judgeWG.Add(1)
+			go s.runJudge(sessionID, j)
+		}
+	}
+	j := v.(*roomJudge)
+	j.mu.Lock()
+	j.pending[benchID] = append(j.pending[benchID], r)
+	j.mu.Unlock()
+	select {
+	case j.wake <- struct{}{}:
+	default:
+	}
+}
+
+// findingsEvery spaces a room's findings: they sum up many benches and move
+// slowly, so a busy room works them out at most this often, and a quiet
+// room at once.
+const findingsEvery = 200 * time.Millisecond
+
+func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
+	defer s.judgeWG.Done()
+	var lastFindings time.Time
+	var findingsDue <-chan time.Time
+	findingsOwed := false
+	for {
+		select {
+		case <-s.done:
+			return
+		case <-j.wake:
+		case <-findingsDue:
+			findingsDue = nil
+		}
+		j.mu.Lock()
+		batch := j.pending
+		j.pending = make(map[uint64][]domain.Reading, len(batch))
+		j.mu.Unlock()
+		now := time.Now()
+		findingsOwed = findingsOwed || len(batch) > 0
+		withFindings := findingsOwed && now.Sub(lastFindings) >= findingsEvery
+		if len(batch) > 0 || withFindings {
+			if err := s.judgePass(sessionID, batch, withFindings); err != nil {
+				s.log.Error("judging a room", "session_id", sessionID, "err", err)
+			}
+		}
+		if withFindings {
+			lastFindings, findingsOwed = now, false
+		}
+		if findingsOwed && findingsDue == nil {
+			findingsDue = time.After(lastFindings.Add(findingsEvery).Sub(now))
+		}
+	}
+}
+
+// judgePass adds a batch of committed readings to the room, judges each
+// bench that got one and publishes their states, and then, withFindings,
+// the room's findings if they changed.
+func (s *Server) judgePass(sessionID uint64, batch map[uint64][]domain.Reading, withFindings bool) error {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	defer mu.Unlock()
+	rs, err := s.loadRoom(sessionID)
+	if err != nil {
+		return err
+	}
+	now := s.now()
+	var changed []uint64
+	for bid, readings := range batch {
+		if _, known := rs.benches[bid]; !known {
+			continue
+		}
+		for _, r := range readings {
+			rs.readings[bid] = mergeReading(rs.readings[bid], r)
+		}
+		if err := s.judgeCached(rs, bid, nil); err != nil {
+			return err
+		}
+		changed = append(changed, bid)
+	}
+	// Only the changed benches' stalled flags move here; checkStalls
+	// publishes the others'.
+	results := rs.resultList()
+	stalled := domain.StalledBenches(results, now, s.stallAfter)
+	for _, bid := range changed {
+		rs.stalled[bid] = stalled[bid]
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid, now)}})
+	}
+	if withFindings {
+		s.publishFindings(sessionID, rs, results)
+	}
+	return nil
+}
+
+// mergeReading adds a committed reading to a bench's cached list, kept in
+// the file's order (by sequence). The room may have been loaded from the
+// file after the reading was committed: then it is there already.
+func mergeReading(list []domain.Reading, r domain.Reading) []domain.Reading {
+	i := len(list)
+	for i > 0 && list[i-1].Sequence > r.Sequence {
+		i--
+	}
+	if i > 0 && list[i-1].Sequence == r.Sequence {
+		return list
+	}
+	list = append(list, domain.Reading{})
+	copy(list[i+1:], list[i:])
+	list[i] = r
+	return list
+}
+
+// publishFindings works out the room's findings from its results and
+// publishes them when they changed. Call with the session's publish lock
+// held.
+func (s *Server) publishFindings(sessionID uint64, rs *roomState, results []domain.BenchResult) {
+	if f := domain.RoomFindings(results); !sameFindings(f, rs.findings) {
+		rs.findings = f
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
+	}
+}
