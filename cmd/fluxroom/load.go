@@ -4,87 +4,90 @@ import (
 	"context"
 	"fmt"
 	"io"
-	"log/slog"
 	"math/rand/v2"
-	"net"
 	"os"
 	"path/filepath"
 	"runtime"
-	"runtime/pprof"
-	"sort"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
 	"sync/atomic"
-	"syscall"
 	"time"
 
 	"go.etcd.io/bbolt"
 	"google.golang.org/grpc"
+	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
-	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/internal/bearer"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
 
-// loadCmd is the scale benchmark behind `make bench`: the real server on
-// loopback with a temporary bbolt file, stations on their own connections
-// submitting open-loop, watchers on the room streams, and the baselines its
-// figures are divided by, measured in the same run.
+// loadConfig is one run of the scale benchmark.
+type loadConfig struct {
+	stations, watchers []int
+	light, heavy       float64
+	// perStation caps each station's pace: a data logger's, far above a
+	// group typing by hand, so few stations cannot carry a room's rate.
+	perStation float64
+	dur        time.Duration
+	callers    int
+	flooders   int
+	profile    string
+}
+
+// The sweep's servers run with the station rate limit a department would
+// set for benches with data loggers; the closed loop lifts it to measure
+// the ceiling.
+const (
+	loadStationRate  = "20"
+	loadStationBurst = "40"
+	loadKey          = "load-test-instructor-key-000"
+)
+
+// loadCmd is the scale benchmark behind `make bench`: real servers as child
+// processes on loopback with temporary bbolt files, stations on their own
+// connections submitting open loop, watchers on the room streams, and the
+// baselines its figures are divided by, measured in the same run.
 func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	fs := m.newFlags("loadtest")
-	stations := fs.String("stations", "30,512", "comma-separated numbers of station connections to sweep")
-	watchers := fs.String("watchers", "1,100", "comma-separated numbers of room watchers to sweep")
-	rate := fs.Float64("rate", 1000, "open-loop readings per second across all stations")
-	dur := fs.Duration("duration", 3*time.Second, "how long each measurement runs")
-	callers := fs.Int("callers", 512, "concurrent callers for the closed-loop throughput and its echo baseline")
-	profile := fs.String("cpuprofile", "", "write a CPU profile of the run to this file")
+	full := fs.Bool("full", false, "the full sweep: M = 30, 512, 5000 stations, W = 1, 100 watchers, 5 s phases")
+	stations := fs.String("stations", "", "comma-separated station counts to sweep (default 30,512; 30,512,5000 with --full)")
+	watchers := fs.String("watchers", "1,100", "comma-separated watcher counts to sweep")
+	light := fs.Float64("light", 1000, "light open-loop load, readings per second")
+	heavy := fs.Float64("heavy", 5000, "heavy open-loop load, readings per second")
+	perStation := fs.Float64("per-station", 10, "most readings per second one station sends in the open loop")
+	dur := fs.Duration("duration", 0, "length of each phase (default 1.5 s; 5 s with --full)")
+	callers := fs.Int("callers", 512, "concurrent callers of the closed loop and its echo baseline")
+	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
+	profile := fs.String("server-cpuprofile", "", "write the closed-loop server's CPU profile to this file")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
-	if *profile != "" {
-		f, err := os.Create(*profile)
-		if err != nil {
-			return err
-		}
-		pprof.StartCPUProfile(f)
-		defer func() { pprof.StopCPUProfile(); f.Close() }()
+	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
+		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile}
+	switch {
+	case *stations != "":
+		cfg.stations = ints(*stations)
+	case *full:
+		cfg.stations = []int{30, 512, 5000}
+	default:
+		cfg.stations = []int{30, 512}
 	}
-	w := m.Stdout
-	fmt.Fprintf(w, "fluxroom loadtest · %s · %d CPUs · Go %s\n", time.Now().Format("2006-01-02 15:04"), runtime.NumCPU(), runtime.Version())
-	echo, err := echoBaseline(*callers, *dur)
-	if err != nil {
-		return err
-	}
-	single, group, err := bboltBaselines(*dur)
-	if err != nil {
-		return err
-	}
-	fmt.Fprintf(w, "baseline: bare grpc-go unary (health Check via grpc.Server.Serve), %d callers / 32 conns: %.0f calls/s\n", *callers, echo)
-	fmt.Fprintf(w, "baseline: raw bbolt appends: one Update each %.0f/s; DB.Batch from 512 goroutines (1 ms delay) %.0f/s\n", single, group)
-	for _, ms := range ints(*stations) {
-		for _, ws := range ints(*watchers) {
-			res, err := runLoad(ms, ws, *rate, *callers, *dur)
-			if err != nil {
-				return err
-			}
-			fmt.Fprintf(w, "\nM=%d stations, W=%d watchers\n", ms, ws)
-			fmt.Fprintf(w, "  durable ingest, closed loop (%d callers): %.0f readings/s = %.2f × echo, %.2f × bbolt group commit\n",
-				*callers, res.closedRate, res.closedRate/echo, res.closedRate/group)
-			fmt.Fprintf(w, "  open loop at %.0f/s: stored %.0f/s; submit→ack p50 %s p99 %s p999 %s\n", *rate, res.openRate,
-				ms3(res.ack, 0.5), ms3(res.ack, 0.99), ms3(res.ack, 0.999))
-			fmt.Fprintf(w, "  submit→watcher p50 %s p99 %s p999 %s over %d events; verdicts missing at watchers %d\n",
-				ms3(res.watch, 0.5), ms3(res.watch, 0.99), ms3(res.watch, 0.999), len(res.watch), res.missing)
-			fmt.Fprintf(w, "  process CPU per reading %.0f µs (server and load generator together); peak heap %.0f MB; %.0f bytes on disk per reading\n",
-				res.cpuPerReading*1e6, res.peakHeapMB, res.bytesPerReading)
-			fmt.Fprintf(w, "  start to serving %.1f ms; heap per idle station connection about %.1f KB (half of both ends' growth)\n",
-				float64(res.startToServing.Microseconds())/1000, res.bytesPerIdleConn/1024)
+	if cfg.dur == 0 {
+		cfg.dur = 1500 * time.Millisecond
+		if *full {
+			cfg.dur = 5 * time.Second
 		}
 	}
-	return nil
+	if len(cfg.stations) == 0 || len(cfg.watchers) == 0 || cfg.light <= 0 || cfg.heavy <= 0 || cfg.callers <= 0 {
+		return usageError{"loadtest: --stations, --watchers, --light, --heavy and --callers must be positive"}
+	}
+	return runLoadtest(m.Stdout, cfg)
 }
 
 func ints(s string) []int {
@@ -97,69 +100,134 @@ func ints(s string) []int {
 	return out
 }
 
-func ms3(d []time.Duration, q float64) string {
+// quantile of sorted durations, in milliseconds.
+func quantile(d []time.Duration, q float64) float64 {
 	if len(d) == 0 {
-		return "—"
+		return 0
 	}
 	i := min(len(d)-1, int(q*float64(len(d))))
-	return fmt.Sprintf("%.1f ms", float64(d[i].Microseconds())/1000)
+	return float64(d[i].Microseconds()) / 1000
 }
 
-// echoBaseline is the bare grpc-go server: the health service's Check, the
-// cheapest unary call there is, from callers over 32 connections.
-func echoBaseline(callers int, dur time.Duration) (float64, error) {
-	l, err := net.Listen("tcp", "127.0.0.1:0")
-	if err != nil {
-		return 0, err
+func ms3(d []time.Duration) string {
+	if len(d) == 0 {
+		return "p50 — p99 — p999 —"
 	}
-	s := grpc.NewServer()
-	healthpb.RegisterHealthServer(s, health.NewServer())
-	go s.Serve(l)
-	defer s.Stop()
+	return fmt.Sprintf("p50 %.1f p99 %.1f p999 %.1f ms", quantile(d, 0.5), quantile(d, 0.99), quantile(d, 0.999))
+}
+
+func mark(ok bool) string {
+	if ok {
+		return "met"
+	}
+	return "MISSED"
+}
+
+func runLoadtest(w io.Writer, cfg loadConfig) error {
+	fmt.Fprintf(w, "fluxroom loadtest · %s · %s · %d CPUs · %s · servers are child processes on loopback\n",
+		time.Now().Format("2006-01-02 15:04"), cpuModel(), runtime.NumCPU(), runtime.Version())
+	dir, err := os.MkdirTemp("", "fluxroom-load-")
+	if err != nil {
+		return err
+	}
+	defer os.RemoveAll(dir)
+
+	echo, echoCPU, err := echoBaseline(cfg.callers, cfg.dur)
+	if err != nil {
+		return fmt.Errorf("echo baseline: %w", err)
+	}
+	fmt.Fprintf(w, "baseline echo: bare grpc-go health Check via grpc.Server.Serve, %d callers over 32 connections: %.0f calls/s, server CPU %.0f µs/call\n",
+		cfg.callers, echo, echoCPU*1e6)
+	single, group, err := bboltBaselines(dir, cfg.dur)
+	if err != nil {
+		return fmt.Errorf("bbolt baseline: %w", err)
+	}
+	fmt.Fprintf(w, "baseline bbolt: 100-byte appends, one Update each %.0f/s; one writer committing what 512 goroutines queued %.0f/s\n", single, group)
+
+	cl, err := closedLoops(dir, cfg)
+	if err != nil {
+		return fmt.Errorf("closed loop: %w", err)
+	}
+	fmt.Fprintf(w, "\nclosed loop, %d callers, each reading durable and judged before its answer:\n", cfg.callers)
+	fmt.Fprintf(w, "  over 32 shared connections:   %6.0f readings/s = %.2f × echo, %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call\n",
+		cl.sharedRate, cl.sharedRate/echo, cl.sharedRate/group, cl.sharedCPU*1e6, cl.sharedCPU/echoCPU)
+	fmt.Fprintf(w, "  one connection per station:   %6.0f readings/s = %.2f × echo; server CPU %.0f µs/reading\n",
+		cl.ownRate, cl.ownRate/echo, cl.ownCPU*1e6)
+
+	var points []sweepPoint
+	for _, ms := range cfg.stations {
+		for _, ws := range cfg.watchers {
+			p, err := sweep(dir, cfg, ms, ws)
+			if err != nil {
+				return fmt.Errorf("M=%d W=%d: %w", ms, ws, err)
+			}
+			p.print(w)
+			points = append(points, p)
+		}
+	}
+	summarize(w, cfg, echo, cl, points)
+	return nil
+}
+
+// echoBaseline measures the bare grpc-go server in its own process.
+func echoBaseline(callers int, dur time.Duration) (rate, cpuPerCall float64, err error) {
+	c, _, err := startChild("loadtest-echo")
+	if err != nil {
+		return 0, 0, err
+	}
+	defer c.stop()
 	var conns []*grpc.ClientConn
 	for i := 0; i < 32; i++ {
-		c, err := grpc.NewClient(l.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()))
+		cc, err := grpc.NewClient(c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
 		if err != nil {
-			return 0, err
+			return 0, 0, err
 		}
-		defer c.Close()
-		conns = append(conns, c)
+		defer cc.Close()
+		conns = append(conns, cc)
 	}
+	n, cpu := closedRun(callers, dur, c, func(ctx context.Context, i int) error {
+		_, err := healthpb.NewHealthClient(conns[i%len(conns)]).Check(ctx, &healthpb.HealthCheckRequest{})
+		return err
+	})
+	return n / dur.Seconds(), cpu, nil
+}
+
+// closedRun runs callers that each call as fast as answers come for dur and
+// returns how many calls succeeded, and the server's CPU per call.
+func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.Context, caller int) error) (float64, float64) {
 	var n atomic.Int64
 	ctx, cancel := context.WithTimeout(context.Background(), dur)
 	defer cancel()
+	cpu0 := c.cpu()
 	var wg sync.WaitGroup
 	for i := 0; i < callers; i++ {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			h := healthpb.NewHealthClient(conns[i%len(conns)])
 			for ctx.Err() == nil {
-				if _, err := h.Check(ctx, &healthpb.HealthCheckRequest{}); err == nil {
+				if call(ctx, i) == nil {
 					n.Add(1)
 				}
 			}
 		}()
 	}
 	wg.Wait()
-	return float64(n.Load()) / dur.Seconds(), nil
+	cpu := c.cpu() - cpu0
+	return float64(n.Load()), cpu / float64(max(1, n.Load()))
 }
 
-// bboltBaselines appends 100-byte records: one Update each, then DB.Batch
-// from 512 goroutines.
-func bboltBaselines(dur time.Duration) (single, group float64, err error) {
-	dir, err := os.MkdirTemp("", "fluxroom-bolt-")
-	if err != nil {
-		return 0, 0, err
-	}
-	defer os.RemoveAll(dir)
-	db, err := bbolt.Open(filepath.Join(dir, "b.db"), 0o600, nil)
+// bboltBaselines appends 100-byte records to a bare bbolt file: one Update
+// each, then one writer that commits everything 512 goroutines queued while
+// the previous commit ran (the store's scheme, without the store).
+func bboltBaselines(dir string, dur time.Duration) (single, group float64, err error) {
+	db, err := bbolt.Open(filepath.Join(dir, "baseline.db"), 0o600, nil)
 	if err != nil {
 		return 0, 0, err
 	}
 	defer db.Close()
-	db.MaxBatchDelay = time.Millisecond
-	db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err })
+	if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
+		return 0, 0, err
+	}
 	val := make([]byte, 100)
 	put := func(tx *bbolt.Tx) error {
 		b := tx.Bucket([]byte("r"))
@@ -169,10 +237,40 @@ func bboltBaselines(dur time.Duration) (single, group float64, err error) {
 	end := time.Now().Add(dur / 2)
 	n := 0
 	for time.Now().Before(end) {
-		db.Update(put)
+		if err := db.Update(put); err != nil {
+			return 0, 0, err
+		}
 		n++
 	}
 	single = float64(n) / (dur / 2).Seconds()
+
+	queue := make(chan chan error, 512)
+	go func() {
+		for first := range queue {
+			batch := []chan error{first}
+		drain:
+			for len(batch) < 512 {
+				select {
+				case d := <-queue:
+					batch = append(batch, d)
+				default:
+					break drain
+				}
+			}
+			err := db.Update(func(tx *bbolt.Tx) error {
+				for range batch {
+					if err := put(tx); err != nil {
+						return err
+					}
+				}
+				return nil
+			})
+			for _, d := range batch {
+				d <- err
+			}
+		}
+	}()
+	defer close(queue)
 	var m atomic.Int64
 	ctx, cancel := context.WithTimeout(context.Background(), dur/2)
 	defer cancel()
@@ -181,8 +279,10 @@ func bboltBaselines(dur time.Duration) (single, group float64, err error) {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
+			done := make(chan error, 1)
 			for ctx.Err() == nil {
-				if db.Batch(put) == nil {
+				queue <- done
+				if <-done == nil {
 					m.Add(1)
 				}
 			}
@@ -201,228 +301,302 @@ func u64key(v uint64) []byte {
 	return b
 }
 
-type loadResult struct {
-	startToServing       time.Duration
-	bytesPerIdleConn     float64
-	closedRate, openRate float64
-	ack, watch           []time.Duration
-	missing              int
-	cpuPerReading        float64
-	peakHeapMB           float64
-	bytesPerReading      float64
+// loadStation is one simulated bench laptop.
+type loadStation struct {
+	sid, bid uint64
+	token    string
+	// st is the station's client on its own connection.
+	st rpcpb.StationServiceClient
+	// sent numbers the readings it made, for their ids and values.
+	sent atomic.Int64
+	// stored counts its readings the server took: in the open loop a
+	// station sends one at a time, so the count is the bench's reading
+	// count that the room stream shows once the reading is judged.
+	stored atomic.Int32
 }
 
-func cpuSeconds() float64 {
-	var ru syscall.Rusage
-	syscall.Getrusage(syscall.RUSAGE_SELF, &ru)
-	return float64(ru.Utime.Sec+ru.Stime.Sec) + float64(ru.Utime.Usec+ru.Stime.Usec)/1e6
+// reading is the station's next reading: a coil-force run stepping the
+// current, force following F = N·B·L·I for the demo coil with 1 % noise.
+func (s *loadStation) reading() *pb.SubmitReadingRequest {
+	k := s.sent.Add(1)
+	I := 0.5 + float64(k%8)*0.5
+	F := 0.048 * I * (1 + 0.01*float64(k%5-2))
+	return &pb.SubmitReadingRequest{SessionId: s.sid, BenchId: s.bid, ReadingId: "l" + strconv.FormatInt(k, 10),
+		Values: map[string]*pb.Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: F, Unit: "N"}}}
 }
 
-// runLoad measures one point of the sweep.
-func runLoad(stations, watchers int, rate float64, callers int, dur time.Duration) (loadResult, error) {
-	var res loadResult
-	dir, err := os.MkdirTemp("", "fluxroom-load-")
-	if err != nil {
-		return res, err
-	}
-	defer os.RemoveAll(dir)
-	m := NewMain(io.Discard, io.Discard)
-	key := "load-test-instructor-key-000"
-	t0 := time.Now()
-	r, err := m.start(filepath.Join(dir, "load.db"), "127.0.0.1:0", slog.New(slog.NewTextHandler(io.Discard, nil)),
-		serverOptions{instructorKey: key, stationRate: 1e6, stationBurst: 1e6})
-	if err != nil {
-		return res, err
-	}
-	defer r.stop()
-	addr := r.addr.String()
-	if c, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials())); err == nil {
-		healthpb.NewHealthClient(c).Check(context.Background(), &healthpb.HealthCheckRequest{}, grpc.WaitForReady(true))
-		res.startToServing = time.Since(t0)
+// loadRoom is a server with its sessions and joined stations.
+type loadRoom struct {
+	c        *child
+	db       string
+	admin    *grpc.ClientConn
+	in       rpcpb.InstructorServiceClient
+	sessions []uint64
+	stations []*loadStation
+	conns    []*grpc.ClientConn
+}
+
+func (r *loadRoom) close() {
+	for _, c := range r.conns {
 		c.Close()
 	}
-	runtime.GC()
-	var ms0 runtime.MemStats
-	runtime.ReadMemStats(&ms0)
-	admin, _ := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(key)))
-	defer admin.Close()
-	ctx := context.Background()
-	in := rpcpb.NewInstructorServiceClient(admin)
-	type station struct {
-		sid, bid uint64
-		st       rpcpb.StationServiceClient
-		n        atomic.Int64
+	if r.admin != nil {
+		r.admin.Close()
 	}
-	var all []*station
-	var sessions []uint64
-	for len(all) < stations {
-		cs, err := in.CreateSession(ctx, &pb.CreateSessionRequest{Title: fmt.Sprintf("load %d", len(sessions))})
+}
+
+// newLoadRoom starts a server on a fresh file and joins n stations, 30 to a
+// session. With own, every station dials its own connection and makes one
+// call on it.
+func newLoadRoom(dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
+	db := filepath.Join(dir, fmt.Sprintf("load-%d.db", time.Now().UnixNano()))
+	c, startup, err := startChild(append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
+	if err != nil {
+		return nil, 0, err
+	}
+	r := &loadRoom{c: c, db: db}
+	if r.admin, err = grpc.NewClient(c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(loadKey))); err != nil {
+		c.kill()
+		return nil, 0, err
+	}
+	r.in = rpcpb.NewInstructorServiceClient(r.admin)
+	ctx := context.Background()
+	for len(r.stations) < n {
+		cs, err := r.in.CreateSession(ctx, &pb.CreateSessionRequest{Title: fmt.Sprintf("Harrowgate load section %d", len(r.sessions)+1)})
 		if err != nil {
-			return res, err
+			return nil, 0, err
 		}
-		sessions = append(sessions, cs.Session.SessionId)
+		r.sessions = append(r.sessions, cs.Session.SessionId)
 		var bs []*pb.Bench
-		for i := 0; i < 30 && len(all)+len(bs) < stations; i++ {
-			bs = append(bs, &pb.Bench{Label: fmt.Sprintf("S%d", i), Row: int32(i / 6), Column: int32(i % 6), Experiment: "coil_force"})
+		for i := 0; i < 30 && len(r.stations)+len(bs) < n; i++ {
+			bs = append(bs, &pb.Bench{Label: fmt.Sprintf("B%02d", i+1), Row: int32(i / 6), Column: int32(i % 6), Experiment: "coil_force"})
 		}
-		sb, err := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: bs})
+		sb, err := r.in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: bs})
 		if err != nil {
-			return res, err
+			return nil, 0, err
 		}
 		for _, b := range sb.Benches {
-			j, err := rpcpb.NewStationServiceClient(admin).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: cs.Session.JoinCode, BenchLabel: b.Label})
+			j, err := rpcpb.NewStationServiceClient(r.admin).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: cs.Session.JoinCode, BenchLabel: b.Label})
 			if err != nil {
-				return res, err
+				return nil, 0, err
 			}
-			c, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(j.StationToken)))
-			if err != nil {
-				return res, err
-			}
-			defer c.Close()
-			all = append(all, &station{sid: cs.Session.SessionId, bid: b.BenchId, st: rpcpb.NewStationServiceClient(c)})
+			r.stations = append(r.stations, &loadStation{sid: cs.Session.SessionId, bid: b.BenchId, token: j.StationToken})
 		}
 	}
-	runtime.GC()
-	var ms1 runtime.MemStats
-	runtime.ReadMemStats(&ms1)
-	// Both ends of every connection live in this process: half the growth
-	// is an estimate of the server's share.
-	res.bytesPerIdleConn = float64(int64(ms1.HeapInuse)-int64(ms0.HeapInuse)) / 2 / float64(len(all))
-	submit := func(ctx context.Context, s *station) error {
-		k := s.n.Add(1)
-		I := float64(k%9) * 0.5
-		_, err := s.st.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: s.sid, BenchId: s.bid, ReadingId: "l" + strconv.FormatInt(k, 10),
-			Values: map[string]*pb.Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: 0.48 * I, Unit: "N"}}})
-		return err
+	if own {
+		if err := r.connectAll(); err != nil {
+			return nil, 0, err
+		}
 	}
+	return r, startup, nil
+}
 
-	// Closed loop: callers as fast as the server answers, through the
-	// stations' connections.
-	var closed atomic.Int64
-	cctx, cancel := context.WithTimeout(ctx, dur)
+// connectAll gives every station its own connection, opened by one call.
+func (r *loadRoom) connectAll() error {
+	var mu sync.Mutex
+	var firstErr error
+	sem := make(chan struct{}, 64)
 	var wg sync.WaitGroup
-	for i := 0; i < callers; i++ {
+	for _, s := range r.stations {
+		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(s.token)))
+		if err != nil {
+			return err
+		}
+		r.conns = append(r.conns, c)
+		s.st = rpcpb.NewStationServiceClient(c)
 		wg.Add(1)
+		sem <- struct{}{}
 		go func() {
 			defer wg.Done()
-			s := all[i%len(all)]
-			for cctx.Err() == nil {
-				if submit(cctx, s) == nil {
-					closed.Add(1)
-				}
+			defer func() { <-sem }()
+			if _, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}); err != nil {
+				mu.Lock()
+				firstErr = err
+				mu.Unlock()
 			}
 		}()
 	}
 	wg.Wait()
-	cancel()
-	res.closedRate = float64(closed.Load()) / dur.Seconds()
-	// Calls the callers gave up on may still commit: let them land before
-	// the open loop counts readings.
-	time.Sleep(500 * time.Millisecond)
+	return firstErr
+}
 
-	// Open loop: arrivals at the given rate whatever the answers do, so
-	// queueing shows in the latencies; watchers on the rooms.
-	type key2 struct {
-		bid   uint64
-		count int32
+type closedResult struct {
+	sharedRate, sharedCPU float64
+	ownRate, ownCPU       float64
+}
+
+// closedLoops measures the durable ingest ceiling: callers submitting as
+// fast as answers come, first over 32 shared connections (each call with
+// its own station's token, as the echo baseline), then each station on its
+// own connection. The rate limit is lifted for it.
+func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
+	var res closedResult
+	args := []string{"--station-rate", "1e9", "--station-burst", "1000000000"}
+	if cfg.profile != "" {
+		args = append(args, "--cpuprofile", cfg.profile)
 	}
-	var sentMu sync.Mutex
-	sentAt := map[key2]time.Time{}
-	var watchMu sync.Mutex
-	wctx, wcancel := context.WithCancel(ctx)
-	defer wcancel()
-	seen := map[key2]bool{}
-	for i := 0; i < watchers; i++ {
-		sid := sessions[i%len(sessions)]
-		stream, err := in.WatchRoom(wctx, &pb.WatchRoomRequest{SessionId: sid})
+	r, _, err := newLoadRoom(dir, cfg.callers, false, args...)
+	if err != nil {
+		return res, err
+	}
+	defer r.c.stop()
+	defer r.close()
+	var shared []rpcpb.StationServiceClient
+	for i := 0; i < 32; i++ {
+		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
 		if err != nil {
 			return res, err
 		}
-		if _, err := stream.Recv(); err != nil {
-			return res, err
+		r.conns = append(r.conns, c)
+		shared = append(shared, rpcpb.NewStationServiceClient(c))
+	}
+	n, cpu := closedRun(cfg.callers, cfg.dur, r.c, func(ctx context.Context, i int) error {
+		s := r.stations[i%len(r.stations)]
+		_, err := shared[i%len(shared)].SubmitReading(ctx, s.reading(), grpc.PerRPCCredentials(bearer.Token(s.token)))
+		return err
+	})
+	res.sharedRate, res.sharedCPU = n/cfg.dur.Seconds(), cpu
+	if err := r.connectAll(); err != nil {
+		return res, err
+	}
+	n, cpu = closedRun(cfg.callers, cfg.dur, r.c, func(ctx context.Context, i int) error {
+		s := r.stations[i%len(r.stations)]
+		_, err := s.st.SubmitReading(ctx, s.reading())
+		return err
+	})
+	res.ownRate, res.ownCPU = n/cfg.dur.Seconds(), cpu
+	return res, nil
+}
+
+// phase is one open-loop measurement.
+type phase struct {
+	offered       float64
+	stored        int
+	elapsed       time.Duration
+	ack, watch    []time.Duration
+	missing, late int
+	failed        int
+	serverCPU     float64 // seconds, over the phase
+	genCPU        float64
+	peakRSS       float64
+	floodTried    int
+	floodStored   int
+	floodRefused  int
+	flooders      int
+}
+
+// lateAfter is when a verdict counts as late at the dashboard: well past
+// any target, long before a group would leave the bench.
+const lateAfter = 100 * time.Millisecond
+
+// arrival is when a watcher first saw a bench at a reading count.
+type arrival struct {
+	count int32
+	at    time.Time
+}
+
+// openLoop sends readings at rate (exponential inter-arrival times, so
+// bursts happen as they do) for dur, whatever the answers do, so queueing
+// shows in the latencies. Watchers follow the rooms; with flood, one
+// station also sends as fast as it can from several callers.
+func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders int) (phase, error) {
+	ph := phase{offered: rate, flooders: flooders}
+	ctx, cancel := context.WithCancel(context.Background())
+	defer cancel()
+	// Watchers record when each bench's reading count first reached each
+	// value; latencies are joined with the acknowledgements afterwards.
+	type watcherLog struct {
+		sid    uint64
+		mu     sync.Mutex
+		events map[uint64][]arrival
+	}
+	logs := make([]*watcherLog, watchers)
+	var wwg sync.WaitGroup
+	for i := range logs {
+		wl := &watcherLog{sid: r.sessions[i%len(r.sessions)], events: map[uint64][]arrival{}}
+		logs[i] = wl
+		stream, err := r.in.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: wl.sid})
+		if err != nil {
+			return ph, err
 		}
+		if _, err := stream.Recv(); err != nil {
+			return ph, err
+		}
+		wwg.Add(1)
 		go func() {
+			defer wwg.Done()
 			for {
 				ev, err := stream.Recv()
 				if err != nil {
 					return
 				}
-				b := ev.GetBench()
-				if b == nil {
-					continue
-				}
-				k := key2{b.Bench.BenchId, b.ReadingCount}
-				now := time.Now()
-				sentMu.Lock()
-				t0, ok := sentAt[k]
-				sentMu.Unlock()
-				if ok {
-					watchMu.Lock()
-					if !seen[k] {
-						seen[k] = true
-						res.watch = append(res.watch, now.Sub(t0))
-					}
-					watchMu.Unlock()
+				if b := ev.GetBench(); b != nil {
+					now := time.Now()
+					wl.mu.Lock()
+					wl.events[b.Bench.BenchId] = append(wl.events[b.Bench.BenchId], arrival{b.ReadingCount, now})
+					wl.mu.Unlock()
 				}
 			}
 		}()
 	}
-	// Reading counts so far, to know which count each new reading makes.
-	counts := map[uint64]int32{}
-	for _, s := range all {
-		d, err := in.GetBenchDetail(ctx, &pb.GetBenchDetailRequest{SessionId: s.sid, BenchId: s.bid})
-		if err != nil {
-			return res, err
-		}
-		counts[s.bid] = int32(len(d.Detail.Readings))
+
+	type acked struct {
+		s     *loadStation
+		count int32
+		sent  time.Time
 	}
-	watched := map[uint64]bool{}
-	for i := 0; i < watchers; i++ {
-		watched[sessions[i%len(sessions)]] = true
+	var mu sync.Mutex
+	var acks []acked
+	var failed atomic.Int64
+	stations := r.stations
+	var flood *loadStation
+	if flooders > 0 {
+		flood, stations = stations[0], stations[1:]
 	}
-	queues := make([]chan time.Time, len(all))
-	var ackMu sync.Mutex
-	var stored atomic.Int64
-	var expected int
+	queues := make([]chan time.Time, len(stations))
 	var swg sync.WaitGroup
-	for i, s := range all {
-		queues[i] = make(chan time.Time, 4096)
+	for i, s := range stations {
+		queues[i] = make(chan time.Time, 1024)
 		swg.Add(1)
 		go func() {
 			defer swg.Done()
 			for t0 := range queues[i] {
-				if submit(ctx, s) != nil {
+				if _, err := s.st.SubmitReading(ctx, s.reading()); err != nil {
+					failed.Add(1)
 					continue
 				}
 				d := time.Since(t0)
-				stored.Add(1)
-				ackMu.Lock()
-				res.ack = append(res.ack, d)
-				ackMu.Unlock()
+				count := s.stored.Add(1)
+				mu.Lock()
+				acks = append(acks, acked{s, count, t0})
+				ph.ack = append(ph.ack, d)
+				mu.Unlock()
 			}
 		}()
 	}
-	runtime.GC()
-	cpu0 := cpuSeconds()
-	stop := make(chan struct{})
-	peak := make(chan uint64, 1)
-	go func() {
-		var p uint64
-		var st runtime.MemStats
-		t := time.NewTicker(20 * time.Millisecond)
-		defer t.Stop()
-		for {
-			runtime.ReadMemStats(&st)
-			p = max(p, st.HeapInuse)
-			select {
-			case <-stop:
-				peak <- p
-				return
-			case <-t.C:
+	var floodTried, floodStored, floodRefused atomic.Int64
+	fctx, fcancel := context.WithCancel(ctx)
+	var fwg sync.WaitGroup
+	for i := 0; i < flooders; i++ {
+		fwg.Add(1)
+		go func() {
+			defer fwg.Done()
+			for fctx.Err() == nil {
+				_, err := flood.st.SubmitReading(fctx, flood.reading())
+				floodTried.Add(1)
+				switch status.Code(err) {
+				case codes.OK:
+					floodStored.Add(1)
+				case codes.ResourceExhausted:
+					floodRefused.Add(1)
+				}
 			}
-		}
-	}()
-	rng := rand.New(rand.NewPCG(1, 2))
+		}()
+	}
+
+	r.c.resetPeak()
+	cpu0, gen0 := r.c.cpu(), selfCPU()
+	rng := rand.New(rand.NewPCG(uint64(len(stations)), uint64(rate)))
 	start := time.Now()
 	next := start
 	for time.Since(start) < dur {
@@ -430,35 +604,181 @@ func runLoad(stations, watchers int, rate float64, callers int, dur time.Duratio
 		if d := time.Until(next); d > 0 {
 			time.Sleep(d)
 		}
-		i := rng.IntN(len(all))
-		s := all[i]
-		counts[s.bid]++
-		if watched[s.sid] {
-			sentMu.Lock()
-			sentAt[key2{s.bid, counts[s.bid]}] = next
-			sentMu.Unlock()
-			expected++
-		}
-		queues[i] <- next
+		queues[rng.IntN(len(stations))] <- next
 	}
 	for _, q := range queues {
 		close(q)
 	}
 	swg.Wait()
-	elapsed := time.Since(start)
-	time.Sleep(200 * time.Millisecond)
-	close(stop)
-	res.peakHeapMB = float64(<-peak) / 1e6
-	res.openRate = float64(stored.Load()) / elapsed.Seconds()
-	res.cpuPerReading = (cpuSeconds() - cpu0) / float64(max(1, stored.Load()))
-	watchMu.Lock()
-	res.missing = expected - len(res.watch)
-	sort.Slice(res.watch, func(i, j int) bool { return res.watch[i] < res.watch[j] })
-	watchMu.Unlock()
-	sort.Slice(res.ack, func(i, j int) bool { return res.ack[i] < res.ack[j] })
-	if fi, err := os.Stat(filepath.Join(dir, "load.db")); err == nil {
-		total := closed.Load() + stored.Load()
-		res.bytesPerReading = float64(fi.Size()) / float64(max(1, total))
+	fcancel()
+	fwg.Wait()
+	ph.elapsed = time.Since(start)
+	ph.serverCPU, ph.genCPU = r.c.cpu()-cpu0, selfCPU()-gen0
+	_, ph.peakRSS = r.c.mem()
+	// Let the last events reach the watchers, then stop them.
+	time.Sleep(300 * time.Millisecond)
+	cancel()
+	wwg.Wait()
+
+	ph.stored, ph.failed = len(acks), int(failed.Load())
+	ph.floodTried, ph.floodStored, ph.floodRefused = int(floodTried.Load()), int(floodStored.Load()), int(floodRefused.Load())
+	for _, wl := range logs {
+		for _, a := range acks {
+			if a.s.sid != wl.sid {
+				continue
+			}
+			ev := wl.events[a.s.bid]
+			i, _ := slices.BinarySearchFunc(ev, a.count, func(e arrival, c int32) int { return int(e.count - c) })
+			if i == len(ev) {
+				ph.missing++
+				continue
+			}
+			d := ev[i].at.Sub(a.sent)
+			ph.watch = append(ph.watch, d)
+			if d > lateAfter {
+				ph.late++
+			}
+		}
 	}
-	return res, nil
+	slices.Sort(ph.ack)
+	slices.Sort(ph.watch)
+	return ph, nil
+}
+
+// sweepPoint is one M × W point of the sweep.
+type sweepPoint struct {
+	stations, watchers int
+	startup, restart   time.Duration
+	idleConnBytes      float64
+	light, heavy       phase
+	quiet, flooded     phase
+	diskPerReading     float64
+	readingsPerBench   float64
+}
+
+func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, error) {
+	p := sweepPoint{stations: stations, watchers: watchers}
+	r, startup, err := newLoadRoom(dir, stations, false, "--station-rate", loadStationRate, "--station-burst", loadStationBurst)
+	if err != nil {
+		return p, err
+	}
+	defer r.close()
+	p.startup = startup
+	time.Sleep(200 * time.Millisecond)
+	rss0, _ := r.c.mem()
+	if err := r.connectAll(); err != nil {
+		r.c.kill()
+		return p, err
+	}
+	time.Sleep(200 * time.Millisecond)
+	rss1, _ := r.c.mem()
+	p.idleConnBytes = (rss1 - rss0) / float64(stations)
+
+	capRate := func(rate float64) float64 { return min(rate, cfg.perStation*float64(stations)) }
+	phases := []struct {
+		out            *phase
+		rate           float64
+		watch, flooder int
+	}{
+		{&p.light, capRate(cfg.light), watchers, 0},
+		{&p.heavy, capRate(cfg.heavy), watchers, 0},
+		// Fairness: the same light load, quiet and then with one station
+		// flooding; the room's other stations should not notice.
+		{&p.quiet, capRate(cfg.light), 0, 0},
+		{&p.flooded, capRate(cfg.light), 0, cfg.flooders},
+	}
+	total := 0
+	for _, ph := range phases {
+		if *ph.out, err = openLoop(r, ph.rate, cfg.dur, ph.watch, ph.flooder); err != nil {
+			r.c.kill()
+			return p, err
+		}
+		total += ph.out.stored + ph.out.floodStored
+	}
+	r.close()
+	if err := r.c.stop(); err != nil {
+		return p, fmt.Errorf("stop: %w", err)
+	}
+	if fi, err := os.Stat(r.db); err == nil {
+		p.diskPerReading = float64(fi.Size()) / float64(max(1, total))
+	}
+	p.readingsPerBench = float64(total) / float64(stations)
+	// Restart on the filled file: how long a crashed or upgraded server
+	// keeps the room waiting.
+	c, restart, err := startChild("serve", "--db", r.db, "--log-level", "error", "--instructor-key", loadKey)
+	if err != nil {
+		return p, fmt.Errorf("restart: %w", err)
+	}
+	p.restart = restart
+	return p, c.stop()
+}
+
+func (p sweepPoint) print(w io.Writer) {
+	fmt.Fprintf(w, "\nM=%d stations on their own connections, W=%d watchers\n", p.stations, p.watchers)
+	for _, x := range []struct {
+		name string
+		ph   phase
+	}{{"light", p.light}, {"heavy", p.heavy}} {
+		ph := x.ph
+		rate := float64(ph.stored) / ph.elapsed.Seconds()
+		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s; submit→watcher %s over %d deliveries\n",
+			x.name, ph.offered, rate, ms3(ph.ack), ms3(ph.watch), len(ph.watch))
+		fmt.Fprintf(w, "        verdicts missing at watchers %d, late (> %s) %d, failed submits %d; server CPU %.0f µs/reading (load generator %.0f); server peak RSS %.0f MB\n",
+			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
+	}
+	q, f := p.quiet, p.flooded
+	fmt.Fprintf(w, "  fairness at %.0f/s: others' p99 quiet %.1f ms, with one station flooding from %d callers %.1f ms (%.2f × quiet); flood tried %.0f/s, stored %.0f/s, refused %.0f/s\n",
+		q.offered, quantile(q.ack, 0.99), f.flooders, quantile(f.ack, 0.99), quantile(f.ack, 0.99)/quantile(q.ack, 0.99),
+		float64(f.floodTried)/f.elapsed.Seconds(), float64(f.floodStored)/f.elapsed.Seconds(), float64(f.floodRefused)/f.elapsed.Seconds())
+	fmt.Fprintf(w, "  idle connection %.1f KB of server RSS; start to serving %.0f ms, restart on the filled file %.0f ms; %.0f bytes on disk per reading (%.0f readings per bench)\n",
+		p.idleConnBytes/1024, ms(p.startup), ms(p.restart), p.diskPerReading, p.readingsPerBench)
+}
+
+func ms(d time.Duration) float64 { return float64(d.Microseconds()) / 1000 }
+
+// summarize checks the figures against the targets of the README's
+// performance section.
+func summarize(w io.Writer, cfg loadConfig, echo float64, cl closedResult, points []sweepPoint) {
+	fmt.Fprintf(w, "\ntargets\n")
+	fmt.Fprintf(w, "  durable ingest ≥ 0.6 × echo at %d callers: %.2f over 32 connections (%s), %.2f with one connection per station\n",
+		cfg.callers, cl.sharedRate/echo, mark(cl.sharedRate/echo >= 0.6), cl.ownRate/echo)
+	var costs []string
+	lo, hi := 0.0, 0.0
+	for _, p := range points {
+		h := p.heavy
+		if p.stations >= 512 && h.offered >= 5000 {
+			ok := quantile(h.watch, 0.99) <= 30 && quantile(h.watch, 0.999) <= 50 && h.missing == 0
+			fmt.Fprintf(w, "  %.0f/s from %d connections, W=%d: p99 submit→watcher %.1f ms ≤ 30, p999 %.1f ms ≤ 50, missing %d = 0: %s\n",
+				h.offered, p.stations, p.watchers, quantile(h.watch, 0.99), quantile(h.watch, 0.999), h.missing, mark(ok))
+		}
+		l := p.light
+		if l.offered >= 1000 {
+			ok := quantile(l.ack, 0.5) <= 2 && quantile(l.ack, 0.99) <= 12
+			fmt.Fprintf(w, "  light %.0f/s, M=%d W=%d: submit→ack p50 %.1f ms ≤ 2, p99 %.1f ms ≤ 12: %s\n",
+				l.offered, p.stations, p.watchers, quantile(l.ack, 0.5), quantile(l.ack, 0.99), mark(ok))
+		}
+		ratio := quantile(p.flooded.ack, 0.99) / quantile(p.quiet.ack, 0.99)
+		fmt.Fprintf(w, "  fairness M=%d W=%d: others' p99 with a flooding station %.2f × quiet ≤ 2: %s\n", p.stations, p.watchers, ratio, mark(ratio <= 2))
+		c := h.serverCPU / float64(max(1, h.stored)) * 1e6
+		costs = append(costs, fmt.Sprintf("M=%d W=%d %.0f µs", p.stations, p.watchers, c))
+		if lo == 0 || c < lo {
+			lo = c
+		}
+		hi = max(hi, c)
+	}
+	last := points[len(points)-1]
+	fmt.Fprintf(w, "  idle connection ≤ 30 KB: %.1f KB at M=%d (%s)\n", last.idleConnBytes/1024, last.stations, mark(last.idleConnBytes <= 30*1024))
+	for _, p := range points {
+		if p.stations >= 5000 {
+			peak := max(p.light.peakRSS, p.heavy.peakRSS)
+			fmt.Fprintf(w, "  ≤ 300 MB at %d stations: server peak RSS %.0f MB (%s)\n", p.stations, peak/1e6, mark(peak <= 300e6))
+		}
+	}
+	worstRestart, worstDisk := time.Duration(0), 0.0
+	for _, p := range points {
+		worstRestart, worstDisk = max(worstRestart, p.restart), max(worstDisk, p.diskPerReading)
+	}
+	fmt.Fprintf(w, "  restart to serving < 100 ms: worst %.0f ms (%s)\n", ms(worstRestart), mark(worstRestart < 100*time.Millisecond))
+	fmt.Fprintf(w, "  ≤ 250 MB per million readings on disk: worst %.0f bytes per reading (%s)\n", worstDisk, mark(worstDisk <= 250))
+	fmt.Fprintf(w, "  server CPU per reading at the heavy load across the sweep: %s; highest / lowest %.2f\n", strings.Join(costs, ", "), hi/lo)
 }

@@ -13,6 +13,7 @@ import (
 	"net"
 	"os"
 	"path/filepath"
+	"runtime/pprof"
 	"strings"
 
 	"time"
@@ -101,6 +102,8 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.restoreCmd(ctx, args[1:])
 	case "loadtest":
 		return m.loadCmd(ctx, args[1:])
+	case "loadtest-echo":
+		return m.echoServe(ctx, args[1:])
 	case "version":
 		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":
@@ -255,6 +258,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	tlsKey := fs.String("tls-key", "", "TLS private key file (PEM)")
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
 	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
+	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the server to this file until it stops (performance work)")
 	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
 	if err := parse(fs, args); err != nil {
 		return err
@@ -272,6 +276,17 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	}
 	if *key != "" && len(*key) < 16 {
 		return usageError{"--instructor-key must be at least 16 characters"}
+	}
+	if *cpuProfile != "" {
+		f, err := os.Create(*cpuProfile)
+		if err != nil {
+			return fmt.Errorf("--cpuprofile: %w", err)
+		}
+		if err := pprof.StartCPUProfile(f); err != nil {
+			f.Close()
+			return fmt.Errorf("--cpuprofile: %w", err)
+		}
+		defer func() { pprof.StopCPUProfile(); f.Close() }()
 	}
 	if *ackEarly {
 		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
