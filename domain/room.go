@@ -1,13 +1,9 @@
 package domain
 
 import (
-	"encoding/binary"
 	"fmt"
-	"hash/fnv"
-	"io"
 	"math"
 	"sort"
-	"strconv"
 	"strings"
 	"time"
 )
@@ -30,6 +26,12 @@ type BenchResult struct {
 
 // ResultOf reduces an assessment to a BenchResult.
 func ResultOf(b Bench, a Assessment, readings []Reading) BenchResult {
+	return ResultOfMemo(b, a, readings, nil)
+}
+
+// ResultOfMemo is ResultOf with the bench's Memo (nil: none), which keeps
+// the fingerprint of the readings already seen.
+func ResultOfMemo(b Bench, a Assessment, readings []Reading, m *Memo) BenchResult {
 	r := BenchResult{BenchID: b.ID, Label: b.Label, Experiment: b.Experiment, Verdict: a.Verdict,
 		ReadingCount: a.ReadingCount, LastReadingAt: a.LastReadingAt}
 	if a.Predicted.Value != 0 && a.ResultUnit != "" {
@@ -37,24 +39,7 @@ func ResultOf(b Bench, a Assessment, readings []Reading) BenchResult {
 		r.RelU = math.Hypot(a.Measured.RelUncertainty(), a.Predicted.Uncertainty/math.Abs(a.Predicted.Value))
 	}
 	if e, ok := LookupExperiment(b.Experiment); ok && len(readings) >= 3 {
-		// A 64-bit FNV-1a hash of every value as typed, in the experiment's
-		// order: cheap enough to keep on every change.
-		h := fnv.New64a()
-		var buf [8]byte
-		for _, rd := range readings {
-			for _, s := range e.Values {
-				q, ok := rd.Values[s.Name]
-				if !ok {
-					h.Write([]byte{0})
-					continue
-				}
-				binary.LittleEndian.PutUint64(buf[:], math.Float64bits(q.Value))
-				h.Write(buf[:])
-				io.WriteString(h, q.Unit)
-			}
-			h.Write([]byte{'|'})
-		}
-		r.Fingerprint = strconv.FormatUint(h.Sum64(), 16) + "/" + strconv.Itoa(len(readings))
+		r.Fingerprint = m.fingerprintOf(e, readings)
 	}
 	return r
 }

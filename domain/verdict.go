@@ -120,6 +120,12 @@ type Assessment struct {
 // ValidateBench and each reading ValidateReading; anything else is reported
 // as a need-data verdict with the reason, never a panic.
 func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
+	return AssessMemo(b, readings, tol, nil)
+}
+
+// AssessMemo is Assess with the bench's Memo: the same result, with the
+// work on readings judged before taken from the memo (nil: none).
+func AssessMemo(b Bench, readings []Reading, tol Tolerance, m *Memo) Assessment {
 	e, ok := LookupExperiment(b.Experiment)
 	if !ok {
 		return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("unknown experiment %q", b.Experiment)}
@@ -135,8 +141,8 @@ func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
 		if gone[r.ID] {
 			continue // corrected by a later reading; kept for the record
 		}
-		v, err := e.convertReading("values", r.Values)
-		if err != nil {
+		v, ok := m.convert(e, r)
+		if !ok {
 			continue // rejected at submission; never stored
 		}
 		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID})

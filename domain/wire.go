@@ -1,8 +1,10 @@
 package domain
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // StraightWire is the field of a long straight wire, B = μ0·I/(2π·r), with
@@ -219,7 +221,21 @@ func wrongScale(fs *findings, pts []fieldPoint, rho, uRel, ratio float64) {
 	}
 	if len(byRange) >= 2 {
 		// Range-specific: one range off from the others by the scale ratio.
-		for rg, v := range byRange {
+		// Look first at the range furthest from theory, the likely culprit,
+		// so the answer never depends on map order.
+		ranges := make([]float64, 0, len(byRange))
+		for rg := range byRange {
+			ranges = append(ranges, rg)
+		}
+		off := func(rg float64) float64 { return math.Abs(math.Log(math.Abs(median(byRange[rg])))) }
+		slices.SortFunc(ranges, func(a, b float64) int {
+			if c := cmp.Compare(off(b), off(a)); c != 0 {
+				return c
+			}
+			return cmp.Compare(a, b)
+		})
+		for _, rg := range ranges {
+			v := byRange[rg]
 			m, others := median(v), nearOne(byRange, rg)
 			for _, f := range []float64{ratio, 1 / ratio} {
 				if math.Abs(math.Log(m/others/f)) < 0.05 {

@@ -1,0 +1,60 @@
+package domain
+
+import (
+	"fmt"
+	"math/rand/v2"
+	"reflect"
+	"testing"
+	"time"
+
+	"github.com/google/go-cmp/cmp"
+)
+
+// Judging a bench reading by reading with a Memo gives exactly what judging
+// it from scratch gives, for every experiment and simulated mistake,
+// through a correction and a change of the bench's experiment.
+func TestMemoMatchesFromScratch(t *testing.T) {
+	t0 := time.Date(2026, 10, 6, 13, 0, 0, 0, time.UTC)
+	for _, exp := range SimulatedExperiments() {
+		for _, mistake := range append([]string{""}, SimulatedMistakes(exp)...) {
+			g, err := Simulate(exp, mistake, rand.New(rand.NewPCG(3, 4)), t0)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var m Memo
+			var rs []Reading
+			check := func(step string) {
+				t.Helper()
+				want := Assess(g.Bench, rs, DefaultTolerance)
+				got := AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+				if !reflect.DeepEqual(got, want) {
+					t.Fatalf("%s/%s %s: with the memo (-) and from scratch (+):\n%s", exp, mistake, step, cmp.Diff(got, want, cmp.AllowUnexported(Plot{})))
+				}
+				if w, g2 := ResultOf(g.Bench, want, rs), ResultOfMemo(g.Bench, got, rs, &m); w != g2 {
+					t.Fatalf("%s/%s %s: result with the memo %+v, from scratch %+v", exp, mistake, step, g2, w)
+				}
+			}
+			for i, r := range g.Readings {
+				rs = append(rs, r)
+				check(fmt.Sprintf("after reading %d", i+1))
+			}
+			if len(rs) > 0 {
+				fix := rs[0]
+				fix.ID, fix.Supersedes = "fix", rs[0].ID
+				rs = append(rs, fix)
+				check("after a correction")
+			}
+			// Judged against another experiment's rules, the same memo
+			// must start over, not reuse conversions made for this one.
+			other := g.Bench
+			other.Experiment = "coil_force"
+			if exp == "coil_force" {
+				other.Experiment = "solenoid"
+			}
+			want := Assess(other, rs, DefaultTolerance)
+			if got := AssessMemo(other, rs, DefaultTolerance, &m); !reflect.DeepEqual(got, want) {
+				t.Fatalf("%s/%s judged as %s: the memo kept the old experiment's work", exp, mistake, other.Experiment)
+			}
+		}
+	}
+}
