@@ -22,7 +22,7 @@ type hub struct {
 }
 
 type watcher struct {
-	ch chan *pb.WatchRoomResponse
+	ch chan *roomEvent
 	// gone is closed when the hub drops the watcher (fell behind, or the
 	// server is shutting down).
 	gone     chan struct{}
@@ -34,7 +34,7 @@ func (w *watcher) drop() { w.goneOnce.Do(func() { close(w.gone) }) }
 func newHub() *hub { return &hub{watchers: map[uint64]map[*watcher]struct{}{}} }
 
 func (h *hub) subscribe(sessionID uint64) *watcher {
-	w := &watcher{ch: make(chan *pb.WatchRoomResponse, watcherBuffer), gone: make(chan struct{})}
+	w := &watcher{ch: make(chan *roomEvent, watcherBuffer), gone: make(chan struct{})}
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	if h.closed {
@@ -65,17 +65,32 @@ func (h *hub) sessionLock(sessionID uint64) *sync.Mutex {
 
 // publish sends an event (a bench's new state, or the room's findings) to
 // every watcher of its session without blocking; a watcher whose buffer is
-// full is dropped. The stream sets the sequence number.
-func (h *hub) publish(sessionID uint64, st *pb.WatchRoomResponse) {
+// full is dropped. The event is encoded once for all of them, and not at
+// all when nobody watches; each stream adds its sequence number. Call it
+// with the session's publish lock held: a watcher that subscribes after the
+// check for watchers takes its snapshot after this change.
+func (h *hub) publish(sessionID uint64, ev *pb.WatchRoomResponse) {
+	h.mu.Lock()
+	n := len(h.watchers[sessionID])
+	h.mu.Unlock()
+	if n == 0 {
+		return
+	}
+	re, err := newRoomEvent(ev)
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	for w := range h.watchers[sessionID] {
-		select {
-		case w.ch <- st:
-		default:
-			delete(h.watchers[sessionID], w)
-			w.drop()
+		if err == nil {
+			select {
+			case w.ch <- re:
+				continue
+			default:
+			}
 		}
+		// Behind, or the event cannot be sent: the watcher reconnects and
+		// starts from a fresh snapshot.
+		delete(h.watchers[sessionID], w)
+		w.drop()
 	}
 }
 

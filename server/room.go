@@ -31,6 +31,8 @@ type roomState struct {
 	session  domain.Session
 	benches  map[uint64]domain.Bench
 	readings map[uint64][]domain.Reading
+	// memos keep each bench's judging work between readings.
+	memos map[uint64]*domain.Memo
 }
 
 func (r *rooms) get(sessionID uint64) (*roomState, bool) {
@@ -76,7 +78,7 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 		return nil, err
 	}
 	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{},
-		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings}
+		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings, memos: map[uint64]*domain.Memo{}}
 	for _, b := range d.Benches {
 		rs.benches[b.ID] = b
 		if err := s.judgeCached(rs, b.ID, d.Notes); err != nil {
@@ -148,25 +150,31 @@ func (s *Server) checkStalls() {
 func (s *Server) judgeCached(rs *roomState, benchID uint64, notes []domain.Note) error {
 	b := rs.benches[benchID]
 	readings := rs.readings[benchID]
-	st, a, err := s.judge(rs.session, b, readings, notes)
+	m := rs.memos[benchID]
+	if m == nil {
+		m = &domain.Memo{}
+		rs.memos[benchID] = m
+	}
+	st, a, err := s.judge(rs.session, b, readings, notes, m)
 	if err != nil {
 		return err
 	}
 	rs.states[benchID] = st
-	rs.results[benchID] = domain.ResultOf(b, a, readings)
+	rs.results[benchID] = domain.ResultOfMemo(b, a, readings, m)
 	return nil
 }
 
 // judge assesses a bench under its session's tolerance and, when it is
 // unsafe, looks up whether its alert was acknowledged. notes is the
 // session's audit log when already at hand; nil reads it, and only then.
-// It is the one place a bench's state is made.
-func (s *Server) judge(sess domain.Session, b domain.Bench, readings []domain.Reading, notes []domain.Note) (*pb.BenchState, domain.Assessment, error) {
+// It is the one place a bench's state is made. m is the bench's memo when
+// the room cache keeps one, else nil.
+func (s *Server) judge(sess domain.Session, b domain.Bench, readings []domain.Reading, notes []domain.Note, m *domain.Memo) (*pb.BenchState, domain.Assessment, error) {
 	tol := s.tol
 	if sess.Tolerance != (domain.Tolerance{}) {
 		tol = sess.EffectiveTolerance()
 	}
-	a := domain.Assess(b, readings, tol)
+	a := domain.AssessMemo(b, readings, tol, m)
 	st := stateToPB(b, a)
 	if a.Verdict == domain.Unsafe {
 		if notes == nil {

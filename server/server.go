@@ -108,6 +108,10 @@ type Server struct {
 	done chan struct{}
 }
 
+// staticWindow is each stream's and connection's flow-control window: far
+// above any message fluxroom sends, so no stream waits for a window update.
+const staticWindow = 1 << 20
+
 // New builds a Server; Serve starts it.
 func New(cfg Config) (*Server, error) {
 	if cfg.DB == nil || cfg.Logger == nil {
@@ -149,6 +153,12 @@ func New(cfg Config) (*Server, error) {
 	}
 	s.grpc = grpc.NewServer(
 		grpc.MaxRecvMsgSize(maxMsg),
+		// Static flow-control windows: messages here are small, and the
+		// dynamic window's bandwidth probe costs a ping round trip per
+		// burst on every station's connection.
+		grpc.InitialWindowSize(staticWindow),
+		grpc.InitialConnWindowSize(staticWindow),
+		grpc.ForceServerCodecV2(newCodec()),
 		grpc.ChainUnaryInterceptor(s.unaryErrors, s.unaryAuth),
 		grpc.ChainStreamInterceptor(s.streamErrors, s.streamAuth),
 	)
@@ -440,7 +450,7 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}
-	st, a, err := s.judge(sess, b, rs, nil)
+	st, a, err := s.judge(sess, b, rs, nil, nil)
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}

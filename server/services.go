@@ -303,7 +303,7 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
 		case ev := <-w.ch:
 			seq++
-			if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: ev.Event}); err != nil {
+			if err := stream.SendMsg(sequenced{seq: seq, ev: ev}); err != nil {
 				return err
 			}
 		}
