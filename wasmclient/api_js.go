@@ -8,6 +8,8 @@ import (
 	"syscall/js"
 
 	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/internal/grpcweb"
 )
 
 // call makes one gRPC-Web call with the browser's fetch and hands every
@@ -18,15 +20,15 @@ func (c *api) call(ctx context.Context, proc string, req proto.Message, onMsg fu
 	if err != nil {
 		return err
 	}
-	framed := frame(body)
+	framed := grpcweb.Frame(body)
 	arr := js.Global().Get("Uint8Array").New(len(framed))
 	js.CopyBytesToJS(arr, framed)
 	abort := js.Global().Get("AbortController").New()
 	stop := context.AfterFunc(ctx, func() { abort.Call("abort") })
 	defer stop()
 	headers := js.Global().Get("Object").New()
-	headers.Set("Content-Type", "application/grpc-web+proto")
-	headers.Set("Accept", "application/grpc-web+proto")
+	headers.Set("Content-Type", grpcweb.ContentType)
+	headers.Set("Accept", grpcweb.ContentType)
 	headers.Set("X-Grpc-Web", "1")
 	if c.token != "" {
 		headers.Set("Authorization", "Bearer "+c.token)
@@ -60,7 +62,7 @@ func (c *api) call(ctx context.Context, proc string, req proto.Message, onMsg fu
 		return err
 	}
 	reader := resp.Get("body").Call("getReader")
-	var d deframer
+	var d grpcweb.Deframer
 	for {
 		chunk, err := await(reader.Call("read"))
 		if err != nil {
@@ -72,14 +74,14 @@ func (c *api) call(ctx context.Context, proc string, req proto.Message, onMsg fu
 		v := chunk.Get("value")
 		b := make([]byte, v.Get("length").Int())
 		js.CopyBytesToGo(b, v)
-		msgs, trailer, done := d.push(b)
+		msgs, trailer, done := d.Push(b)
 		for _, m := range msgs {
 			if err := onMsg(m); err != nil {
 				return err
 			}
 		}
 		if done {
-			return statusFrom(trailerLines(trailer))
+			return statusFrom(grpcweb.TrailerLines(trailer))
 		}
 	}
 }

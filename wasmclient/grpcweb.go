@@ -2,7 +2,6 @@ package wasmclient
 
 import (
 	"encoding/base64"
-	"encoding/binary"
 	"strconv"
 	"strings"
 
@@ -11,43 +10,8 @@ import (
 	"google.golang.org/protobuf/proto"
 )
 
-// The binary gRPC-Web framing [pub: gRPC-Web protocol, doc/PROTOCOL-WEB.md of
-// the gRPC project]: each message is a flag byte (0x00 data, 0x80 trailers),
-// a 4-byte big-endian length and the bytes. Trailers are HTTP header lines.
-
-// frame wraps one request message.
-func frame(msg []byte) []byte {
-	out := make([]byte, 5+len(msg))
-	binary.BigEndian.PutUint32(out[1:5], uint32(len(msg)))
-	copy(out[5:], msg)
-	return out
-}
-
-// deframer splits a response body, which arrives in arbitrary chunks, into
-// frames.
-type deframer struct {
-	buf []byte
-}
-
-// push adds bytes and returns every complete frame: data messages and, when
-// it came, the trailer block.
-func (d *deframer) push(b []byte) (msgs [][]byte, trailer []byte, ok bool) {
-	d.buf = append(d.buf, b...)
-	for len(d.buf) >= 5 {
-		n := int(binary.BigEndian.Uint32(d.buf[1:5]))
-		if len(d.buf) < 5+n {
-			break
-		}
-		body := append([]byte(nil), d.buf[5:5+n]...)
-		flag := d.buf[0]
-		d.buf = d.buf[5+n:]
-		if flag&0x80 != 0 {
-			return msgs, body, true
-		}
-		msgs = append(msgs, body)
-	}
-	return msgs, nil, false
-}
+// The gRPC-Web framing is in internal/grpcweb; this is how the dashboard
+// reads a call's status from it.
 
 // statusFrom reads grpc-status, grpc-message and grpc-status-details-bin
 // from trailer lines (or response headers) into an error; nil for OK.
@@ -80,18 +44,6 @@ func statusFrom(get func(string) string) error {
 		}
 	}
 	return e
-}
-
-// trailerLines parses a trailer block into a lookup by lower-case name.
-func trailerLines(b []byte) func(string) string {
-	m := map[string]string{}
-	for _, line := range strings.Split(string(b), "\r\n") {
-		k, v, ok := strings.Cut(line, ":")
-		if ok {
-			m[strings.ToLower(strings.TrimSpace(k))] = strings.TrimSpace(v)
-		}
-	}
-	return func(k string) string { return m[k] }
 }
 
 // percentDecode undoes the percent-encoding of grpc-message.
