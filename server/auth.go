@@ -11,6 +11,7 @@ import (
 	"errors"
 	"strings"
 	"sync"
+	"time"
 
 	"golang.org/x/time/rate"
 	"google.golang.org/grpc"
@@ -38,6 +39,7 @@ type auth struct {
 	limiters map[[2]uint64]*rate.Limiter
 	rate     rate.Limit
 	burst    int
+	hold     time.Duration
 }
 
 // newKey returns a random credential, URL-safe.
@@ -117,8 +119,12 @@ func (a *auth) isInstructor(tok string) bool {
 	return tok != "" && subtle.ConstantTimeCompare(hashKey(tok), a.keyHash) == 1
 }
 
-// allow takes one reading from a station's budget.
-func (a *auth) allow(sessionID, benchID uint64) bool {
+// admit takes one reading from a station's budget. A reading over the
+// bench's rate waits for the bench's next turn, up to hold, so a laptop that
+// sends too fast is slowed rather than refused; past that it is refused
+// after the same wait, so a flooding client cannot get its refusals, which
+// cost the server too, any faster than one per hold per call in flight.
+func (a *auth) admit(ctx context.Context, sessionID, benchID uint64) bool {
 	a.mu.Lock()
 	l, ok := a.limiters[[2]uint64{sessionID, benchID}]
 	if !ok {
@@ -126,7 +132,27 @@ func (a *auth) allow(sessionID, benchID uint64) bool {
 		a.limiters[[2]uint64{sessionID, benchID}] = l
 	}
 	a.mu.Unlock()
-	return l.Allow()
+	r := l.Reserve()
+	d := r.Delay()
+	if d == 0 {
+		return true
+	}
+	admitted := r.OK() && d <= a.hold
+	if !admitted {
+		r.Cancel()
+		d = a.hold
+	}
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-t.C:
+		return admitted
+	case <-ctx.Done():
+		if admitted { // a refused reservation is cancelled already
+			r.Cancel()
+		}
+		return false
+	}
 }
 
 func bearerOf(ctx context.Context) string {
@@ -188,7 +214,7 @@ func (s *Server) authorize(ctx context.Context, method string, req any) error {
 		if closed {
 			return status.Error(codes.PermissionDenied, "the session is closed")
 		}
-		if method == stationSvc+"SubmitReading" && !s.auth.allow(sid, bid) {
+		if method == stationSvc+"SubmitReading" && !s.auth.admit(ctx, sid, bid) {
 			s.metrics.rateLimited.Add(1)
 			return status.Error(codes.ResourceExhausted, "too many readings from this bench; wait a moment and send again")
 		}
@@ -217,6 +243,7 @@ func (s *Server) streamAuth(srv any, ss grpc.ServerStream, info *grpc.StreamServ
 const (
 	stationRateDefault  = 5
 	stationBurstDefault = 20
+	stationHoldDefault  = 250 * time.Millisecond
 )
 
 // sessionClosed says whether a session is closed. Sessions never reopen, so

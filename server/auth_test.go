@@ -2,8 +2,12 @@ package server
 
 import (
 	"context"
+	"fmt"
 	"net"
+	"sync"
+	"sync/atomic"
 	"testing"
+	"time"
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
@@ -205,7 +209,7 @@ func TestGeneratedKeyIsShownOnceAndStoredHashed(t *testing.T) {
 // past its burst, nothing it was refused is stored, and other benches are
 // not held back.
 func TestStationRateLimit(t *testing.T) {
-	r := startRigWith(t, Config{StationRate: 1, StationBurst: 5})
+	r := startRigWith(t, Config{StationRate: 1, StationBurst: 5, StationHold: 5 * time.Millisecond})
 	ctx := context.Background()
 	sess, _ := setupRoom(t, r)
 	tokens := map[string]string{}
@@ -236,6 +240,9 @@ func TestStationRateLimit(t *testing.T) {
 	if ok > 7 || limited < 23 {
 		t.Errorf("%d stored, %d limited; want about 5 stored (the burst) and the rest limited", ok, limited)
 	}
+	if held := r.srv.metrics.rateLimited.Load(); held != int64(limited) {
+		t.Errorf("rate-limited counter %d, want %d", held, limited)
+	}
 	_, rs, _ := r.db.BenchReadings(sess.SessionId, join.Bench.BenchId)
 	if len(rs) != ok {
 		t.Errorf("%d readings stored, but %d were acknowledged", len(rs), ok)
@@ -246,5 +253,61 @@ func TestStationRateLimit(t *testing.T) {
 	if _, err := rpcpb.NewStationServiceClient(conn2).SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sess.SessionId,
 		BenchId: other.Bench.BenchId, ReadingId: "calm", Values: map[string]*pb.Quantity{"current": q(1, "A"), "force": q(0.48, "N")}}); err != nil {
 		t.Errorf("another bench was held back: %v", err)
+	}
+}
+
+// TestStationHeldNotRefused: a station a little over its rate is slowed to
+// the rate, not refused; one flooding from several callers gets its
+// refusals no faster than one per hold per caller, so it cannot make the
+// server spend itself on refusing.
+func TestStationHeldNotRefused(t *testing.T) {
+	r := startRigWith(t, Config{StationRate: 20, StationBurst: 1, StationHold: 100 * time.Millisecond})
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	join, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: "A1"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	conn, _ := grpc.NewClient(r.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(join.StationToken)))
+	defer conn.Close()
+	st := rpcpb.NewStationServiceClient(conn)
+	send := func(id string) error {
+		_, err := st.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sess.SessionId, BenchId: benches[0].BenchId,
+			ReadingId: id, Values: map[string]*pb.Quantity{"current": q(1, "A"), "force": q(0.48, "N")}})
+		return err
+	}
+	start := time.Now()
+	for i := 0; i < 10; i++ {
+		if err := send(fmt.Sprintf("paced-%d", i)); err != nil {
+			t.Fatalf("reading %d one after another at twice the rate: %v", i, err)
+		}
+	}
+	// Nine waits of a twentieth of a second at least.
+	if d := time.Since(start); d < 400*time.Millisecond {
+		t.Errorf("ten readings over a 20/s limit took %v; they were not paced", d)
+	}
+
+	var tried, refused atomic.Int64
+	fctx, cancel := context.WithTimeout(ctx, time.Second)
+	defer cancel()
+	var wg sync.WaitGroup
+	for c := 0; c < 4; c++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := 0; fctx.Err() == nil; k++ {
+				err := send(fmt.Sprintf("flood-%d-%d", c, k))
+				tried.Add(1)
+				if status.Code(err) == codes.ResourceExhausted {
+					refused.Add(1)
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	// At most 20 stored and 4 callers × 10 holds refused in the second,
+	// where an unheld limit answers thousands of calls.
+	if n := tried.Load(); n > 100 || refused.Load() == 0 {
+		t.Errorf("a station flooding from 4 callers for 1 s made %d calls, %d refused; want at most about 60, some refused", n, refused.Load())
 	}
 }

@@ -57,6 +57,10 @@ type Config struct {
 	// zero means the defaults (5/s, bursts of 20).
 	StationRate  float64
 	StationBurst int
+	// StationHold is how long a reading over its bench's rate waits for
+	// the bench's next turn before it is refused; a refusal also comes
+	// only after this wait. Default 250 ms.
+	StationHold time.Duration
 	// MaxMessageBytes bounds one request; default 64 KiB, far above any
 	// reading.
 	MaxMessageBytes int
@@ -108,6 +112,10 @@ type Server struct {
 	done chan struct{}
 }
 
+// maxStreamsPerConn bounds one connection's calls in flight: a station
+// sends one reading at a time and a dashboard holds one room stream.
+const maxStreamsPerConn = 128
+
 // staticWindow is each stream's and connection's flow-control window: far
 // above any message fluxroom sends, so no stream waits for a window update.
 const staticWindow = 1 << 20
@@ -147,6 +155,10 @@ func New(cfg Config) (*Server, error) {
 	if cfg.StationBurst > 0 {
 		s.auth.burst = cfg.StationBurst
 	}
+	s.auth.hold = cfg.StationHold
+	if s.auth.hold == 0 {
+		s.auth.hold = stationHoldDefault
+	}
 	maxMsg := cfg.MaxMessageBytes
 	if maxMsg == 0 {
 		maxMsg = 64 << 10
@@ -159,6 +171,9 @@ func New(cfg Config) (*Server, error) {
 		grpc.InitialWindowSize(staticWindow),
 		grpc.InitialConnWindowSize(staticWindow),
 		grpc.ForceServerCodecV2(newCodec()),
+		// Readings over the rate are held, not refused at once: bound the
+		// calls one connection can have waiting.
+		grpc.MaxConcurrentStreams(maxStreamsPerConn),
 		grpc.ChainUnaryInterceptor(s.unaryErrors, s.unaryAuth),
 		grpc.ChainStreamInterceptor(s.streamErrors, s.streamAuth),
 	)
