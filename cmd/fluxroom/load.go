@@ -1,10 +1,12 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"io"
 	"math/rand/v2"
+	"net/http"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -21,8 +23,10 @@ import (
 	"google.golang.org/grpc/credentials/insecure"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/proto"
 
 	"example.com/fluxroom/internal/bearer"
+	"example.com/fluxroom/internal/grpcweb"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -64,7 +68,7 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	dur := fs.Duration("duration", 0, "length of each phase (default 1.5 s; 5 s with --full)")
 	callers := fs.Int("callers", 512, "concurrent callers of the closed loop and its echo baseline")
 	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
-	profile := fs.String("server-cpuprofile", "", "write the closed-loop server's CPU profile to this file")
+	profile := fs.String("server-cpuprofile", "", "write each measured server's CPU profile to PREFIX-closed.prof and PREFIX-M-W.prof")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -301,19 +305,24 @@ func u64key(v uint64) []byte {
 	return b
 }
 
-// loadStation is one simulated bench laptop.
+// loadStation is one simulated bench laptop. Between phases a new lab
+// section takes the same laptops: the station joins a fresh bench and keeps
+// its connection, so every phase judges runs of a realistic length.
 type loadStation struct {
 	sid, bid uint64
 	token    string
-	// st is the station's client on its own connection.
+	// st is the station's client on its own connection; calls carry the
+	// token of the bench it is joined to now.
 	st rpcpb.StationServiceClient
 	// sent numbers the readings it made, for their ids and values.
 	sent atomic.Int64
-	// stored counts its readings the server took: in the open loop a
-	// station sends one at a time, so the count is the bench's reading
-	// count that the room stream shows once the reading is judged.
+	// stored counts its readings the server took on this bench: in the open
+	// loop a station sends one at a time, so the count is the bench's
+	// reading count that the room stream shows once the reading is judged.
 	stored atomic.Int32
 }
+
+func (s *loadStation) creds() grpc.CallOption { return grpc.PerRPCCredentials(bearer.Token(s.token)) }
 
 // reading is the station's next reading: a coil-force run stepping the
 // current, force following F = N·B·L·I for the demo coil with 1 % noise.
@@ -331,9 +340,10 @@ type loadRoom struct {
 	db       string
 	admin    *grpc.ClientConn
 	in       rpcpb.InstructorServiceClient
-	sessions []uint64
+	sessions []uint64 // the current section's
 	stations []*loadStation
 	conns    []*grpc.ClientConn
+	sections int
 }
 
 func (r *loadRoom) close() {
@@ -345,9 +355,9 @@ func (r *loadRoom) close() {
 	}
 }
 
-// newLoadRoom starts a server on a fresh file and joins n stations, 30 to a
-// session. With own, every station dials its own connection and makes one
-// call on it.
+// newLoadRoom starts a server on a fresh file and joins n stations to a
+// first section. With own, every station dials its own connection and
+// makes one call on it.
 func newLoadRoom(dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
 	db := filepath.Join(dir, fmt.Sprintf("load-%d.db", time.Now().UnixNano()))
 	c, startup, err := startChild(append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
@@ -360,35 +370,54 @@ func newLoadRoom(dir string, n int, own bool, serveArgs ...string) (*loadRoom, t
 		return nil, 0, err
 	}
 	r.in = rpcpb.NewInstructorServiceClient(r.admin)
-	ctx := context.Background()
-	for len(r.stations) < n {
-		cs, err := r.in.CreateSession(ctx, &pb.CreateSessionRequest{Title: fmt.Sprintf("Harrowgate load section %d", len(r.sessions)+1)})
-		if err != nil {
-			return nil, 0, err
-		}
-		r.sessions = append(r.sessions, cs.Session.SessionId)
-		var bs []*pb.Bench
-		for i := 0; i < 30 && len(r.stations)+len(bs) < n; i++ {
-			bs = append(bs, &pb.Bench{Label: fmt.Sprintf("B%02d", i+1), Row: int32(i / 6), Column: int32(i % 6), Experiment: "coil_force"})
-		}
-		sb, err := r.in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: bs})
-		if err != nil {
-			return nil, 0, err
-		}
-		for _, b := range sb.Benches {
-			j, err := rpcpb.NewStationServiceClient(r.admin).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: cs.Session.JoinCode, BenchLabel: b.Label})
-			if err != nil {
-				return nil, 0, err
-			}
-			r.stations = append(r.stations, &loadStation{sid: cs.Session.SessionId, bid: b.BenchId, token: j.StationToken})
-		}
+	for range n {
+		r.stations = append(r.stations, &loadStation{})
+	}
+	if err := r.newSection(); err != nil {
+		c.kill()
+		return nil, 0, err
 	}
 	if own {
 		if err := r.connectAll(); err != nil {
+			c.kill()
 			return nil, 0, err
 		}
 	}
 	return r, startup, nil
+}
+
+// newSection starts a new lab section: sessions of 30 benches for all the
+// stations, each station joined to one bench.
+func (r *loadRoom) newSection() error {
+	ctx := context.Background()
+	r.sections++
+	r.sessions = r.sessions[:0]
+	for first := 0; first < len(r.stations); first += 30 {
+		cs, err := r.in.CreateSession(ctx, &pb.CreateSessionRequest{Title: fmt.Sprintf("Harrowgate load, section %d room %d", r.sections, len(r.sessions)+1)})
+		if err != nil {
+			return err
+		}
+		r.sessions = append(r.sessions, cs.Session.SessionId)
+		group := r.stations[first:min(first+30, len(r.stations))]
+		var bs []*pb.Bench
+		for i := range group {
+			bs = append(bs, &pb.Bench{Label: fmt.Sprintf("B%02d", i+1), Row: int32(i / 6), Column: int32(i % 6), Experiment: "coil_force"})
+		}
+		sb, err := r.in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: bs})
+		if err != nil {
+			return err
+		}
+		for i, b := range sb.Benches {
+			j, err := rpcpb.NewStationServiceClient(r.admin).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: cs.Session.JoinCode, BenchLabel: b.Label})
+			if err != nil {
+				return err
+			}
+			s := group[i]
+			s.sid, s.bid, s.token = cs.Session.SessionId, b.BenchId, j.StationToken
+			s.stored.Store(0)
+		}
+	}
+	return nil
 }
 
 // connectAll gives every station its own connection, opened by one call.
@@ -398,7 +427,7 @@ func (r *loadRoom) connectAll() error {
 	sem := make(chan struct{}, 64)
 	var wg sync.WaitGroup
 	for _, s := range r.stations {
-		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(s.token)))
+		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
 		if err != nil {
 			return err
 		}
@@ -409,7 +438,7 @@ func (r *loadRoom) connectAll() error {
 		go func() {
 			defer wg.Done()
 			defer func() { <-sem }()
-			if _, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}); err != nil {
+			if _, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}, s.creds()); err != nil {
 				mu.Lock()
 				firstErr = err
 				mu.Unlock()
@@ -433,7 +462,7 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	var res closedResult
 	args := []string{"--station-rate", "1e9", "--station-burst", "1000000000"}
 	if cfg.profile != "" {
-		args = append(args, "--cpuprofile", cfg.profile)
+		args = append(args, "--cpuprofile", cfg.profile+"-closed.prof")
 	}
 	r, _, err := newLoadRoom(dir, cfg.callers, false, args...)
 	if err != nil {
@@ -452,16 +481,19 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	}
 	n, cpu := closedRun(cfg.callers, cfg.dur, r.c, func(ctx context.Context, i int) error {
 		s := r.stations[i%len(r.stations)]
-		_, err := shared[i%len(shared)].SubmitReading(ctx, s.reading(), grpc.PerRPCCredentials(bearer.Token(s.token)))
+		_, err := shared[i%len(shared)].SubmitReading(ctx, s.reading(), s.creds())
 		return err
 	})
 	res.sharedRate, res.sharedCPU = n/cfg.dur.Seconds(), cpu
+	if err := r.newSection(); err != nil {
+		return res, err
+	}
 	if err := r.connectAll(); err != nil {
 		return res, err
 	}
 	n, cpu = closedRun(cfg.callers, cfg.dur, r.c, func(ctx context.Context, i int) error {
 		s := r.stations[i%len(r.stations)]
-		_, err := s.st.SubmitReading(ctx, s.reading())
+		_, err := s.st.SubmitReading(ctx, s.reading(), s.creds())
 		return err
 	})
 	res.ownRate, res.ownCPU = n/cfg.dur.Seconds(), cpu
@@ -483,6 +515,54 @@ type phase struct {
 	floodStored   int
 	floodRefused  int
 	flooders      int
+}
+
+// webWatch follows a room as the dashboard does: WatchRoom over gRPC-Web
+// on its own HTTP/1.1 connection, through the server's HTTP side. It
+// returns when the stream or ctx ends.
+func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func(*pb.WatchRoomResponse)) error {
+	body, err := proto.Marshal(&pb.WatchRoomRequest{SessionId: sessionID})
+	if err != nil {
+		return err
+	}
+	req, err := http.NewRequestWithContext(ctx, http.MethodPost, "http://"+addr+"/"+rpcpb.InstructorService_ServiceDesc.ServiceName+"/WatchRoom",
+		bytes.NewReader(grpcweb.Frame(body)))
+	if err != nil {
+		return err
+	}
+	req.Header.Set("Content-Type", grpcweb.ContentType)
+	req.Header.Set("Accept", grpcweb.ContentType)
+	req.Header.Set("X-Grpc-Web", "1")
+	req.Header.Set("Authorization", "Bearer "+loadKey)
+	tr := &http.Transport{}
+	defer tr.CloseIdleConnections()
+	resp, err := (&http.Client{Transport: tr}).Do(req)
+	if err != nil {
+		return err
+	}
+	defer resp.Body.Close()
+	if resp.StatusCode != http.StatusOK || resp.Header.Get("Grpc-Status") != "" && resp.Header.Get("Grpc-Status") != "0" {
+		return fmt.Errorf("WatchRoom: HTTP %d, grpc-status %q %q", resp.StatusCode, resp.Header.Get("Grpc-Status"), resp.Header.Get("Grpc-Message"))
+	}
+	var d grpcweb.Deframer
+	buf := make([]byte, 32<<10)
+	for {
+		n, err := resp.Body.Read(buf)
+		msgs, trailer, done := d.Push(buf[:n])
+		for _, m := range msgs {
+			var ev pb.WatchRoomResponse
+			if err := proto.Unmarshal(m, &ev); err != nil {
+				return err
+			}
+			onEvent(&ev)
+		}
+		if done {
+			return fmt.Errorf("WatchRoom ended: %s", grpcweb.TrailerLines(trailer)("grpc-message"))
+		}
+		if err != nil {
+			return err
+		}
+	}
 }
 
 // lateAfter is when a verdict counts as late at the dashboard: well past
@@ -515,19 +595,15 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	for i := range logs {
 		wl := &watcherLog{sid: r.sessions[i%len(r.sessions)], events: map[uint64][]arrival{}}
 		logs[i] = wl
-		stream, err := r.in.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: wl.sid})
-		if err != nil {
-			return ph, err
-		}
-		if _, err := stream.Recv(); err != nil {
-			return ph, err
-		}
+		first := make(chan error, 1)
 		wwg.Add(1)
 		go func() {
 			defer wwg.Done()
-			for {
-				ev, err := stream.Recv()
-				if err != nil {
+			snapshot := true
+			err := webWatch(ctx, r.c.addr, wl.sid, func(ev *pb.WatchRoomResponse) {
+				if snapshot {
+					snapshot = false
+					first <- nil
 					return
 				}
 				if b := ev.GetBench(); b != nil {
@@ -536,8 +612,14 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 					wl.events[b.Bench.BenchId] = append(wl.events[b.Bench.BenchId], arrival{b.ReadingCount, now})
 					wl.mu.Unlock()
 				}
+			})
+			if snapshot {
+				first <- fmt.Errorf("watcher: %w", err)
 			}
 		}()
+		if err := <-first; err != nil {
+			return ph, err
+		}
 	}
 
 	type acked struct {
@@ -561,7 +643,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		go func() {
 			defer swg.Done()
 			for t0 := range queues[i] {
-				if _, err := s.st.SubmitReading(ctx, s.reading()); err != nil {
+				if _, err := s.st.SubmitReading(ctx, s.reading(), s.creds()); err != nil {
 					failed.Add(1)
 					continue
 				}
@@ -582,7 +664,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		go func() {
 			defer fwg.Done()
 			for fctx.Err() == nil {
-				_, err := flood.st.SubmitReading(fctx, flood.reading())
+				_, err := flood.st.SubmitReading(fctx, flood.reading(), flood.creds())
 				floodTried.Add(1)
 				switch status.Code(err) {
 				case codes.OK:
@@ -658,7 +740,11 @@ type sweepPoint struct {
 
 func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, error) {
 	p := sweepPoint{stations: stations, watchers: watchers}
-	r, startup, err := newLoadRoom(dir, stations, false, "--station-rate", loadStationRate, "--station-burst", loadStationBurst)
+	args := []string{"--station-rate", loadStationRate, "--station-burst", loadStationBurst}
+	if cfg.profile != "" {
+		args = append(args, "--cpuprofile", fmt.Sprintf("%s-%d-%d.prof", cfg.profile, stations, watchers))
+	}
+	r, startup, err := newLoadRoom(dir, stations, false, args...)
 	if err != nil {
 		return p, err
 	}
@@ -688,7 +774,13 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 		{&p.flooded, capRate(cfg.light), 0, cfg.flooders},
 	}
 	total := 0
-	for _, ph := range phases {
+	for i, ph := range phases {
+		if i > 0 {
+			if err := r.newSection(); err != nil {
+				r.c.kill()
+				return p, err
+			}
+		}
 		if *ph.out, err = openLoop(r, ph.rate, cfg.dur, ph.watch, ph.flooder); err != nil {
 			r.c.kill()
 			return p, err
