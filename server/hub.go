@@ -94,6 +94,13 @@ func (h *hub) publish(sessionID uint64, ev *pb.WatchRoomResponse) {
 	}
 }
 
+// watchersOf is the number of open streams on one session's room.
+func (h *hub) watchersOf(sessionID uint64) int {
+	h.mu.Lock()
+	defer h.mu.Unlock()
+	return len(h.watchers[sessionID])
+}
+
 // watcherCount is the number of open room streams.
 func (h *hub) watcherCount() int {
 	h.mu.Lock()

@@ -20,22 +20,32 @@ import (
 type roomJudge struct {
 	mu      sync.Mutex
 	pending map[uint64][]domain.Reading // bench id → readings, in commit order
-	wake    chan struct{}
+	// done is set, under mu, when the judge stops after a quiet spell;
+	// whoever finds it set starts a new one.
+	done bool
+	wake chan struct{}
 }
 
 // judged enqueues a committed reading for its session's judge and returns
 // at once.
 func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
-	v, ok := s.judges.Load(sessionID)
-	if !ok {
-		j := &roomJudge{pending: map[uint64][]domain.Reading{}, wake: make(chan struct{}, 1)}
-		if v, ok = s.judges.LoadOrStore(sessionID, j); !ok {
-			s.judgeWG.Add(1)
-			go s.runJudge(sessionID, j)
+	var j *roomJudge
+	for {
+		v, ok := s.judges.Load(sessionID)
+		if !ok {
+			fresh := &roomJudge{pending: map[uint64][]domain.Reading{}, wake: make(chan struct{}, 1)}
+			if v, ok = s.judges.LoadOrStore(sessionID, fresh); !ok {
+				s.judgeWG.Add(1)
+				go s.runJudge(sessionID, fresh)
+			}
 		}
+		j = v.(*roomJudge)
+		j.mu.Lock()
+		if !j.done {
+			break
+		}
+		j.mu.Unlock() // it just stopped: start another
 	}
-	j := v.(*roomJudge)
-	j.mu.Lock()
 	j.pending[benchID] = append(j.pending[benchID], r)
 	j.mu.Unlock()
 	select {
@@ -54,6 +64,8 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 	var lastFindings time.Time
 	var findingsDue <-chan time.Time
 	findingsOwed := false
+	quiet := time.NewTimer(s.roomIdle)
+	defer quiet.Stop()
 	for {
 		select {
 		case <-s.done:
@@ -61,7 +73,18 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 		case <-j.wake:
 		case <-findingsDue:
 			findingsDue = nil
+		case <-quiet.C:
+			// A quiet room's judge stops, unless a reading just came.
+			j.mu.Lock()
+			if len(j.pending) == 0 && !findingsOwed {
+				j.done = true
+				s.judges.CompareAndDelete(sessionID, j)
+				j.mu.Unlock()
+				return
+			}
+			j.mu.Unlock()
 		}
+		quiet.Reset(s.roomIdle)
 		j.mu.Lock()
 		batch := j.pending
 		j.pending = make(map[uint64][]domain.Reading, len(batch))

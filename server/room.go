@@ -33,13 +33,35 @@ type roomState struct {
 	readings map[uint64][]domain.Reading
 	// memos keep each bench's judging work between readings.
 	memos map[uint64]*domain.Memo
+	// used is when the room was last judged or shown; a room nobody
+	// watches that has been quiet for Config.RoomIdle leaves the cache.
+	used time.Time
 }
 
 func (r *rooms) get(sessionID uint64) (*roomState, bool) {
 	r.mu.Lock()
 	defer r.mu.Unlock()
 	rs, ok := r.m[sessionID]
+	if ok {
+		rs.used = time.Now()
+	}
 	return rs, ok
+}
+
+// peek is get without counting as a use.
+func (r *rooms) peek(sessionID uint64) (*roomState, bool) {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	rs, ok := r.m[sessionID]
+	return rs, ok
+}
+
+// idle reports whether a cached room has gone unused for d.
+func (r *rooms) idle(sessionID uint64, d time.Duration) bool {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	rs, ok := r.m[sessionID]
+	return ok && time.Since(rs.used) >= d
 }
 
 func (r *rooms) put(sessionID uint64, rs *roomState) {
@@ -77,7 +99,7 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 	if err != nil {
 		return nil, err
 	}
-	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{},
+	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{}, used: time.Now(),
 		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings, memos: map[uint64]*domain.Memo{}}
 	for _, b := range d.Benches {
 		rs.benches[b.ID] = b
@@ -125,13 +147,21 @@ func sameFindings(a, b []domain.RoomFinding) bool {
 }
 
 // checkStalls re-evaluates every cached room and publishes the benches
-// whose stalled flag changed. The server runs it on a ticker.
+// whose stalled flag changed, and drops from the cache the rooms nobody
+// watches that were quiet for Config.RoomIdle: they are read back from the
+// file when next needed. The server runs it on a ticker.
 func (s *Server) checkStalls() {
 	now := s.now()
 	for _, id := range s.rooms.sessions() {
 		mu := s.hub.sessionLock(id)
 		mu.Lock()
-		if rs, ok := s.rooms.get(id); ok {
+		if s.rooms.idle(id, s.roomIdle) && s.hub.watchersOf(id) == 0 {
+			s.rooms.drop(id)
+			s.benches.forget(id)
+			mu.Unlock()
+			continue
+		}
+		if rs, ok := s.rooms.peek(id); ok {
 			stalled := domain.StalledBenches(rs.resultList(), now, s.stallAfter)
 			for bid := range rs.states {
 				if stalled[bid] != rs.stalled[bid] {
