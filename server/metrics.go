@@ -3,6 +3,7 @@ package server
 import (
 	"fmt"
 	"net/http"
+	"runtime"
 	"sort"
 	"sync"
 	"sync/atomic"
@@ -56,6 +57,16 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	counter("fluxroom_rejected_inputs_total", "Requests answered InvalidArgument.", m.rejected.Load())
 	counter("fluxroom_rate_limited_total", "Readings refused by a station's rate limit.", m.rateLimited.Load())
 	fmt.Fprintf(w, "# HELP fluxroom_watchers Open room streams.\n# TYPE fluxroom_watchers gauge\nfluxroom_watchers %d\n", s.hub.watcherCount())
+	// The Go runtime's memory, under the names Prometheus' Go client uses.
+	var ms runtime.MemStats
+	runtime.ReadMemStats(&ms)
+	gauge := func(name, help string, v uint64) {
+		fmt.Fprintf(w, "# HELP %s %s\n# TYPE %s gauge\n%s %d\n", name, help, name, name, v)
+	}
+	gauge("go_goroutines", "Number of goroutines that currently exist.", uint64(runtime.NumGoroutine()))
+	gauge("go_memstats_heap_inuse_bytes", "Number of heap bytes that are in use.", ms.HeapInuse)
+	gauge("go_memstats_stack_inuse_bytes", "Number of bytes in use by the stack allocator.", ms.StackInuse)
+	gauge("go_memstats_sys_bytes", "Number of bytes obtained from system.", ms.Sys)
 	fmt.Fprintf(w, "# HELP fluxroom_uptime_seconds Seconds since the server started.\n# TYPE fluxroom_uptime_seconds gauge\nfluxroom_uptime_seconds %.0f\n", time.Since(m.started).Seconds())
 	var methods []string
 	m.latency.Range(func(k, _ any) bool { methods = append(methods, k.(string)); return true })

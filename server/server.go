@@ -7,8 +7,10 @@ import (
 	"log/slog"
 	"net"
 	"net/http"
+	"net/http/pprof"
 	"slices"
 	"strconv"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -47,8 +49,13 @@ type Config struct {
 	// StallAfter is how long a bench may go without a reading, while
 	// others progress, before it shows as stalled. Default 10 minutes.
 	StallAfter time.Duration
-	// StallCheck is how often stalls are looked for. Default 15 s.
+	// StallCheck is how often stalls are looked for. Default 15 s, or
+	// half of RoomIdle when that is shorter.
 	StallCheck time.Duration
+	// RoomIdle is how long a room nobody watches stays in memory after its
+	// last reading: then it leaves the cache (and its judge stops) until
+	// someone needs it again. Default 10 minutes.
+	RoomIdle time.Duration
 	// InstructorKey, when set, is the instructor's credential (its hash is
 	// stored). When empty and none is stored, New makes one: ShownKey
 	// returns it, to be shown once.
@@ -89,8 +96,8 @@ type Server struct {
 	shown   string
 	metrics *metrics
 	grpc    *grpc.Server
-	// stallAfter and stallCheck: see Config.
-	stallAfter, stallCheck time.Duration
+	// stallAfter, stallCheck and roomIdle: see Config.
+	stallAfter, stallCheck, roomIdle time.Duration
 	failPoint              func(string) error
 	ackBeforeCommit        bool
 	http                   *http.Server
@@ -116,6 +123,11 @@ type Server struct {
 // sends one reading at a time and a dashboard holds one room stream.
 const maxStreamsPerConn = 128
 
+// connBufferSize is each connection's read and write buffer, against
+// grpc-go's default of 32 KiB each: 5 000 stations' read buffers take
+// 20 MB instead of 160.
+const connBufferSize = 4 << 10
+
 // staticWindow is each stream's and connection's flow-control window: far
 // above any message fluxroom sends, so no stream waits for a window update.
 const staticWindow = 1 << 20
@@ -140,8 +152,12 @@ func New(cfg Config) (*Server, error) {
 	if s.stallAfter == 0 {
 		s.stallAfter = 10 * time.Minute
 	}
+	s.roomIdle = cfg.RoomIdle
+	if s.roomIdle == 0 {
+		s.roomIdle = 10 * time.Minute
+	}
 	if s.stallCheck == 0 {
-		s.stallCheck = 15 * time.Second
+		s.stallCheck = min(15*time.Second, s.roomIdle/2)
 	}
 	a, shown, err := setUpAuth(cfg.DB, cfg.InstructorKey)
 	if err != nil {
@@ -170,6 +186,12 @@ func New(cfg Config) (*Server, error) {
 		// burst on every station's connection.
 		grpc.InitialWindowSize(staticWindow),
 		grpc.InitialConnWindowSize(staticWindow),
+		// A reading is a few hundred bytes: small per-connection buffers,
+		// and idle connections give their write buffer back, keep the
+		// memory of a campus of stations in bounds.
+		grpc.ReadBufferSize(connBufferSize),
+		grpc.WriteBufferSize(connBufferSize),
+		grpc.SharedWriteBuffer(true),
 		grpc.ForceServerCodecV2(newCodec()),
 		// Readings over the rate are held, not refused at once: bound the
 		// calls one connection can have waiting.
@@ -192,6 +214,10 @@ func New(cfg Config) (*Server, error) {
 	}
 	mux := http.NewServeMux()
 	mux.HandleFunc("/metrics", s.serveMetrics)
+	// The Go runtime's profiles, for the instructor key only: they show
+	// what the server spends its CPU and memory on.
+	mux.Handle("/debug/pprof/", s.instructorOnly(http.HandlerFunc(pprof.Index)))
+	mux.Handle("/debug/pprof/profile", s.instructorOnly(http.HandlerFunc(pprof.Profile)))
 	mux.Handle("/", web)
 	web = mux
 	// The browser speaks gRPC-Web over HTTP/1.1; vanguard translates it to
@@ -341,6 +367,19 @@ func (s *Server) StationToken(sessionID, benchID uint64) string {
 
 // requestID is a short random id that ties a call's log lines together and
 // is returned to the caller as the x-request-id header.
+// instructorOnly lets through HTTP requests that carry the instructor key
+// as a bearer token.
+func (s *Server) instructorOnly(h http.Handler) http.Handler {
+	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
+		tok, _ := strings.CutPrefix(r.Header.Get("Authorization"), "Bearer ")
+		if !s.auth.isInstructor(strings.TrimSpace(tok)) {
+			http.Error(w, "this needs the instructor key (Authorization: Bearer <key>)", http.StatusUnauthorized)
+			return
+		}
+		h.ServeHTTP(w, r)
+	})
+}
+
 // requestID names a call in the logs: the process's start time and a
 // counter, unique per process and free to make.
 func (s *Server) requestID() string {

@@ -44,6 +44,8 @@ func Handler(built fs.FS) (http.Handler, error) {
 		return nil, err
 	}
 	version := "unbuilt"
+	// Only the hash is kept: the file is served from built, not held in
+	// memory (12 MB).
 	wasm, err := fs.ReadFile(built, BuiltWASM)
 	switch {
 	case err == nil:
@@ -53,6 +55,8 @@ func Handler(built fs.FS) (http.Handler, error) {
 	default:
 		return nil, err
 	}
+	haveWASM := wasm != nil
+	wasm = nil
 	_, gzErr := fs.Stat(built, BuiltWASMGzip)
 	hasGzip := gzErr == nil
 	execJS, execErr := fs.ReadFile(built, BuiltExecJS)
@@ -75,7 +79,7 @@ func Handler(built fs.FS) (http.Handler, error) {
 	files := http.FileServerFS(staticFS)
 	mux := http.NewServeMux()
 	mux.HandleFunc("/web/app.wasm", func(w http.ResponseWriter, r *http.Request) {
-		if wasm == nil {
+		if !haveWASM {
 			http.Error(w, "the dashboard is not built: run `make wasm` (or `make build`) and restart", http.StatusServiceUnavailable)
 			return
 		}
