@@ -175,6 +175,7 @@ type serverOptions struct {
 	ackBeforeCommit bool
 	stationRate     float64
 	stationBurst    int
+	roomIdle        time.Duration
 }
 
 // start opens the database and serves on addr until ctx ends or stop runs.
@@ -192,7 +193,7 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
 	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey,
-		AckBeforeCommit: opts.ackBeforeCommit, StationRate: opts.stationRate, StationBurst: opts.stationBurst})
+		AckBeforeCommit: opts.ackBeforeCommit, StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle})
 	if err != nil {
 		db.Close()
 		return nil, err
@@ -258,6 +259,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	tlsKey := fs.String("tls-key", "", "TLS private key file (PEM)")
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
 	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
+	roomIdle := fs.Duration("room-idle", 10*time.Minute, "how long a room nobody watches stays in memory after its last reading")
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the server to this file until it stops (performance work)")
 	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
 	if err := parse(fs, args); err != nil {
@@ -292,7 +294,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
 	}
 	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, ackBeforeCommit: *ackEarly,
-		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey})
+		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey, roomIdle: *roomIdle})
 	if err != nil {
 		return err
 	}
