@@ -98,10 +98,10 @@ type Server struct {
 	grpc    *grpc.Server
 	// stallAfter, stallCheck and roomIdle: see Config.
 	stallAfter, stallCheck, roomIdle time.Duration
-	failPoint              func(string) error
-	ackBeforeCommit        bool
-	http                   *http.Server
-	health                 *health.Server
+	failPoint                        func(string) error
+	ackBeforeCommit                  bool
+	http                             *http.Server
+	health                           *health.Server
 
 	// judges holds each session's roomJudge; judgeWG waits for them at
 	// shutdown.

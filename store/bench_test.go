@@ -66,7 +66,10 @@ func BenchmarkAppendReading(b *testing.B) {
 			b.StopTimer()
 			b.ReportMetric(float64(n.Load())/b.Elapsed().Seconds(), "readings/s")
 			if fi, err := os.Stat(path); err == nil {
-				b.ReportMetric(float64(fi.Size())/float64(n.Load()), "B/reading")
+				b.ReportMetric(float64(fi.Size())/float64(n.Load()), "file-B/reading")
+			}
+			if used, err := db.UsedBytes(); err == nil {
+				b.ReportMetric(float64(used)/float64(n.Load()), "used-B/reading")
 			}
 		})
 	}

@@ -265,6 +265,14 @@ func (db *DB) Close() error {
 	return db.bolt.Close()
 }
 
+// UsedBytes is the file up to its last page in use: its size less the
+// room bbolt grows it by ahead of need (16 MiB steps past the first few).
+func (db *DB) UsedBytes() (int64, error) {
+	var n int64
+	err := db.bolt.View(func(tx *bbolt.Tx) error { n = tx.Size(); return nil })
+	return n, err
+}
+
 // Path is the file's path.
 func (db *DB) Path() string { return db.bolt.Path() }
 
