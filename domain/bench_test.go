@@ -8,7 +8,9 @@ import (
 )
 
 // BenchmarkAssessAfterReading is the hot path of every submission: judge a
-// bench again with its newest reading, for runs of 10, 30 and 100 readings.
+// bench again with its newest reading, for runs of 10, 30 and 100 readings,
+// from scratch and, as the server does, with the bench's Memo holding the
+// earlier readings' work.
 func BenchmarkAssessAfterReading(b *testing.B) {
 	for _, exp := range SimulatedExperiments() {
 		for _, n := range []int{10, 30, 100} {
@@ -23,6 +25,16 @@ func BenchmarkAssessAfterReading(b *testing.B) {
 				b.ReportAllocs()
 				for i := 0; i < b.N; i++ {
 					Assess(g.Bench, rs, DefaultTolerance)
+				}
+			})
+			b.Run(fmt.Sprintf("%s/%d/memo", exp, n), func(b *testing.B) {
+				var m Memo
+				a := AssessMemo(g.Bench, rs[:n-1], DefaultTolerance, &m)
+				ResultOfMemo(g.Bench, a, rs[:n-1], &m)
+				b.ReportAllocs()
+				for i := 0; i < b.N; i++ {
+					a := AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+					ResultOfMemo(g.Bench, a, rs, &m)
 				}
 			})
 		}

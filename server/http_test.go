@@ -38,7 +38,8 @@ func TestDebugAndMetricsEndpoints(t *testing.T) {
 			t.Errorf("GET %s with key %q: %d, want %d", tc.path, tc.key, code, tc.want)
 		}
 	}
-	if code, body := get("/metrics", ""); code != http.StatusOK || !strings.Contains(body, "go_memstats_heap_inuse_bytes ") || !strings.Contains(body, "go_goroutines ") {
+	if code, body := get("/metrics", ""); code != http.StatusOK || !strings.Contains(body, "go_memstats_heap_inuse_bytes ") || !strings.Contains(body, "go_goroutines ") ||
+		!strings.Contains(body, "fluxroom_db_used_bytes ") {
 		t.Errorf("/metrics: %d without the Go memory gauges:\n%s", code, body)
 	}
 }

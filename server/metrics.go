@@ -56,6 +56,9 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	counter("fluxroom_readings_duplicate_total", "Submissions of a reading id already stored.", m.duplicates.Load())
 	counter("fluxroom_rejected_inputs_total", "Requests answered InvalidArgument.", m.rejected.Load())
 	counter("fluxroom_rate_limited_total", "Readings refused by a station's rate limit.", m.rateLimited.Load())
+	if used, err := s.db.UsedBytes(); err == nil {
+		fmt.Fprintf(w, "# HELP fluxroom_db_used_bytes The database file up to its last page in use.\n# TYPE fluxroom_db_used_bytes gauge\nfluxroom_db_used_bytes %d\n", used)
+	}
 	fmt.Fprintf(w, "# HELP fluxroom_watchers Open room streams.\n# TYPE fluxroom_watchers gauge\nfluxroom_watchers %d\n", s.hub.watcherCount())
 	// The Go runtime's memory, under the names Prometheus' Go client uses.
 	var ms runtime.MemStats

@@ -4,7 +4,9 @@ import (
 	"bufio"
 	"context"
 	"fmt"
+	"math"
 	"net"
+	"net/http"
 	"os"
 	"os/exec"
 	"strconv"
@@ -152,6 +154,25 @@ func procMem(pid int) (rss, peak float64) {
 		}
 	}
 	return rss, peak
+}
+
+// metric reads one value from the child's /metrics; NaN when absent.
+func (c *child) metric(name string) float64 {
+	resp, err := http.Get("http://" + c.addr + "/metrics")
+	if err != nil {
+		return math.NaN()
+	}
+	defer resp.Body.Close()
+	sc := bufio.NewScanner(resp.Body)
+	for sc.Scan() {
+		if v, ok := strings.CutPrefix(sc.Text(), name+" "); ok {
+			f, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+			if err == nil {
+				return f
+			}
+		}
+	}
+	return math.NaN()
 }
 
 // selfCPU is the load generator's own CPU time.
