@@ -8,10 +8,12 @@ import (
 // SchemaVersion is the layout this build reads and writes. Bump it, and add
 // an upgrade step in upgrades, whenever a bucket or key layout changes.
 //
-//	1: readings keyed session | bench | sequence.
+//	1: readings keyed session | bench | sequence, and an index of reading
+//	   ids in bucket reading_ids.
 //	2: readings keyed session | sequence | bench, in bucket
-//	   readings_by_session: appended in order, so pages fill (≈ 40 % less
-//	   file per reading).
+//	   readings_by_session: appended in order, so pages fill; no id index
+//	   in the file (the writer keeps it in memory, see ids.go). About half
+//	   the file per reading.
 const SchemaVersion = 2
 
 // Buckets. Every one is created when the file is opened.
@@ -26,13 +28,11 @@ var (
 	bucketBenches = []byte("benches")
 	// bucketReadings: readingKey → recordpb.Reading. Append-only.
 	bucketReadings = []byte("readings_by_session")
-	// bucketReadingIDs: readingIDKey → reading sequence (uint64 big-endian).
-	bucketReadingIDs = []byte("reading_ids")
 	// bucketEvents: eventKey → recordpb.Event, a session's audit log of
 	// notes and acknowledged alerts. Append-only.
 	bucketEvents = []byte("events")
 
-	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketReadingIDs, bucketEvents}
+	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketEvents}
 
 	keySchemaVersion = []byte("schema_version")
 	// keyInstructorKeyHash holds SHA-256 of the instructor key; the key
@@ -92,15 +92,6 @@ func decodeReadingKey(k []byte) (sessionID, benchID, seq uint64, err error) {
 		return 0, 0, 0, fmt.Errorf("store: corrupt reading key of %d bytes", len(k))
 	}
 	return binary.BigEndian.Uint64(k[0:8]), binary.BigEndian.Uint64(k[16:24]), binary.BigEndian.Uint64(k[8:16]), nil
-}
-
-// readingIDKey is session id (0–7) | bench id (8–15) | the client's reading id
-// (16–, at most 64 bytes, validated by the domain).
-func readingIDKey(sessionID, benchID uint64, readingID string) []byte {
-	k := make([]byte, 16, 16+len(readingID))
-	binary.BigEndian.PutUint64(k[0:8], sessionID)
-	binary.BigEndian.PutUint64(k[8:16], benchID)
-	return append(k, readingID...)
 }
 
 // eventKey is session id (0–7) | sequence (8–15), big-endian.

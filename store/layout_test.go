@@ -46,7 +46,7 @@ func schemaOf(t *testing.T, path string) (version uint64, hasV1Readings bool) {
 	defer b.Close()
 	b.View(func(tx *bbolt.Tx) error {
 		version, _ = decodeU64(tx.Bucket(bucketMeta).Get(keySchemaVersion))
-		hasV1Readings = tx.Bucket(bucketReadingsV1) != nil
+		hasV1Readings = tx.Bucket(bucketReadingsV1) != nil || tx.Bucket(bucketReadingIDsV1) != nil
 		return nil
 	})
 	return version, hasV1Readings

@@ -31,7 +31,9 @@ type DB struct {
 	bolt *bbolt.DB
 	// appends feeds the one writer that commits readings in groups.
 	appends chan appendReq
-	wg      sync.WaitGroup
+	// ids is the writer's index of reading ids (see ids.go).
+	ids readingIDs
+	wg  sync.WaitGroup
 	// closeMu keeps AppendReading from sending after Close.
 	closeMu sync.RWMutex
 	closed  bool
@@ -152,18 +154,40 @@ func (db *DB) writer() {
 			}
 		}
 		results := make([]appendRes, len(group))
+		// Ids taken by this group; taken back if the commit fails.
+		type taken struct {
+			s         *sessionIDs
+			benchID   uint64
+			readingID string
+		}
+		var took []taken
+		now := time.Now()
 		err := db.bolt.Update(func(tx *bbolt.Tx) error {
 			for i, req := range group {
-				results[i].stored, results[i].duplicate, results[i].err = appendOne(tx, req.sessionID, req.benchID, req.r)
+				ids, err := db.ids.session(tx, req.sessionID, now)
+				if err != nil {
+					results[i].err = err
+					continue
+				}
+				results[i].stored, results[i].duplicate, results[i].err = appendOne(tx, ids, req.sessionID, req.benchID, req.r)
+				if results[i].err == nil && !results[i].duplicate {
+					took = append(took, taken{ids, req.benchID, req.r.ID})
+				}
 			}
 			return nil
 		})
+		if err != nil {
+			for _, t := range took {
+				t.s.remove(t.benchID, t.readingID)
+			}
+		}
 		for i, req := range group {
 			if err != nil {
 				results[i] = appendRes{err: err}
 			}
 			req.done <- results[i]
 		}
+		db.ids.sweep(now)
 	}
 }
 
@@ -414,8 +438,8 @@ func (db *DB) ImportSession(d SessionData) (uint64, error) {
 		if codes.Get([]byte(d.Session.JoinCode)) != nil {
 			return fmt.Errorf("%w: join code in use", ErrConflict)
 		}
-		sessions, benches, readings, ids, events := tx.Bucket(bucketSessions), tx.Bucket(bucketBenches),
-			tx.Bucket(bucketReadings), tx.Bucket(bucketReadingIDs), tx.Bucket(bucketEvents)
+		sessions, benches, readings, events := tx.Bucket(bucketSessions), tx.Bucket(bucketBenches),
+			tx.Bucket(bucketReadings), tx.Bucket(bucketEvents)
 		var err error
 		if sid, err = sessions.NextSequence(); err != nil {
 			return err
@@ -443,9 +467,6 @@ func (db *DB) ImportSession(d SessionData) (uint64, error) {
 					return err
 				}
 				if err := putRecord(readings, readingKey(sid, b.ID, r.Sequence), readingRecord(r)); err != nil {
-					return err
-				}
-				if err := ids.Put(readingIDKey(sid, b.ID, r.ID), u64(r.Sequence)); err != nil {
 					return err
 				}
 			}
@@ -727,22 +748,16 @@ func (db *DB) AppendReading(sessionID, benchID uint64, r domain.Reading) (stored
 // appendOne writes one reading inside a transaction. It checks everything
 // before it writes, so an error leaves the transaction as it was for the
 // other readings of the group.
-func appendOne(tx *bbolt.Tx, sessionID, benchID uint64, r domain.Reading) (domain.Reading, bool, error) {
+func appendOne(tx *bbolt.Tx, ids *sessionIDs, sessionID, benchID uint64, r domain.Reading) (domain.Reading, bool, error) {
 	if tx.Bucket(bucketBenches).Get(benchKey(sessionID, benchID)) == nil {
 		return domain.Reading{}, false, fmt.Errorf("%w: bench %d in session %d", ErrNotFound, benchID, sessionID)
 	}
-	ids := tx.Bucket(bucketReadingIDs)
-	idKey := readingIDKey(sessionID, benchID, r.ID)
 	readings := tx.Bucket(bucketReadings)
-	// Each bench's readings are appended at the end of its key range:
-	// full pages on a split, where bbolt's default of half-full pages
-	// would leave the file half empty.
+	// Each new reading goes at the end of its session's range: full pages
+	// on a split, where bbolt's default of half-full pages would leave the
+	// file half empty.
 	readings.FillPercent = appendFill
-	if raw := ids.Get(idKey); raw != nil {
-		seq, err := decodeU64(raw)
-		if err != nil {
-			return domain.Reading{}, false, err
-		}
+	if seq, ok := ids.lookup(benchID, r.ID); ok {
 		v := readings.Get(readingKey(sessionID, benchID, seq))
 		if v == nil {
 			return domain.Reading{}, false, fmt.Errorf("store: reading id %q points at missing reading %d", r.ID, seq)
@@ -765,7 +780,8 @@ func appendOne(tx *bbolt.Tx, sessionID, benchID uint64, r domain.Reading) (domai
 	if err := readings.Put(readingKey(sessionID, benchID, seq), v); err != nil {
 		return domain.Reading{}, false, err
 	}
-	return r, false, ids.Put(idKey, u64(seq))
+	ids.add(benchID, r.ID, seq)
+	return r, false, nil
 }
 
 func putRecord(b *bbolt.Bucket, key []byte, m proto.Message) error {

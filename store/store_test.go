@@ -81,8 +81,7 @@ func TestRoundTripAcrossReopen(t *testing.T) {
 }
 
 func TestAppendReadingIsIdempotent(t *testing.T) {
-	db, _ := openTemp(t)
-	defer db.Close()
+	db, path := openTemp(t)
 	s, _ := db.CreateSession(domain.Session{Title: "t", JoinCode: "AAAAAA"})
 	bs, err := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}})
 	if err != nil {
@@ -104,6 +103,26 @@ func TestAppendReadingIsIdempotent(t *testing.T) {
 	}
 	if diff := cmp.Diff(again, first); diff != "" {
 		t.Errorf("retry returned (-got +want):\n%s", diff)
+	}
+	// The ids are known from the readings themselves: after a restart too,
+	// and for the other benches of the session, which have none yet.
+	if err := db.Close(); err != nil {
+		t.Fatal(err)
+	}
+	if db, err = Open(path, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	if _, dup, err := db.AppendReading(s.ID, bs[0].ID, r); err != nil || !dup {
+		t.Errorf("append after reopening: duplicate %v, %v; want a duplicate", dup, err)
+	}
+	other, _ := db.PutBenches(s.ID, []domain.Bench{{Label: "A1", Experiment: "coil_force"}, {Label: "A2", Experiment: "coil_force"}})
+	for _, b := range other {
+		if b.Label == "A2" {
+			if _, dup, err := db.AppendReading(s.ID, b.ID, r); err != nil || dup {
+				t.Errorf("the same id on another bench: duplicate %v, %v; want stored", dup, err)
+			}
+		}
 	}
 	_, rs, _ := db.BenchReadings(s.ID, bs[0].ID)
 	if len(rs) != 1 {

@@ -15,12 +15,16 @@ var upgrades = map[uint64]func(*bbolt.Tx) error{
 	1: upgradeReadingsBySession,
 }
 
-// v1 kept readings in bucket "readings" keyed session | bench | sequence.
-var bucketReadingsV1 = []byte("readings")
+// v1 kept readings in bucket "readings" keyed session | bench | sequence,
+// and an index of reading ids in "reading_ids".
+var (
+	bucketReadingsV1   = []byte("readings")
+	bucketReadingIDsV1 = []byte("reading_ids")
+)
 
 // upgradeReadingsBySession moves every reading to the session | sequence |
 // bench key of schema 2, one session at a time in key order, so the new
-// bucket is written full, and drops the old bucket.
+// bucket is written full, and drops the old bucket and the id index.
 func upgradeReadingsBySession(tx *bbolt.Tx) error {
 	old := tx.Bucket(bucketReadingsV1)
 	if old == nil {
@@ -58,6 +62,11 @@ func upgradeReadingsBySession(tx *bbolt.Tx) error {
 	}
 	if err := flush(); err != nil {
 		return err
+	}
+	if tx.Bucket(bucketReadingIDsV1) != nil {
+		if err := tx.DeleteBucket(bucketReadingIDsV1); err != nil {
+			return err
+		}
 	}
 	return tx.DeleteBucket(bucketReadingsV1)
 }
