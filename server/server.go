@@ -103,8 +103,8 @@ type Server struct {
 	http                             *http.Server
 	health                           *health.Server
 
-	// judges holds each session's roomJudge; judgeWG waits for them at
-	// shutdown.
+	// judges holds each session's roomJudge; judgeWG waits for them and
+	// the ticker at shutdown.
 	judges  sync.Map
 	judgeWG sync.WaitGroup
 	// benches caches the benches stations submit to, so a reading costs no
@@ -289,7 +289,9 @@ func (s *Server) ServeAllHTTP(l net.Listener) error {
 
 // startTicker runs the room's stall checks and the store's health check.
 func (s *Server) startTicker() {
+	s.judgeWG.Add(1)
 	go func() {
+		defer s.judgeWG.Done()
 		t := time.NewTicker(s.stallCheck)
 		defer t.Stop()
 		for {
@@ -318,8 +320,9 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	case <-ctx.Done():
 		s.grpc.Stop()
 	}
-	// The judges stop at s.done; a reading they had not judged yet is in
-	// the file and is judged when its room is next loaded.
+	// The judges and the ticker stop at s.done, before the caller closes
+	// the file; a reading not judged yet is in the file and is judged when
+	// its room is next loaded.
 	s.judgeWG.Wait()
 	err := s.http.Shutdown(ctx)
 	// cmux's listeners share the one socket: whichever server closes it
