@@ -29,8 +29,9 @@ test:
 test-short:
 	$(GO) test -short ./...
 
-## bench: the scale load program (quick sweep; BENCH_ARGS for the full one), then the Go benchmarks.
-BENCH_ARGS ?= --stations 30,512 --watchers 1,100 --rate 1000 --duration 3s
+## bench: the scale load program (quick sweep, about a minute; BENCH_ARGS=--full for the full one,
+## a few minutes), then the Go benchmarks.
+BENCH_ARGS ?=
 bench:
 	$(GO) run ./cmd/fluxroom loadtest $(BENCH_ARGS)
 	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
