@@ -131,16 +131,20 @@ func (s *Server) judgePass(sessionID uint64, batch map[uint64][]domain.Reading, 
 		}
 		changed = append(changed, bid)
 	}
-	// Only the changed benches' stalled flags move here; checkStalls
-	// publishes the others'.
-	results := rs.resultList()
-	stalled := domain.StalledBenches(results, now, s.stallAfter)
+	// Only the changed benches' stalled flags move here, and the room is
+	// moving because they are: the rule over them alone answers for them.
+	// checkStalls publishes the others'.
+	moved := make([]domain.BenchResult, 0, len(changed))
+	for _, bid := range changed {
+		moved = append(moved, rs.results[bid])
+	}
+	stalled := domain.StalledBenches(moved, now, s.stallAfter)
 	for _, bid := range changed {
 		rs.stalled[bid] = stalled[bid]
 		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid, now)}})
 	}
 	if withFindings {
-		s.publishFindings(sessionID, rs, results)
+		s.publishFindings(sessionID, rs, rs.resultList())
 	}
 	return nil
 }

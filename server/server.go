@@ -392,7 +392,7 @@ func (s *Server) requestID() string {
 func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
 	start := time.Now()
 	rid := s.requestID()
-	grpc.SetHeader(ctx, metadata.Pairs("x-request-id", rid))
+	grpc.SetHeader(ctx, metadata.MD{"x-request-id": []string{rid}})
 	resp, err := handler(ctx, req)
 	if err != nil {
 		err = toStatus(ctx, s.log.With("request_id", rid), info.FullMethod, err)
