@@ -24,6 +24,10 @@ import (
 // the server's CPU and memory are read from the kernel apart from the load
 // generator's, on the same cores.
 
+// childExecutable is the fluxroom binary the load program starts: itself,
+// except in tests, where the running binary is the test.
+var childExecutable = os.Executable
+
 // child is a server process started by the load program.
 type child struct {
 	cmd  *exec.Cmd
@@ -34,7 +38,7 @@ type child struct {
 // port, and returns once the gRPC health service answers SERVING, with the
 // time that took from the exec.
 func startChild(args ...string) (*child, time.Duration, error) {
-	exe, err := os.Executable()
+	exe, err := childExecutable()
 	if err != nil {
 		return nil, 0, err
 	}

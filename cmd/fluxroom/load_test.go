@@ -1,0 +1,35 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"os"
+	"strings"
+	"testing"
+)
+
+// The load program runs end to end on a small sweep: every server starts as
+// a child, every phase measures something, and the targets are checked.
+func TestLoadtestRuns(t *testing.T) {
+	if testing.Short() {
+		t.Skip("starts several servers")
+	}
+	bin := fluxroomBinary(t)
+	childExecutable = func() (string, error) { return bin, nil }
+	defer func() { childExecutable = os.Executable }()
+	var out bytes.Buffer
+	err := NewMain(&out, &out).Run(context.Background(), []string{"loadtest", "--stations", "40", "--watchers", "2",
+		"--light", "200", "--heavy", "300", "--duration", "400ms", "--callers", "64"})
+	if err != nil {
+		t.Fatalf("%v\n%s", err, out.String())
+	}
+	for _, want := range []string{"baseline echo:", "baseline bbolt:", "closed loop", "M=40 stations", "light   200/s offered",
+		"verdicts missing at watchers 0", "fairness at 200/s", "restart on the filled file", "in-use pages grew", "targets"} {
+		if !strings.Contains(out.String(), want) {
+			t.Errorf("the output has no %q:\n%s", want, out.String())
+		}
+	}
+	if strings.Contains(out.String(), "NaN") {
+		t.Errorf("a figure is NaN:\n%s", out.String())
+	}
+}
