@@ -1,12 +1,9 @@
 package store
 
 import (
-	"bytes"
-	"fmt"
 	"time"
 
 	"go.etcd.io/bbolt"
-	"google.golang.org/protobuf/proto"
 
 	"example.com/fluxroom/proto/recordpb"
 )
@@ -44,18 +41,10 @@ func (x *readingIDs) session(tx *bbolt.Tx, sessionID uint64, now time.Time) (*se
 	s, ok := x.sessions[sessionID]
 	if !ok {
 		s = &sessionIDs{benches: map[uint64]map[string]uint64{}}
-		prefix := sessionKey(sessionID)
-		c := tx.Bucket(bucketReadings).Cursor()
-		for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
-			_, bid, seq, err := decodeReadingKey(k)
-			if err != nil {
-				return nil, err
-			}
-			var r recordpb.Reading
-			if err := proto.Unmarshal(v, &r); err != nil {
-				return nil, fmt.Errorf("store: decode reading: %w", err)
-			}
-			s.add(bid, r.GetReadingId(), seq)
+		if err := eachReading(tx, sessionID, 0, func(benchID, seq uint64, r *recordpb.Reading) {
+			s.add(benchID, r.GetReadingId(), seq)
+		}); err != nil {
+			return nil, err
 		}
 		x.sessions[sessionID] = s
 	}

@@ -706,23 +706,32 @@ func listReadings(tx *bbolt.Tx, sessionID, benchID uint64) ([]domain.Reading, er
 // order; with only set, that bench's alone.
 func sessionReadings(tx *bbolt.Tx, sessionID, only uint64) (map[uint64][]domain.Reading, error) {
 	out := map[uint64][]domain.Reading{}
+	err := eachReading(tx, sessionID, only, func(benchID, _ uint64, r *recordpb.Reading) {
+		out[benchID] = append(out[benchID], readingFromRecord(r))
+	})
+	return out, err
+}
+
+// eachReading calls fn with every reading of a session in arrival order
+// (with only set, that bench's alone), the bench picked out by the key.
+func eachReading(tx *bbolt.Tx, sessionID, only uint64, fn func(benchID, seq uint64, r *recordpb.Reading)) error {
 	prefix := sessionKey(sessionID)
 	c := tx.Bucket(bucketReadings).Cursor()
 	for k, v := c.Seek(prefix); k != nil && bytes.HasPrefix(k, prefix); k, v = c.Next() {
-		_, bid, _, err := decodeReadingKey(k)
+		_, bid, seq, err := decodeReadingKey(k)
 		if err != nil {
-			return nil, err
+			return err
 		}
 		if only != 0 && bid != only {
 			continue
 		}
 		var r recordpb.Reading
 		if err := proto.Unmarshal(v, &r); err != nil {
-			return nil, fmt.Errorf("store: decode reading: %w", err)
+			return fmt.Errorf("store: decode reading: %w", err)
 		}
-		out[bid] = append(out[bid], readingFromRecord(&r))
+		fn(bid, seq, &r)
 	}
-	return out, nil
+	return nil
 }
 
 // AppendReading stores a reading for a bench, in one transaction with its
