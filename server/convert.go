@@ -52,9 +52,9 @@ var verdictToPB = map[domain.Verdict]pb.Verdict{
 	domain.Stalled:    pb.Verdict_VERDICT_STALLED,
 }
 
-func stateToPB(b domain.Bench, a domain.Assessment) *pb.BenchState {
+func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 	st := &pb.BenchState{
-		Bench:             benchToPB(b),
+		Bench:             bench,
 		Verdict:           verdictToPB[a.Verdict],
 		VerdictLabel:      a.Verdict.Label(),
 		Reason:            a.Reason,

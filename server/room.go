@@ -33,6 +33,10 @@ type roomState struct {
 	readings map[uint64][]domain.Reading
 	// memos keep each bench's judging work between readings.
 	memos map[uint64]*domain.Memo
+	// benchMsgs are the benches as their states carry them, made once per
+	// change of the bench instead of once per judging; setBench keeps
+	// them with benches.
+	benchMsgs map[uint64]*pb.Bench
 	// used is when the room was last judged or shown; a room nobody
 	// watches that has been quiet for Config.RoomIdle leaves the cache.
 	used time.Time
@@ -100,9 +104,10 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 		return nil, err
 	}
 	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{}, used: time.Now(),
-		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings, memos: map[uint64]*domain.Memo{}}
+		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings, memos: map[uint64]*domain.Memo{},
+		benchMsgs: map[uint64]*pb.Bench{}}
 	for _, b := range d.Benches {
-		rs.benches[b.ID] = b
+		rs.setBench(b)
 		if err := s.judgeCached(rs, b.ID, d.Notes); err != nil {
 			return nil, err
 		}
@@ -111,6 +116,12 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 	rs.stalled = domain.StalledBenches(rs.resultList(), s.now(), s.stallAfter)
 	s.rooms.put(sessionID, rs)
 	return rs, nil
+}
+
+// setBench caches a bench as read from the file, with its message.
+func (rs *roomState) setBench(b domain.Bench) {
+	rs.benches[b.ID] = b
+	rs.benchMsgs[b.ID] = benchToPB(b)
 }
 
 func (rs *roomState) resultList() []domain.BenchResult {
@@ -185,7 +196,7 @@ func (s *Server) judgeCached(rs *roomState, benchID uint64, notes []domain.Note)
 		m = &domain.Memo{}
 		rs.memos[benchID] = m
 	}
-	st, a, err := s.judge(rs.session, b, readings, notes, m)
+	st, a, err := s.judge(rs.session, b, rs.benchMsgs[benchID], readings, notes, m)
 	if err != nil {
 		return err
 	}
@@ -197,15 +208,18 @@ func (s *Server) judgeCached(rs *roomState, benchID uint64, notes []domain.Note)
 // judge assesses a bench under its session's tolerance and, when it is
 // unsafe, looks up whether its alert was acknowledged. notes is the
 // session's audit log when already at hand; nil reads it, and only then.
-// It is the one place a bench's state is made. m is the bench's memo when
-// the room cache keeps one, else nil.
-func (s *Server) judge(sess domain.Session, b domain.Bench, readings []domain.Reading, notes []domain.Note, m *domain.Memo) (*pb.BenchState, domain.Assessment, error) {
+// It is the one place a bench's state is made. bm (the bench's message)
+// and m (its memo) are the room cache's when it keeps them, else nil.
+func (s *Server) judge(sess domain.Session, b domain.Bench, bm *pb.Bench, readings []domain.Reading, notes []domain.Note, m *domain.Memo) (*pb.BenchState, domain.Assessment, error) {
 	tol := s.tol
 	if sess.Tolerance != (domain.Tolerance{}) {
 		tol = sess.EffectiveTolerance()
 	}
 	a := domain.AssessMemo(b, readings, tol, m)
-	st := stateToPB(b, a)
+	if bm == nil {
+		bm = benchToPB(b)
+	}
+	st := stateToPB(bm, a)
 	if a.Verdict == domain.Unsafe {
 		if notes == nil {
 			var err error

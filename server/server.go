@@ -507,7 +507,7 @@ func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.A
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}
-	st, a, err := s.judge(sess, b, rs, nil, nil)
+	st, a, err := s.judge(sess, b, nil, rs, nil, nil)
 	if err != nil {
 		return nil, domain.Assessment{}, nil, err
 	}
@@ -609,7 +609,8 @@ func (s *Server) publishBench(sessionID, benchID uint64) error {
 	if err != nil {
 		return err
 	}
-	rs.benches[benchID], rs.readings[benchID] = b, readings
+	rs.setBench(b)
+	rs.readings[benchID] = readings
 	if err := s.judgeCached(rs, benchID, nil); err != nil {
 		return err
 	}
