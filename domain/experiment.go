@@ -145,11 +145,17 @@ type Reading struct {
 	Supersedes string
 }
 
-// Superseded returns the ids of readings that a later reading corrects.
+// Superseded returns the ids of readings that a later reading corrects (nil
+// when none does); read it, do not write to it.
 func Superseded(rs []Reading) map[string]bool {
-	out := map[string]bool{}
+	var out map[string]bool
 	for _, r := range rs {
 		if r.Supersedes != "" {
+			if out == nil {
+				// Most runs have no correction: no map for them, on a path
+				// taken after every reading.
+				out = map[string]bool{}
+			}
 			out[r.Supersedes] = true
 		}
 	}

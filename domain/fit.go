@@ -142,11 +142,17 @@ func FitPoly(x, y []float64, degree int) (Poly, error) {
 		return Poly{}, ErrNoSpread
 	}
 	// a is n×p, column-major: a[j][i] = (x_i/scale)^j.
+	// Each column is the previous one times x/scale: a multiplication per
+	// element instead of a math.Pow, on a path taken after every reading.
 	a := make([][]float64, p)
 	for j := range a {
 		a[j] = make([]float64, n)
 		for i := range x {
-			a[j][i] = math.Pow(x[i]/scale, float64(j))
+			if j == 0 {
+				a[j][i] = 1
+			} else {
+				a[j][i] = a[j-1][i] * (x[i] / scale)
+			}
 		}
 	}
 	b := append([]float64(nil), y...)

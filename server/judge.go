@@ -34,9 +34,11 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 		v, ok := s.judges.Load(sessionID)
 		if !ok {
 			fresh := &roomJudge{pending: map[uint64][]domain.Reading{}, wake: make(chan struct{}, 1)}
-			if v, ok = s.judges.LoadOrStore(sessionID, fresh); !ok {
-				s.judgeWG.Add(1)
-				go s.runJudge(sessionID, fresh)
+			if v, ok = s.judges.LoadOrStore(sessionID, fresh); !ok && !s.goBackground(func() { s.runJudge(sessionID, fresh) }) {
+				// Shutting down: the reading is in the file, and is
+				// judged when its room is next loaded.
+				s.judges.CompareAndDelete(sessionID, fresh)
+				return
 			}
 		}
 		j = v.(*roomJudge)
@@ -60,7 +62,6 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 const findingsEvery = 200 * time.Millisecond
 
 func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
-	defer s.judgeWG.Done()
 	var lastFindings time.Time
 	var findingsDue <-chan time.Time
 	findingsOwed := false

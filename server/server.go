@@ -103,10 +103,12 @@ type Server struct {
 	http                             *http.Server
 	health                           *health.Server
 
-	// judges holds each session's roomJudge; judgeWG waits for them and
-	// the ticker at shutdown.
-	judges  sync.Map
-	judgeWG sync.WaitGroup
+	// judges holds each session's roomJudge. The judges and the ticker
+	// run through goBackground, so Shutdown can wait for them.
+	judges     sync.Map
+	background sync.WaitGroup
+	stopMu     sync.Mutex
+	stopping   bool
 	// benches caches the benches stations submit to, so a reading costs no
 	// read of the file before its write.
 	benches benchCache
@@ -289,9 +291,7 @@ func (s *Server) ServeAllHTTP(l net.Listener) error {
 
 // startTicker runs the room's stall checks and the store's health check.
 func (s *Server) startTicker() {
-	s.judgeWG.Add(1)
-	go func() {
-		defer s.judgeWG.Done()
+	s.goBackground(func() {
 		t := time.NewTicker(s.stallCheck)
 		defer t.Stop()
 		for {
@@ -303,7 +303,23 @@ func (s *Server) startTicker() {
 				s.checkStore()
 			}
 		}
+	})
+}
+
+// goBackground runs fn on its own goroutine unless the server is shutting
+// down, and reports whether it did; Shutdown waits for every such fn.
+func (s *Server) goBackground(fn func()) bool {
+	s.stopMu.Lock()
+	defer s.stopMu.Unlock()
+	if s.stopping {
+		return false
+	}
+	s.background.Add(1)
+	go func() {
+		defer s.background.Done()
+		fn()
 	}()
+	return true
 }
 
 // Shutdown ends open room streams (clients reconnect), lets unary calls in
@@ -323,7 +339,10 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	// The judges and the ticker stop at s.done, before the caller closes
 	// the file; a reading not judged yet is in the file and is judged when
 	// its room is next loaded.
-	s.judgeWG.Wait()
+	s.stopMu.Lock()
+	s.stopping = true
+	s.stopMu.Unlock()
+	s.background.Wait()
 	err := s.http.Shutdown(ctx)
 	// cmux's listeners share the one socket: whichever server closes it
 	// first, the other finds it closed.

@@ -637,8 +637,13 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 				first <- fmt.Errorf("watcher: %w", err)
 			}
 		}()
-		if err := <-first; err != nil {
-			return ph, err
+		select {
+		case err := <-first:
+			if err != nil {
+				return ph, err
+			}
+		case <-time.After(30 * time.Second):
+			return ph, fmt.Errorf("watcher of session %d: no snapshot within 30 s", wl.sid)
 		}
 	}
 
@@ -664,7 +669,12 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		go func() {
 			defer swg.Done()
 			for t0 := range queues[i] {
-				if _, err := s.st.SubmitReading(ctx, s.reading(), s.creds()); err != nil {
+				// A reading that takes this long counts as failed, not as a
+				// hung benchmark.
+				cctx, cancel := context.WithTimeout(ctx, 30*time.Second)
+				_, err := s.st.SubmitReading(cctx, s.reading(), s.creds())
+				cancel()
+				if err != nil {
 					failed.Add(1)
 					continue
 				}
