@@ -1,0 +1,216 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"net/http"
+	"path/filepath"
+	"strconv"
+	"sync"
+	"sync/atomic"
+	"time"
+
+	"google.golang.org/grpc"
+	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/internal/bearer"
+	"example.com/fluxroom/internal/grpcweb"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+)
+
+// The simulated room: station laptops, lab sections, dashboards.
+
+// loadStation is one simulated bench laptop. Between phases a new lab
+// section takes the same laptops: the station joins a fresh bench and keeps
+// its connection, so every phase judges runs of a realistic length.
+type loadStation struct {
+	sid, bid uint64
+	token    string
+	// st is the station's client on its own connection; calls carry the
+	// token of the bench it is joined to now.
+	st rpcpb.StationServiceClient
+	// sent numbers the readings it made, for their ids and values.
+	sent atomic.Int64
+	// stored counts its readings the server took on this bench: in the open
+	// loop a station sends one at a time, so the count is the bench's
+	// reading count that the room stream shows once the reading is judged.
+	stored atomic.Int32
+}
+
+func (s *loadStation) creds() grpc.CallOption { return grpc.PerRPCCredentials(bearer.Token(s.token)) }
+
+// reading is the station's next reading: a coil-force run stepping the
+// current, force following F = N·B·L·I for the demo coil with 1 % noise.
+func (s *loadStation) reading() *pb.SubmitReadingRequest {
+	k := s.sent.Add(1)
+	I := 0.5 + float64(k%8)*0.5
+	F := 0.048 * I * (1 + 0.01*float64(k%5-2))
+	return &pb.SubmitReadingRequest{SessionId: s.sid, BenchId: s.bid, ReadingId: "l" + strconv.FormatInt(k, 10),
+		Values: map[string]*pb.Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: F, Unit: "N"}}}
+}
+
+// loadRoom is a server with its sessions and joined stations.
+type loadRoom struct {
+	c        *child
+	db       string
+	admin    *grpc.ClientConn
+	in       rpcpb.InstructorServiceClient
+	sessions []uint64 // the current section's
+	stations []*loadStation
+	conns    []*grpc.ClientConn
+	sections int
+}
+
+func (r *loadRoom) close() {
+	for _, c := range r.conns {
+		c.Close()
+	}
+	if r.admin != nil {
+		r.admin.Close()
+	}
+}
+
+// newLoadRoom starts a server on a fresh file and joins n stations to a
+// first section. With own, every station dials its own connection and
+// makes one call on it.
+func newLoadRoom(dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
+	db := filepath.Join(dir, fmt.Sprintf("load-%d.db", time.Now().UnixNano()))
+	c, startup, err := startChild(append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
+	if err != nil {
+		return nil, 0, err
+	}
+	r := &loadRoom{c: c, db: db}
+	if r.admin, err = grpc.NewClient(c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(loadKey))); err != nil {
+		c.kill()
+		return nil, 0, err
+	}
+	r.in = rpcpb.NewInstructorServiceClient(r.admin)
+	for range n {
+		r.stations = append(r.stations, &loadStation{})
+	}
+	if err := r.newSection(); err != nil {
+		c.kill()
+		return nil, 0, err
+	}
+	if own {
+		if err := r.connectAll(); err != nil {
+			c.kill()
+			return nil, 0, err
+		}
+	}
+	return r, startup, nil
+}
+
+// newSection starts a new lab section: sessions of 30 benches for all the
+// stations, each station joined to one bench.
+func (r *loadRoom) newSection() error {
+	ctx := context.Background()
+	r.sections++
+	r.sessions = r.sessions[:0]
+	for first := 0; first < len(r.stations); first += 30 {
+		cs, err := r.in.CreateSession(ctx, &pb.CreateSessionRequest{Title: fmt.Sprintf("Harrowgate load, section %d room %d", r.sections, len(r.sessions)+1)})
+		if err != nil {
+			return err
+		}
+		r.sessions = append(r.sessions, cs.Session.SessionId)
+		group := r.stations[first:min(first+30, len(r.stations))]
+		var bs []*pb.Bench
+		for i := range group {
+			bs = append(bs, &pb.Bench{Label: fmt.Sprintf("B%02d", i+1), Row: int32(i / 6), Column: int32(i % 6), Experiment: "coil_force"})
+		}
+		sb, err := r.in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: bs})
+		if err != nil {
+			return err
+		}
+		for i, b := range sb.Benches {
+			j, err := rpcpb.NewStationServiceClient(r.admin).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: cs.Session.JoinCode, BenchLabel: b.Label})
+			if err != nil {
+				return err
+			}
+			s := group[i]
+			s.sid, s.bid, s.token = cs.Session.SessionId, b.BenchId, j.StationToken
+			s.stored.Store(0)
+		}
+	}
+	return nil
+}
+
+// connectAll gives every station its own connection, opened by one call.
+func (r *loadRoom) connectAll() error {
+	var mu sync.Mutex
+	var firstErr error
+	sem := make(chan struct{}, 64)
+	var wg sync.WaitGroup
+	for _, s := range r.stations {
+		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
+		if err != nil {
+			return err
+		}
+		r.conns = append(r.conns, c)
+		s.st = rpcpb.NewStationServiceClient(c)
+		wg.Add(1)
+		sem <- struct{}{}
+		go func() {
+			defer wg.Done()
+			defer func() { <-sem }()
+			if _, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}, s.creds()); err != nil {
+				mu.Lock()
+				firstErr = err
+				mu.Unlock()
+			}
+		}()
+	}
+	wg.Wait()
+	return firstErr
+}
+
+// webWatch follows a room as the dashboard does: WatchRoom over gRPC-Web
+// on its own HTTP/1.1 connection, through the server's HTTP side. It
+// returns when the stream or ctx ends.
+func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func(*pb.WatchRoomResponse)) error {
+	body, err := proto.Marshal(&pb.WatchRoomRequest{SessionId: sessionID})
+	if err != nil {
+		return err
+	}
+	req, err := http.NewRequestWithContext(ctx, http.MethodPost, "http://"+addr+"/"+rpcpb.InstructorService_ServiceDesc.ServiceName+"/WatchRoom",
+		bytes.NewReader(grpcweb.Frame(body)))
+	if err != nil {
+		return err
+	}
+	req.Header.Set("Content-Type", grpcweb.ContentType)
+	req.Header.Set("Accept", grpcweb.ContentType)
+	req.Header.Set("X-Grpc-Web", "1")
+	req.Header.Set("Authorization", "Bearer "+loadKey)
+	tr := &http.Transport{}
+	defer tr.CloseIdleConnections()
+	resp, err := (&http.Client{Transport: tr}).Do(req)
+	if err != nil {
+		return err
+	}
+	defer resp.Body.Close()
+	if resp.StatusCode != http.StatusOK || resp.Header.Get("Grpc-Status") != "" && resp.Header.Get("Grpc-Status") != "0" {
+		return fmt.Errorf("WatchRoom: HTTP %d, grpc-status %q %q", resp.StatusCode, resp.Header.Get("Grpc-Status"), resp.Header.Get("Grpc-Message"))
+	}
+	var d grpcweb.Deframer
+	buf := make([]byte, 32<<10)
+	for {
+		n, err := resp.Body.Read(buf)
+		msgs, trailer, done := d.Push(buf[:n])
+		for _, m := range msgs {
+			var ev pb.WatchRoomResponse
+			if err := proto.Unmarshal(m, &ev); err != nil {
+				return err
+			}
+			onEvent(&ev)
+		}
+		if done {
+			return fmt.Errorf("WatchRoom ended: %s", grpcweb.TrailerLines(trailer)("grpc-message"))
+		}
+		if err != nil {
+			return err
+		}
+	}
+}
