@@ -177,7 +177,7 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	defer r.close()
 	var shared []rpcpb.StationServiceClient
 	for i := 0; i < 32; i++ {
-		c, err := grpc.NewClient(r.c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
+		c, err := grpc.NewClient(r.c.addr, stationDialOptions()...)
 		if err != nil {
 			return res, err
 		}
