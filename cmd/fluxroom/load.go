@@ -24,6 +24,7 @@ type loadConfig struct {
 	callers    int
 	flooders   int
 	profile    string
+	memLimit   string
 }
 
 // The sweep's servers run with the station rate limit a department would
@@ -50,12 +51,13 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	dur := fs.Duration("duration", 0, "length of each phase (default 1.5 s; 5 s with --full)")
 	callers := fs.Int("callers", 512, "concurrent callers of the closed loop and its echo baseline")
 	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
+	memLimit := fs.String("server-memory-limit", "", "run the sweep's servers with serve --memory-limit (e.g. 300MiB)")
 	profile := fs.String("server-cpuprofile", "", "write each measured server's CPU profile to PREFIX-closed.prof and PREFIX-M-W.prof")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
 	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
-		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile}
+		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit}
 	switch {
 	case *stations != "":
 		cfg.stations = ints(*stations)
@@ -180,6 +182,9 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	// The sections follow one another within seconds here, where a real
 	// room is hours apart: a quiet room leaves memory after a second.
 	args := []string{"--station-rate", loadStationRate, "--station-burst", loadStationBurst, "--room-idle", "1s"}
+	if cfg.memLimit != "" {
+		args = append(args, "--memory-limit", cfg.memLimit)
+	}
 	if cfg.profile != "" {
 		args = append(args, "--cpuprofile", fmt.Sprintf("%s-%d-%d.prof", cfg.profile, stations, watchers))
 	}
@@ -260,8 +265,8 @@ func (p sweepPoint) print(w io.Writer) {
 	}{{"light", p.light}, {"heavy", p.heavy}} {
 		ph := x.ph
 		rate := float64(ph.stored) / ph.elapsed.Seconds()
-		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s; submit→watcher %s over %d deliveries\n",
-			x.name, ph.offered, rate, ms3(ph.ack), ms3(ph.watch), len(ph.watch))
+		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s (inside the server p50 ≤ %g p99 ≤ %g ms); submit→watcher %s over %d deliveries\n",
+			x.name, ph.offered, rate, ms3(ph.ack), ph.serverP50, ph.serverP99, ms3(ph.watch), len(ph.watch))
 		fmt.Fprintf(w, "        verdicts missing at watchers %d, late (> %s) %d, failed submits %d; server CPU %.0f µs/reading (load generator %.0f); server peak RSS %.0f MB\n",
 			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
 	}

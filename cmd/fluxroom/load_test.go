@@ -33,3 +33,19 @@ func TestLoadtestRuns(t *testing.T) {
 		t.Errorf("a figure is NaN:\n%s", out.String())
 	}
 }
+
+func TestParseBytes(t *testing.T) {
+	for _, tc := range []struct {
+		in   string
+		want int64
+		ok   bool
+	}{
+		{"300MiB", 300 << 20, true}, {"2GiB", 2 << 30, true}, {"1.5GiB", 3 << 29, true}, {"512 KiB", 512 << 10, true},
+		{"300", 0, false}, {"MiB", 0, false}, {"-1MiB", 0, false}, {"lots GiB", 0, false},
+	} {
+		got, err := parseBytes(tc.in)
+		if (err == nil) != tc.ok || got != tc.want {
+			t.Errorf("parseBytes(%q) = %d, %v; want %d, ok %v", tc.in, got, err, tc.want, tc.ok)
+		}
+	}
+}

@@ -32,6 +32,11 @@ type phase struct {
 	floodStored   int
 	floodRefused  int
 	flooders      int
+	// serverP50 and serverP99 bound the time the server itself took per
+	// SubmitReading (the upper bounds of its latency histogram's buckets),
+	// to tell the server's share of a tail from the network's and the load
+	// generator's.
+	serverP50, serverP99 float64
 	// ackFlood are the acknowledgements of readings due while the flooding
 	// station was on; ack then holds those due while it was quiet.
 	ackFlood []time.Duration
@@ -174,6 +179,8 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		}()
 	}
 
+	const submitMethod = "/fluxroom.v1.StationService/SubmitReading"
+	hist0 := r.c.histogram(submitMethod)
 	r.c.resetPeak()
 	cpu0, gen0 := r.c.cpu(), selfCPU()
 	rng := rand.New(rand.NewPCG(uint64(len(stations)), uint64(rate)))
@@ -197,6 +204,8 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	fwg.Wait()
 	ph.elapsed = time.Since(start)
 	ph.serverCPU, ph.genCPU = r.c.cpu()-cpu0, selfCPU()-gen0
+	hist1 := r.c.histogram(submitMethod)
+	ph.serverP50, ph.serverP99 = bucketQuantile(hist0, hist1, 0.5), bucketQuantile(hist0, hist1, 0.99)
 	_, ph.peakRSS = r.c.mem()
 	// Let the last events reach the watchers, then stop them.
 	time.Sleep(300 * time.Millisecond)

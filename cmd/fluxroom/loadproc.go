@@ -9,6 +9,7 @@ import (
 	"net/http"
 	"os"
 	"os/exec"
+	"slices"
 	"strconv"
 	"strings"
 	"syscall"
@@ -177,6 +178,53 @@ func (c *child) metric(name string) float64 {
 		}
 	}
 	return math.NaN()
+}
+
+// histogram reads the cumulative bucket counts of one method's RPC latency
+// histogram from the child's /metrics: upper bound in seconds → count.
+func (c *child) histogram(method string) map[float64]float64 {
+	out := map[float64]float64{}
+	resp, err := http.Get("http://" + c.addr + "/metrics")
+	if err != nil {
+		return out
+	}
+	defer resp.Body.Close()
+	prefix := fmt.Sprintf("fluxroom_rpc_seconds_bucket{method=%q,le=\"", method)
+	sc := bufio.NewScanner(resp.Body)
+	for sc.Scan() {
+		rest, ok := strings.CutPrefix(sc.Text(), prefix)
+		if !ok {
+			continue
+		}
+		le, count, ok := strings.Cut(rest, "\"} ")
+		if !ok {
+			continue
+		}
+		bound := math.Inf(1)
+		if le != "+Inf" {
+			bound, _ = strconv.ParseFloat(le, 64)
+		}
+		n, _ := strconv.ParseFloat(count, 64)
+		out[bound] = n
+	}
+	return out
+}
+
+// bucketQuantile is the upper bound of the first bucket holding quantile q
+// of the calls between two readings of a histogram, in milliseconds.
+func bucketQuantile(before, after map[float64]float64, q float64) float64 {
+	var bounds []float64
+	for b := range after {
+		bounds = append(bounds, b)
+	}
+	slices.Sort(bounds)
+	total := after[math.Inf(1)] - before[math.Inf(1)]
+	for _, b := range bounds {
+		if total > 0 && after[b]-before[b] >= q*total {
+			return b * 1000
+		}
+	}
+	return math.Inf(1)
 }
 
 // selfCPU is the load generator's own CPU time.

@@ -13,7 +13,9 @@ import (
 	"net"
 	"os"
 	"path/filepath"
+	"runtime/debug"
 	"runtime/pprof"
+	"strconv"
 	"strings"
 
 	"time"
@@ -226,6 +228,25 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 	return r, nil
 }
 
+// parseBytes reads a size as GOMEMLIMIT writes it: a number with B, KiB,
+// MiB, GiB or TiB.
+func parseBytes(s string) (int64, error) {
+	units := []struct {
+		suffix string
+		mult   int64
+	}{{"TiB", 1 << 40}, {"GiB", 1 << 30}, {"MiB", 1 << 20}, {"KiB", 1 << 10}, {"B", 1}}
+	for _, u := range units {
+		if num, ok := strings.CutSuffix(strings.TrimSpace(s), u.suffix); ok {
+			v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+			if err != nil || v <= 0 {
+				return 0, fmt.Errorf("%q is not a positive size", s)
+			}
+			return int64(v * float64(u.mult)), nil
+		}
+	}
+	return 0, fmt.Errorf("%q needs a unit: B, KiB, MiB, GiB or TiB", s)
+}
+
 // stop shuts the server down and closes the database.
 func (r *running) stop() error {
 	ctx, cancel := context.WithTimeout(context.Background(), 5*time.Second)
@@ -260,6 +281,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
 	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
 	roomIdle := fs.Duration("room-idle", 10*time.Minute, "how long a room nobody watches stays in memory after its last reading")
+	memLimit := fs.String("memory-limit", "", "soft limit on the server's memory, such as 300MiB or 2GiB: the collector works harder near it (default: none, or GOMEMLIMIT)")
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the server to this file until it stops (performance work)")
 	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
 	if err := parse(fs, args); err != nil {
@@ -278,6 +300,13 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	}
 	if *key != "" && len(*key) < 16 {
 		return usageError{"--instructor-key must be at least 16 characters"}
+	}
+	if *memLimit != "" {
+		n, err := parseBytes(*memLimit)
+		if err != nil {
+			return usageError{fmt.Sprintf("--memory-limit: %v", err)}
+		}
+		debug.SetMemoryLimit(n)
 	}
 	if *cpuProfile != "" {
 		f, err := os.Create(*cpuProfile)
