@@ -41,11 +41,15 @@ type loadStation struct {
 }
 
 // stationDialOptions are a station program's connection options: plain
-// text on loopback, and static flow-control windows as the server has, so
-// neither end spends a ping round trip per reading probing the bandwidth.
+// text on loopback, static flow-control windows as the server has, so
+// neither end spends a ping round trip per reading probing the bandwidth,
+// and small buffers.
 func stationDialOptions() []grpc.DialOption {
 	return []grpc.DialOption{grpc.WithTransportCredentials(insecure.NewCredentials()),
-		grpc.WithInitialWindowSize(1 << 20), grpc.WithInitialConnWindowSize(1 << 20)}
+		grpc.WithInitialWindowSize(1 << 20), grpc.WithInitialConnWindowSize(1 << 20),
+		// A laptop has one connection; the load program has thousands, and
+		// grpc-go's 32 KiB buffers each would make it the bigger process.
+		grpc.WithReadBufferSize(4 << 10), grpc.WithWriteBufferSize(4 << 10), grpc.WithSharedWriteBuffer(true)}
 }
 
 func (s *loadStation) creds() grpc.CallOption { return grpc.PerRPCCredentials(bearer.Token(s.token)) }
