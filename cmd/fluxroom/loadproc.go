@@ -161,18 +161,27 @@ func procMem(pid int) (rss, peak float64) {
 	return rss, peak
 }
 
-// metric reads one value from the child's /metrics; NaN when absent.
-func (c *child) metric(name string) float64 {
+// metricsLines is the child's /metrics, a line each; none when it does not
+// answer.
+func (c *child) metricsLines() []string {
 	resp, err := http.Get("http://" + c.addr + "/metrics")
 	if err != nil {
-		return math.NaN()
+		return nil
 	}
 	defer resp.Body.Close()
+	var out []string
 	sc := bufio.NewScanner(resp.Body)
 	for sc.Scan() {
-		if v, ok := strings.CutPrefix(sc.Text(), name+" "); ok {
-			f, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
-			if err == nil {
+		out = append(out, sc.Text())
+	}
+	return out
+}
+
+// metric reads one value from the child's /metrics; NaN when absent.
+func (c *child) metric(name string) float64 {
+	for _, line := range c.metricsLines() {
+		if v, ok := strings.CutPrefix(line, name+" "); ok {
+			if f, err := strconv.ParseFloat(strings.TrimSpace(v), 64); err == nil {
 				return f
 			}
 		}
@@ -184,15 +193,9 @@ func (c *child) metric(name string) float64 {
 // histogram from the child's /metrics: upper bound in seconds → count.
 func (c *child) histogram(method string) map[float64]float64 {
 	out := map[float64]float64{}
-	resp, err := http.Get("http://" + c.addr + "/metrics")
-	if err != nil {
-		return out
-	}
-	defer resp.Body.Close()
 	prefix := fmt.Sprintf("fluxroom_rpc_seconds_bucket{method=%q,le=\"", method)
-	sc := bufio.NewScanner(resp.Body)
-	for sc.Scan() {
-		rest, ok := strings.CutPrefix(sc.Text(), prefix)
+	for _, line := range c.metricsLines() {
+		rest, ok := strings.CutPrefix(line, prefix)
 		if !ok {
 			continue
 		}
