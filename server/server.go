@@ -130,6 +130,11 @@ const maxStreamsPerConn = 128
 // 20 MB instead of 160.
 const connBufferSize = 4 << 10
 
+// streamWorkers is how many goroutines wait for calls; a call that finds
+// them all busy (most of them wait for a commit's fsync) gets a goroutine
+// of its own, as without workers.
+const streamWorkers = 256
+
 // staticWindow is each stream's and connection's flow-control window: far
 // above any message fluxroom sends, so no stream waits for a window update.
 const staticWindow = 1 << 20
@@ -198,6 +203,10 @@ func New(cfg Config) (*Server, error) {
 		// Readings over the rate are held, not refused at once: bound the
 		// calls one connection can have waiting.
 		grpc.MaxConcurrentStreams(maxStreamsPerConn),
+		// Calls run on long-lived goroutines whose stacks have grown
+		// already, instead of a new goroutine per call that grows its
+		// stack on every reading.
+		grpc.NumStreamWorkers(streamWorkers),
 		grpc.ChainUnaryInterceptor(s.unaryErrors, s.unaryAuth),
 		grpc.ChainStreamInterceptor(s.streamErrors, s.streamAuth),
 	)
@@ -387,8 +396,6 @@ func (s *Server) StationToken(sessionID, benchID uint64) string {
 	return s.auth.stationToken(sessionID, benchID)
 }
 
-// requestID is a short random id that ties a call's log lines together and
-// is returned to the caller as the x-request-id header.
 // instructorOnly lets through HTTP requests that carry the instructor key
 // as a bearer token.
 func (s *Server) instructorOnly(h http.Handler) http.Handler {
@@ -403,22 +410,30 @@ func (s *Server) instructorOnly(h http.Handler) http.Handler {
 }
 
 // requestID names a call in the logs: the process's start time and a
-// counter, unique per process and free to make.
+// counter, unique per process and free to make. A unary call's caller gets
+// it as the x-request-id header when it has log lines to find: when it
+// failed, or when every call is logged (debug level).
 func (s *Server) requestID() string {
 	return s.ridPrefix + strconv.FormatUint(s.ridNext.Add(1), 36)
 }
 
 func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
 	start := time.Now()
-	rid := s.requestID()
-	grpc.SetHeader(ctx, metadata.MD{"x-request-id": []string{rid}})
 	resp, err := handler(ctx, req)
+	debug := s.log.Enabled(ctx, slog.LevelDebug)
+	// The id and its header cost every answer; one nobody will look up in
+	// the logs goes without.
+	var rid string
+	if err != nil || debug {
+		rid = s.requestID()
+		grpc.SetHeader(ctx, metadata.MD{"x-request-id": []string{rid}})
+	}
 	if err != nil {
 		err = toStatus(ctx, s.log.With("request_id", rid), info.FullMethod, err)
 	}
 	d := time.Since(start)
 	s.metrics.observe(info.FullMethod, d)
-	if s.log.Enabled(ctx, slog.LevelDebug) {
+	if debug {
 		s.log.DebugContext(ctx, "rpc", "request_id", rid, "method", info.FullMethod, "code", status.Code(err).String(), "ms", float64(d.Microseconds())/1000)
 	}
 	if status.Code(err) == codes.InvalidArgument {

@@ -8,6 +8,7 @@ import (
 	"math"
 	"net"
 	"path/filepath"
+	"strings"
 	"sync"
 	"testing"
 	"time"
@@ -18,6 +19,7 @@ import (
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/credentials/insecure"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/internal/bearer"
@@ -59,7 +61,10 @@ func startRigWith(t *testing.T, cfg Config) *rig {
 	if err != nil {
 		t.Fatal(err)
 	}
-	cfg.DB, cfg.Logger = db, slog.New(slog.NewTextHandler(io.Discard, nil))
+	cfg.DB = db
+	if cfg.Logger == nil {
+		cfg.Logger = slog.New(slog.NewTextHandler(io.Discard, nil))
+	}
 	if cfg.InstructorKey == "" {
 		cfg.InstructorKey = testKey
 	}
@@ -405,5 +410,63 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" && b.Verdict == pb.Verdict_VERDICT_STALLED {
 			break
 		}
+	}
+}
+
+// syncBuffer is a log sink the server's goroutines may write concurrently.
+type syncBuffer struct {
+	mu sync.Mutex
+	b  strings.Builder
+}
+
+func (b *syncBuffer) Write(p []byte) (int, error) {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.b.Write(p)
+}
+
+func (b *syncBuffer) String() string {
+	b.mu.Lock()
+	defer b.mu.Unlock()
+	return b.b.String()
+}
+
+// TestRequestIDHeader: a caller gets the id of its call when the server has
+// logged something under it: a failed call, or any call at debug level.
+func TestRequestIDHeader(t *testing.T) {
+	for _, tc := range []struct {
+		name               string
+		level              slog.Level
+		bad                bool
+		wantHeader, logged bool
+	}{
+		{name: "info, accepted", level: slog.LevelInfo},
+		{name: "info, rejected", level: slog.LevelInfo, bad: true, wantHeader: true},
+		{name: "debug, accepted", level: slog.LevelDebug, wantHeader: true, logged: true},
+		{name: "debug, rejected", level: slog.LevelDebug, bad: true, wantHeader: true, logged: true},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			var logs syncBuffer
+			r := startRigWith(t, Config{Logger: slog.New(slog.NewTextHandler(&logs, &slog.HandlerOptions{Level: tc.level}))})
+			sess, benches := setupRoom(t, r)
+			current := 1.0
+			if tc.bad {
+				current = math.NaN()
+			}
+			var md metadata.MD
+			_, err := r.station.SubmitReading(context.Background(), &pb.SubmitReadingRequest{SessionId: sess.SessionId,
+				BenchId: benches[0].BenchId, ReadingId: "r1",
+				Values: map[string]*pb.Quantity{"current": q(current, "A"), "force": q(0.05, "N")}}, grpc.Header(&md))
+			if got, want := status.Code(err), map[bool]codes.Code{false: codes.OK, true: codes.InvalidArgument}[tc.bad]; got != want {
+				t.Fatalf("SubmitReading: %v, want %v", err, want)
+			}
+			ids := md.Get("x-request-id")
+			if got := len(ids) == 1 && ids[0] != ""; got != tc.wantHeader {
+				t.Fatalf("x-request-id %q, want one: %v", ids, tc.wantHeader)
+			}
+			if tc.logged && !strings.Contains(logs.String(), "request_id="+ids[0]) {
+				t.Errorf("no log line names request %q:\n%s", ids[0], logs.String())
+			}
+		})
 	}
 }
