@@ -128,8 +128,8 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 	if err != nil {
 		return fmt.Errorf("echo baseline: %w", err)
 	}
-	fmt.Fprintf(w, "baseline echo: bare grpc-go health Check via grpc.Server.Serve, %d callers: over 32 connections %.0f calls/s, server CPU %.0f µs/call; one connection each %.0f calls/s, %.0f µs/call\n",
-		cfg.callers, echo, echoCPU*1e6, echoOwn, echoOwnCPU*1e6)
+	fmt.Fprintf(w, "baseline echo: bare grpc-go health Check via grpc.Server.Serve, %d callers: over 32 connections %.0f calls/s, server CPU %.0f µs/call (load generator %.0f); one connection each %.0f calls/s, %.0f µs/call (load generator %.0f)\n",
+		cfg.callers, echo, echoCPU.server*1e6, echoCPU.gen*1e6, echoOwn, echoOwnCPU.server*1e6, echoOwnCPU.gen*1e6)
 	single, group, commits, err := bboltBaselines(dir, cfg.dur)
 	if err != nil {
 		return fmt.Errorf("bbolt baseline: %w", err)
@@ -141,11 +141,11 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 	if err != nil {
 		return fmt.Errorf("closed loop: %w", err)
 	}
-	fmt.Fprintf(w, "\nclosed loop, %d callers, each reading durable and judged before its answer:\n", cfg.callers)
-	fmt.Fprintf(w, "  over 32 shared connections:   %6.0f readings/s = %.2f × echo, %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call\n",
-		cl.sharedRate, cl.sharedRate/echo, cl.sharedRate/group, cl.sharedCPU*1e6, cl.sharedCPU/echoCPU)
-	fmt.Fprintf(w, "  one connection per station:   %6.0f readings/s = %.2f × echo on one connection each; server CPU %.0f µs/reading = %.1f × echo's per call\n",
-		cl.ownRate, cl.ownRate/echoOwn, cl.ownCPU*1e6, cl.ownCPU/echoOwnCPU)
+	fmt.Fprintf(w, "\nclosed loop, %d callers, each reading durable before its answer and judged after it:\n", cfg.callers)
+	fmt.Fprintf(w, "  over 32 shared connections:   %6.0f readings/s = %.2f × echo, %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (load generator %.0f = %.1f ×)\n",
+		cl.sharedRate, cl.sharedRate/echo, cl.sharedRate/group, cl.sharedCPU.server*1e6, cl.sharedCPU.server/echoCPU.server, cl.sharedCPU.gen*1e6, cl.sharedCPU.gen/echoCPU.gen)
+	fmt.Fprintf(w, "  one connection per station:   %6.0f readings/s = %.2f × echo on one connection each; server CPU %.0f µs/reading = %.1f × echo's per call (load generator %.0f = %.1f ×)\n",
+		cl.ownRate, cl.ownRate/echoOwn, cl.ownCPU.server*1e6, cl.ownCPU.server/echoOwnCPU.server, cl.ownCPU.gen*1e6, cl.ownCPU.gen/echoOwnCPU.gen)
 
 	var points []sweepPoint
 	for _, ms := range cfg.stations {

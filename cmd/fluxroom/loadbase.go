@@ -20,17 +20,17 @@ import (
 
 // echoBaseline measures the bare grpc-go server in its own process, with
 // callers spread over conns connections.
-func echoBaseline(callers, conns int, dur time.Duration) (rate, cpuPerCall float64, err error) {
+func echoBaseline(callers, conns int, dur time.Duration) (rate float64, cpu closedCPU, err error) {
 	c, _, err := startChild("loadtest-echo")
 	if err != nil {
-		return 0, 0, err
+		return 0, cpu, err
 	}
 	defer c.stop()
 	var ccs []*grpc.ClientConn
 	for i := 0; i < conns; i++ {
 		cc, err := grpc.NewClient(c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
 		if err != nil {
-			return 0, 0, err
+			return 0, cpu, err
 		}
 		defer cc.Close()
 		ccs = append(ccs, cc)
@@ -42,13 +42,17 @@ func echoBaseline(callers, conns int, dur time.Duration) (rate, cpuPerCall float
 	return n / dur.Seconds(), cpu, nil
 }
 
+// closedCPU is the CPU time per call of a closed loop's server and of the
+// load generator, which share the machine's cores.
+type closedCPU struct{ server, gen float64 }
+
 // closedRun runs callers that each call as fast as answers come for dur and
-// returns how many calls succeeded, and the server's CPU per call.
-func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.Context, caller int) error) (float64, float64) {
+// returns how many calls succeeded, and the CPU per call.
+func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.Context, caller int) error) (float64, closedCPU) {
 	var n atomic.Int64
 	ctx, cancel := context.WithTimeout(context.Background(), dur)
 	defer cancel()
-	cpu0 := c.cpu()
+	cpu0, gen0 := c.cpu(), selfCPU()
 	var wg sync.WaitGroup
 	for i := 0; i < callers; i++ {
 		wg.Add(1)
@@ -62,8 +66,8 @@ func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.C
 		}()
 	}
 	wg.Wait()
-	cpu := c.cpu() - cpu0
-	return float64(n.Load()), cpu / float64(max(1, n.Load()))
+	calls := float64(max(1, n.Load()))
+	return float64(n.Load()), closedCPU{server: (c.cpu() - cpu0) / calls, gen: (selfCPU() - gen0) / calls}
 }
 
 // bboltBaselines appends 100-byte records to a bare bbolt file: one Update
@@ -155,8 +159,8 @@ func u64key(v uint64) []byte {
 }
 
 type closedResult struct {
-	sharedRate, sharedCPU float64
-	ownRate, ownCPU       float64
+	sharedRate, ownRate float64
+	sharedCPU, ownCPU   closedCPU
 }
 
 // closedLoops measures the durable ingest ceiling: callers submitting as
