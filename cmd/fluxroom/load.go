@@ -6,6 +6,8 @@ import (
 	"io"
 	"os"
 	"runtime"
+	"runtime/debug"
+	"runtime/pprof"
 	"strconv"
 	"strings"
 	"time"
@@ -53,8 +55,25 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
 	memLimit := fs.String("server-memory-limit", "", "run the sweep's servers with serve --memory-limit (e.g. 300MiB)")
 	profile := fs.String("server-cpuprofile", "", "write each measured server's CPU profile to PREFIX-closed.prof and PREFIX-M-W.prof")
+	genProfile := fs.String("cpuprofile", "", "write the load generator's own CPU profile to this file")
 	if err := parse(fs, args); err != nil {
 		return err
+	}
+	// The load generator shares the cores with the server it measures: its
+	// own collector is kept as cheap as the server's (serve's default).
+	if _, fromEnv := os.LookupEnv("GOGC"); !fromEnv {
+		debug.SetGCPercent(defaultGCPercent)
+	}
+	if *genProfile != "" {
+		f, err := os.Create(*genProfile)
+		if err != nil {
+			return fmt.Errorf("--cpuprofile: %w", err)
+		}
+		if err := pprof.StartCPUProfile(f); err != nil {
+			f.Close()
+			return fmt.Errorf("--cpuprofile: %w", err)
+		}
+		defer func() { pprof.StopCPUProfile(); f.Close() }()
 	}
 	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
 		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit}
