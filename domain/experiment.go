@@ -210,16 +210,46 @@ type Experiment struct {
 
 // siReading is a reading converted to SI.
 type siReading struct {
-	values map[string]Measurement
+	values siValues
 	at     time.Time
 	id     string
 }
 
 // has reports whether the reading carries the optional value name.
-func (r siReading) has(name string) bool { _, ok := r.values[name]; return ok }
+func (r siReading) has(name string) bool { _, ok := r.values.get(name); return ok }
 
 // v is the SI value of name.
-func (r siReading) v(name string) float64 { return r.values[name].Value }
+func (r siReading) v(name string) float64 { m, _ := r.values.get(name); return m.Value }
+
+// siValues are a reading's values in SI, in the experiment's order. A
+// reading has two to six, looked up for every reading at every judging: a
+// scan of a small slice beats hashing into a map.
+type siValues []namedMeasurement
+
+type namedMeasurement struct {
+	name string
+	m    Measurement
+}
+
+func (v siValues) get(name string) (Measurement, bool) {
+	for i := range v {
+		if v[i].name == name {
+			return v[i].m, true
+		}
+	}
+	return Measurement{}, false
+}
+
+// siValuesOf orders converted values as the experiment declares them.
+func siValuesOf(e *Experiment, m map[string]Measurement) siValues {
+	out := make(siValues, 0, len(m))
+	for _, s := range e.Values {
+		if x, ok := m[s.Name]; ok {
+			out = append(out, namedMeasurement{name: s.Name, m: x})
+		}
+	}
+	return out
+}
 
 var experiments = map[string]*Experiment{}
 

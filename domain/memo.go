@@ -15,30 +15,40 @@ import (
 // serves one bench, from one goroutine at a time.
 type Memo struct {
 	experiment string
-	converted  map[string]memoReading
-	fp         fingerprint
+	// converted lines up with the readings judged last time: entry i is
+	// reading i while its ID matches. Readings are appended, so each
+	// costs a comparison of IDs (the same string, equal at once) in a
+	// contiguous slice, not a lookup in a map spread over the heap.
+	converted []memoReading
+	fp        fingerprint
 }
 
 type memoReading struct {
-	values map[string]Measurement
+	id     string
+	values siValues
 	ok     bool
 }
 
-// convert is e.convertReading of a stored reading, remembered by its ID.
-func (m *Memo) convert(e *Experiment, r Reading) (map[string]Measurement, bool) {
+// convert is e.convertReading of r, the i-th of a bench's readings, in SI
+// and in the experiment's order; it is remembered by its place and ID.
+func (m *Memo) convert(e *Experiment, i int, r Reading) (siValues, bool) {
 	if m == nil {
 		v, err := e.convertReading("values", r.Values)
-		return v, err == nil
+		return siValuesOf(e, v), err == nil
 	}
-	if m.experiment != e.ID || m.converted == nil {
-		*m = Memo{experiment: e.ID, converted: map[string]memoReading{}}
+	if m.experiment != e.ID {
+		*m = Memo{experiment: e.ID}
 	}
-	if c, ok := m.converted[r.ID]; ok {
-		return c.values, c.ok
+	if i < len(m.converted) && m.converted[i].id == r.ID {
+		return m.converted[i].values, m.converted[i].ok
 	}
+	// A reading new to the memo, or one that moved (a reading committed
+	// earlier was judged later): the entries from here on are redone.
+	m.converted = m.converted[:min(i, len(m.converted))]
 	v, err := e.convertReading("values", r.Values)
-	m.converted[r.ID] = memoReading{values: v, ok: err == nil}
-	return v, err == nil
+	c := memoReading{id: r.ID, values: siValuesOf(e, v), ok: err == nil}
+	m.converted = append(m.converted, c)
+	return c.values, c.ok
 }
 
 // fingerprint is a 64-bit FNV-1a hash of every value as typed, in the

@@ -44,6 +44,19 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 				rs = append(rs, fix)
 				check("after a correction")
 			}
+			if len(rs) > 2 {
+				// A reading committed before others but judged after them
+				// lands among them: the memo must not pair later readings
+				// with the conversions of their old places.
+				late := rs[len(rs)/2]
+				late.ID = "late"
+				late.Values = map[string]Quantity{}
+				for k, q := range rs[len(rs)-1].Values {
+					late.Values[k] = q
+				}
+				rs = append(rs[:1], append([]Reading{late}, rs[1:]...)...)
+				check("after a reading placed among earlier ones")
+			}
 			// Judged against another experiment's rules, the same memo
 			// must start over, not reuse conversions made for this one.
 			other := g.Bench

@@ -137,11 +137,13 @@ func AssessMemo(b Bench, readings []Reading, tol Tolerance, m *Memo) Assessment 
 	rs := make([]siReading, 0, len(readings))
 	var last time.Time
 	gone := Superseded(readings)
-	for _, r := range readings {
+	for i, r := range readings {
+		// Corrected readings are converted too, so that the memo's
+		// entries stay in line with the readings.
+		v, ok := m.convert(e, i, r)
 		if gone[r.ID] {
 			continue // corrected by a later reading; kept for the record
 		}
-		v, ok := m.convert(e, r)
 		if !ok {
 			continue // rejected at submission; never stored
 		}
@@ -195,7 +197,7 @@ func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, c
 		}
 		limit := c[s.SafetyLimit].Value
 		for _, r := range rs {
-			if m, ok := r.values[s.Name]; ok && math.Abs(m.Value) > limit {
+			if m, ok := r.values.get(s.Name); ok && math.Abs(m.Value) > limit {
 				reasons = append(reasons, fmt.Sprintf("UNSAFE: %s %.3g %s is above the bench limit of %.3g %s.", s.Label, math.Abs(m.Value), siUnit(s.Dim), limit, siUnit(s.Dim)))
 				cautions = append(cautions, s.Caution)
 				break
