@@ -9,6 +9,7 @@ import (
 	"net/http"
 	"os"
 	"os/exec"
+	"runtime/debug"
 	"slices"
 	"strconv"
 	"strings"
@@ -19,6 +20,8 @@ import (
 	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
 // The load program runs every server it measures as a child process, so
@@ -251,14 +254,35 @@ func cpuModel() string {
 	return "unknown CPU"
 }
 
-// echoServe is the baseline server the load program measures first: the
-// bare grpc-go health service, the cheapest unary call there is, served by
-// grpc.Server.Serve with default options. Hidden command "loadtest-echo".
+// echoMethod is the baseline's echo: it returns the reading it is sent,
+// decoded and encoded again, so the baseline moves the same bytes through
+// the same protobuf map code as a SubmitReading, and nothing else.
+const echoMethod = "/fluxroom.loadtest.Echo/Echo"
+
+var echoService = grpc.ServiceDesc{
+	ServiceName: "fluxroom.loadtest.Echo",
+	HandlerType: (*any)(nil),
+	Methods: []grpc.MethodDesc{{MethodName: "Echo",
+		Handler: func(_ any, _ context.Context, dec func(any) error, _ grpc.UnaryServerInterceptor) (any, error) {
+			req := new(pb.SubmitReadingRequest)
+			if err := dec(req); err != nil {
+				return nil, err
+			}
+			return req, nil
+		}}},
+}
+
+// echoServe is the baseline server: bare grpc-go, grpc.Server.Serve with
+// default options, the echo and the health service (an empty call), and
+// the collector set as serve sets it. Hidden command "loadtest-echo".
 func (m *Main) echoServe(ctx context.Context, args []string) error {
 	fs := m.newFlags("loadtest-echo")
 	addr := fs.String("addr", "127.0.0.1:0", "host:port to listen on")
 	if err := parse(fs, args); err != nil {
 		return err
+	}
+	if _, fromEnv := os.LookupEnv("GOGC"); !fromEnv {
+		debug.SetGCPercent(defaultGCPercent)
 	}
 	l, err := net.Listen("tcp", *addr)
 	if err != nil {
@@ -266,6 +290,7 @@ func (m *Main) echoServe(ctx context.Context, args []string) error {
 	}
 	s := grpc.NewServer()
 	healthpb.RegisterHealthServer(s, health.NewServer())
+	s.RegisterService(&echoService, struct{}{})
 	go func() { <-ctx.Done(); s.Stop() }()
 	return s.Serve(l)
 }
