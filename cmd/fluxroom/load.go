@@ -27,6 +27,7 @@ type loadConfig struct {
 	flooders   int
 	profile    string
 	memLimit   string
+	gcPercent  int
 }
 
 // The sweep's servers run with the station rate limit a department would
@@ -53,7 +54,8 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	dur := fs.Duration("duration", 0, "length of each phase (default 1.5 s; 5 s with --full)")
 	callers := fs.Int("callers", 512, "concurrent callers of the closed loop and its echo baseline")
 	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
-	memLimit := fs.String("server-memory-limit", "", "run the sweep's servers with serve --memory-limit (e.g. 300MiB)")
+	memLimit := fs.String("server-memory-limit", "", "run the sweep's servers with serve --memory-limit (e.g. 300MiB, or none)")
+	gcPercent := fs.Int("server-gc-percent", 0, "run the sweep's servers with serve --gc-percent")
 	profile := fs.String("server-cpuprofile", "", "write each measured server's CPU profile to PREFIX-closed.prof and PREFIX-M-W.prof")
 	genProfile := fs.String("cpuprofile", "", "write the load generator's own CPU profile to this file")
 	if err := parse(fs, args); err != nil {
@@ -76,7 +78,7 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 		defer func() { pprof.StopCPUProfile(); f.Close() }()
 	}
 	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
-		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit}
+		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit, gcPercent: *gcPercent}
 	switch {
 	case *stations != "":
 		cfg.stations = ints(*stations)
@@ -205,6 +207,9 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	// The sections follow one another within seconds here, where a real
 	// room is hours apart: a quiet room leaves memory after a second.
 	args := []string{"--station-rate", loadStationRate, "--station-burst", loadStationBurst, "--room-idle", "1s"}
+	if cfg.gcPercent > 0 {
+		args = append(args, "--gc-percent", strconv.Itoa(cfg.gcPercent))
+	}
 	if cfg.memLimit != "" {
 		args = append(args, "--memory-limit", cfg.memLimit)
 	}

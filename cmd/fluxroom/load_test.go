@@ -7,6 +7,10 @@ import (
 	"os"
 	"strings"
 	"testing"
+
+	"google.golang.org/protobuf/proto"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
 // The load program runs end to end on a small sweep: every server starts as
@@ -74,5 +78,45 @@ func TestServeRejectsBadMemoryFlags(t *testing.T) {
 				t.Errorf("serve %v made %s before refusing", tc.args, db)
 			}
 		})
+	}
+}
+
+// The load program's dashboards read two fields of each room event from its
+// bytes; they must read what protobuf's own decoding reads.
+func TestBenchEventReadsWhatProtobufReads(t *testing.T) {
+	state := &pb.BenchState{Bench: &pb.Bench{BenchId: 300, Label: "C4", Row: 2, Column: 3, Experiment: "coil_force",
+		Constants: map[string]*pb.Quantity{"turns": {Value: 100, Unit: "1"}}},
+		Verdict: pb.Verdict_VERDICT_CHECK, Reason: "likely sensor not zeroed", ReadingCount: 17,
+		Diagnoses: []*pb.Diagnosis{{Code: "coil_force.sensor_not_zeroed", Evidence: "intercept 0.06 N"}}, Z: 2.5}
+	for _, tc := range []struct {
+		name      string
+		ev        *pb.WatchRoomResponse
+		wantBench bool
+	}{
+		{"bench", &pb.WatchRoomResponse{Sequence: 9, Event: &pb.WatchRoomResponse_Bench{Bench: state}}, true},
+		{"bench without readings", &pb.WatchRoomResponse{Sequence: 1, Event: &pb.WatchRoomResponse_Bench{Bench: &pb.BenchState{Bench: &pb.Bench{BenchId: 2}}}}, true},
+		{"findings", &pb.WatchRoomResponse{Sequence: 10, Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{}}}, false},
+		{"snapshot", &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Snapshot{Snapshot: &pb.RoomSnapshot{Benches: []*pb.BenchState{state}}}}, false},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			b, err := proto.Marshal(tc.ev)
+			if err != nil {
+				t.Fatal(err)
+			}
+			id, count, ok, err := benchEvent(b)
+			if err != nil || ok != tc.wantBench {
+				t.Fatalf("benchEvent: ok %v, %v; want ok %v", ok, err, tc.wantBench)
+			}
+			var back pb.WatchRoomResponse
+			if err := proto.Unmarshal(b, &back); err != nil {
+				t.Fatal(err)
+			}
+			if got, want := [2]uint64{id, uint64(count)}, [2]uint64{back.GetBench().GetBench().GetBenchId(), uint64(back.GetBench().GetReadingCount())}; got != want {
+				t.Errorf("benchEvent read bench %d count %d; protobuf reads %d, %d", got[0], got[1], want[0], want[1])
+			}
+		})
+	}
+	if _, _, _, err := benchEvent([]byte{0x1a, 0x05, 0x01}); err == nil {
+		t.Error("a truncated event parsed")
 	}
 }

@@ -11,8 +11,6 @@ import (
 
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
-
-	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
 // The open loop: readings at a set rate, whatever the answers do.
@@ -84,18 +82,22 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		go func() {
 			defer wwg.Done()
 			snapshot := true
-			err := webWatch(ctx, r.c.addr, wl.sid, func(ev *pb.WatchRoomResponse) {
+			// A watcher that stops early (an event that does not parse)
+			// shows as verdicts missing at watchers.
+			err := webWatch(ctx, r.c.addr, wl.sid, func(m []byte) error {
 				if snapshot {
 					snapshot = false
 					first <- nil
-					return
+					return nil
 				}
-				if b := ev.GetBench(); b != nil {
+				bid, count, ok, err := benchEvent(m)
+				if ok {
 					now := time.Now()
 					wl.mu.Lock()
-					wl.events[b.Bench.BenchId] = append(wl.events[b.Bench.BenchId], arrival{b.ReadingCount, now})
+					wl.events[bid] = append(wl.events[bid], arrival{count, now})
 					wl.mu.Unlock()
 				}
+				return err
 			})
 			if snapshot {
 				first <- fmt.Errorf("watcher: %w", err)

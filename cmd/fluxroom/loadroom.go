@@ -13,6 +13,7 @@ import (
 
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
+	"google.golang.org/protobuf/encoding/protowire"
 	"google.golang.org/protobuf/proto"
 
 	"example.com/fluxroom/internal/bearer"
@@ -180,9 +181,10 @@ func (r *loadRoom) connectAll() error {
 }
 
 // webWatch follows a room as the dashboard does: WatchRoom over gRPC-Web
-// on its own HTTP/1.1 connection, through the server's HTTP side. It
-// returns when the stream or ctx ends.
-func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func(*pb.WatchRoomResponse)) error {
+// on its own HTTP/1.1 connection, through the server's HTTP side, and hands
+// each event over as the message's bytes. It returns when the stream or ctx
+// ends, or onEvent fails.
+func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func([]byte) error) error {
 	body, err := proto.Marshal(&pb.WatchRoomRequest{SessionId: sessionID})
 	if err != nil {
 		return err
@@ -212,11 +214,9 @@ func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func(*
 		n, err := resp.Body.Read(buf)
 		msgs, trailer, done := d.Push(buf[:n])
 		for _, m := range msgs {
-			var ev pb.WatchRoomResponse
-			if err := proto.Unmarshal(m, &ev); err != nil {
-				return err
+			if err := onEvent(m); err != nil {
+				return fmt.Errorf("WatchRoom event: %w", err)
 			}
-			onEvent(&ev)
 		}
 		if done {
 			return fmt.Errorf("WatchRoom ended: %s", grpcweb.TrailerLines(trailer)("grpc-message"))
@@ -225,4 +225,59 @@ func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func(*
 			return err
 		}
 	}
+}
+
+// benchEvent reads, from a WatchRoomResponse's bytes, what a simulated
+// dashboard needs: whether it is a bench's new state, and then the bench's
+// id and reading count. A browser decodes the whole event on its own
+// machine; the load generator shares the server's cores, so it reads these
+// two fields and skips the rest (field numbers from messages.proto:
+// WatchRoomResponse.bench 3, BenchState.bench 1 and reading_count 6,
+// Bench.bench_id 1).
+func benchEvent(m []byte) (benchID uint64, count int32, ok bool, err error) {
+	state, found, err := wireField(m, 3, protowire.BytesType)
+	if err != nil || !found {
+		return 0, 0, false, err
+	}
+	bench, _, err := wireField(state, 1, protowire.BytesType)
+	if err != nil {
+		return 0, 0, false, err
+	}
+	id, _, err := wireField(bench, 1, protowire.VarintType)
+	if err != nil {
+		return 0, 0, false, err
+	}
+	n, _, err := wireField(state, 6, protowire.VarintType)
+	if err != nil {
+		return 0, 0, false, err
+	}
+	v, _ := protowire.ConsumeVarint(id)
+	c, _ := protowire.ConsumeVarint(n)
+	return v, int32(c), true, nil
+}
+
+// wireField finds field num of type typ in a message's bytes and returns
+// its value's bytes (a varint's encoding, or a length-delimited field's
+// contents).
+func wireField(m []byte, num protowire.Number, typ protowire.Type) ([]byte, bool, error) {
+	for len(m) > 0 {
+		n, t, l := protowire.ConsumeTag(m)
+		if l < 0 {
+			return nil, false, protowire.ParseError(l)
+		}
+		m = m[l:]
+		vl := protowire.ConsumeFieldValue(n, t, m)
+		if vl < 0 {
+			return nil, false, protowire.ParseError(vl)
+		}
+		if n == num && t == typ {
+			if t == protowire.BytesType {
+				v, _ := protowire.ConsumeBytes(m)
+				return v, true, nil
+			}
+			return m[:vl], true, nil
+		}
+		m = m[vl:]
+	}
+	return nil, false, nil
 }
