@@ -1,8 +1,11 @@
 package server
 
 import (
+	"context"
+	"fmt"
 	"io"
 	"net/http"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -41,5 +44,44 @@ func TestDebugAndMetricsEndpoints(t *testing.T) {
 	if code, body := get("/metrics", ""); code != http.StatusOK || !strings.Contains(body, "go_memstats_heap_inuse_bytes ") || !strings.Contains(body, "go_goroutines ") ||
 		!strings.Contains(body, "fluxroom_db_used_bytes ") {
 		t.Errorf("/metrics: %d without the Go memory gauges:\n%s", code, body)
+	}
+}
+
+// Every reading stored went through a timed group commit, and /metrics says
+// so: the commit histogram counts the commits, the counter their readings.
+func TestCommitMetrics(t *testing.T) {
+	r := startRig(t)
+	sess, benches := setupRoom(t, r)
+	const n = 7
+	for i := range n {
+		if _, err := submit(context.Background(), r, sess.SessionId, benches[i%2].BenchId, fmt.Sprintf("m%d", i), 0.5+0.5*float64(i), 0.024*(1+float64(i))); err != nil {
+			t.Fatal(err)
+		}
+	}
+	resp, err := http.Get("http://" + r.addr + "/metrics")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer resp.Body.Close()
+	b, _ := io.ReadAll(resp.Body)
+	values := map[string]float64{}
+	for _, line := range strings.Split(string(b), "\n") {
+		if name, v, ok := strings.Cut(line, " "); ok && !strings.HasPrefix(line, "#") {
+			f, err := strconv.ParseFloat(v, 64)
+			if err == nil {
+				values[name] = f
+			}
+		}
+	}
+	commits, readings := values["fluxroom_commit_seconds_count"], values["fluxroom_committed_readings_total"]
+	// Each submit waited for its answer, so each had a commit of its own.
+	if commits != n || readings != n {
+		t.Errorf("commits %v holding %v readings; want %d and %d\n%s", commits, readings, n, n, b)
+	}
+	if inf := values[`fluxroom_commit_seconds_bucket{le="+Inf"}`]; inf != commits {
+		t.Errorf("commit histogram's +Inf bucket %v, count %v", inf, commits)
+	}
+	if values["fluxroom_commit_seconds_sum"] <= 0 {
+		t.Errorf("commits took no time in all: %v", values["fluxroom_commit_seconds_sum"])
 	}
 }

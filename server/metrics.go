@@ -2,9 +2,11 @@ package server
 
 import (
 	"fmt"
+	"io"
 	"net/http"
 	"runtime"
 	"sort"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -21,29 +23,71 @@ type metrics struct {
 
 	// latency: method → *histogram, lock-free on the path of every call.
 	latency sync.Map
+	// commits times the store's group commits, which every acknowledgement
+	// waits for; committed counts the readings they held.
+	commits   *histogram
+	committed atomic.Int64
 }
 
 // latencyBuckets are the upper bounds, in seconds, of the RPC latency
-// histogram.
-var latencyBuckets = []float64{0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.25, 0.5, 1, 5}
+// histogram; commitBuckets of the commit histogram, where a commit with its
+// two fsyncs takes about a millisecond on a local disk.
+var (
+	latencyBuckets = []float64{0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.25, 0.5, 1, 5}
+	commitBuckets  = []float64{0.0005, 0.001, 0.002, 0.005, 0.01, 0.02, 0.05, 0.1, 0.25, 1}
+)
 
 type histogram struct {
+	bounds []float64
 	counts []atomic.Int64 // per bucket, then +Inf
 	sumNs  atomic.Int64
 	n      atomic.Int64
 }
 
-func newMetrics() *metrics { return &metrics{started: time.Now()} }
+func newHistogram(bounds []float64) *histogram {
+	return &histogram{bounds: bounds, counts: make([]atomic.Int64, len(bounds)+1)}
+}
+
+func (h *histogram) observe(d time.Duration) {
+	h.counts[sort.SearchFloat64s(h.bounds, d.Seconds())].Add(1)
+	h.sumNs.Add(int64(d))
+	h.n.Add(1)
+}
+
+// write prints the histogram in the text format; labels, if any, go
+// first inside the braces ("method=\"…\",").
+func (h *histogram) write(w io.Writer, name, labels string) {
+	// Read the count first: a value observed meanwhile only makes the
+	// buckets run ahead of it, never a bucket above the count.
+	n := h.n.Load()
+	var cum int64
+	for i, b := range h.bounds {
+		cum += h.counts[i].Load()
+		fmt.Fprintf(w, "%s_bucket{%sle=\"%g\"} %d\n", name, labels, b, min(cum, n))
+	}
+	fmt.Fprintf(w, "%s_bucket{%sle=\"+Inf\"} %d\n", name, labels, n)
+	braces := ""
+	if labels != "" {
+		braces = "{" + strings.TrimSuffix(labels, ",") + "}"
+	}
+	fmt.Fprintf(w, "%s_sum%s %g\n%s_count%s %d\n", name, braces, time.Duration(h.sumNs.Load()).Seconds(), name, braces, n)
+}
+
+func newMetrics() *metrics {
+	return &metrics{started: time.Now(), commits: newHistogram(commitBuckets)}
+}
 
 func (m *metrics) observe(method string, d time.Duration) {
 	v, ok := m.latency.Load(method)
 	if !ok {
-		v, _ = m.latency.LoadOrStore(method, &histogram{counts: make([]atomic.Int64, len(latencyBuckets)+1)})
+		v, _ = m.latency.LoadOrStore(method, newHistogram(latencyBuckets))
 	}
-	h := v.(*histogram)
-	h.counts[sort.SearchFloat64s(latencyBuckets, d.Seconds())].Add(1)
-	h.sumNs.Add(int64(d))
-	h.n.Add(1)
+	v.(*histogram).observe(d)
+}
+
+func (m *metrics) commit(readings int, took time.Duration) {
+	m.commits.observe(took)
+	m.committed.Add(int64(readings))
 }
 
 func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
@@ -77,16 +121,9 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	fmt.Fprintf(w, "# HELP fluxroom_rpc_seconds RPC latency.\n# TYPE fluxroom_rpc_seconds histogram\n")
 	for _, meth := range methods {
 		v, _ := m.latency.Load(meth)
-		h := v.(*histogram)
-		// Read the count first: a call observed meanwhile only makes the
-		// buckets run ahead of it, never a bucket above the count.
-		n := h.n.Load()
-		var cum int64
-		for i, b := range latencyBuckets {
-			cum += h.counts[i].Load()
-			fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"%g\"} %d\n", meth, b, min(cum, n))
-		}
-		fmt.Fprintf(w, "fluxroom_rpc_seconds_bucket{method=%q,le=\"+Inf\"} %d\n", meth, n)
-		fmt.Fprintf(w, "fluxroom_rpc_seconds_sum{method=%q} %g\nfluxroom_rpc_seconds_count{method=%q} %d\n", meth, time.Duration(h.sumNs.Load()).Seconds(), meth, n)
+		v.(*histogram).write(w, "fluxroom_rpc_seconds", fmt.Sprintf("method=%q,", meth))
 	}
+	fmt.Fprintf(w, "# HELP fluxroom_commit_seconds Group commits of readings, with their fsyncs; every acknowledgement waits for one.\n# TYPE fluxroom_commit_seconds histogram\n")
+	m.commits.write(w, "fluxroom_commit_seconds", "")
+	counter("fluxroom_committed_readings_total", "Readings in group commits (over fluxroom_commit_seconds_count: readings per commit).", m.committed.Load())
 }

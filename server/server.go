@@ -171,6 +171,7 @@ func New(cfg Config) (*Server, error) {
 		return nil, err
 	}
 	s.auth, s.shown, s.metrics = a, shown, newMetrics()
+	cfg.DB.OnCommit(s.metrics.commit)
 	s.auth.rate, s.auth.burst = rate.Limit(stationRateDefault), stationBurstDefault
 	if cfg.StationRate > 0 {
 		s.auth.rate = rate.Limit(cfg.StationRate)

@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"sync"
+	"sync/atomic"
 	"time"
 
 	"go.etcd.io/bbolt"
@@ -37,7 +38,14 @@ type DB struct {
 	// closeMu keeps AppendReading from sending after Close.
 	closeMu sync.RWMutex
 	closed  bool
+	// onCommit, when set, hears of every group commit of readings.
+	onCommit atomic.Pointer[func(readings int, took time.Duration)]
 }
+
+// OnCommit has fn told, after every group commit of readings, how many
+// readings it held and how long bbolt's commit took with its fsyncs, for
+// the server's metrics: acknowledgements wait for it.
+func (db *DB) OnCommit(fn func(readings int, took time.Duration)) { db.onCommit.Store(&fn) }
 
 // appendReq is one reading waiting for the group commit.
 type appendReq struct {
@@ -162,7 +170,10 @@ func (db *DB) writer() {
 		}
 		var took []taken
 		now := time.Now()
+		var commitStart time.Time
 		err := db.bolt.Update(func(tx *bbolt.Tx) error {
+			// bbolt commits, and fsyncs, when this returns.
+			defer func() { commitStart = time.Now() }()
 			for i, req := range group {
 				ids, err := db.ids.session(tx, req.sessionID, now)
 				if err != nil {
@@ -180,6 +191,11 @@ func (db *DB) writer() {
 			for _, t := range took {
 				t.s.remove(t.benchID, t.readingID)
 			}
+		}
+		// Told before the answers go, so a reading acknowledged is a
+		// reading counted.
+		if fn := db.onCommit.Load(); fn != nil && err == nil {
+			(*fn)(len(group), time.Since(commitStart))
 		}
 		for i, req := range group {
 			if err != nil {

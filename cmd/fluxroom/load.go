@@ -297,6 +297,8 @@ func (p sweepPoint) print(w io.Writer) {
 			x.name, ph.offered, rate, ms3(ph.ack), ph.serverP50, ph.serverP99, ms3(ph.watch), len(ph.watch))
 		fmt.Fprintf(w, "        verdicts missing at watchers %d, late (> %s) %d, failed submits %d; server CPU %.0f µs/reading (load generator %.0f); server peak RSS %.0f MB\n",
 			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
+		fmt.Fprintf(w, "        group commits %.0f/s of %.1f readings each, p50 ≤ %g p99 ≤ %g ms with their fsyncs\n",
+			ph.commits/ph.elapsed.Seconds(), ph.committed/max(1, ph.commits), ph.commitP50, ph.commitP99)
 	}
 	f := p.fair
 	on := f.elapsed.Seconds() / 2

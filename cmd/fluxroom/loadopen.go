@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"math"
 	"math/rand/v2"
 	"slices"
 	"sync"
@@ -35,6 +36,11 @@ type phase struct {
 	// to tell the server's share of a tail from the network's and the load
 	// generator's.
 	serverP50, serverP99 float64
+	// commits and committed are the store's group commits in the phase and
+	// the readings they held; commitP50 and commitP99 bound their time, as
+	// serverP50 does a call's.
+	commits, committed   float64
+	commitP50, commitP99 float64
 	// ackFlood are the acknowledgements of readings due while the flooding
 	// station was on; ack then holds those due while it was quiet.
 	ackFlood []time.Duration
@@ -182,7 +188,9 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	}
 
 	const submitMethod = "/fluxroom.v1.StationService/SubmitReading"
-	hist0 := r.c.histogram(submitMethod)
+	submitLabels := fmt.Sprintf("method=%q,", submitMethod)
+	hist0, commits0 := r.c.histogram("fluxroom_rpc_seconds", submitLabels), r.c.histogram("fluxroom_commit_seconds", "")
+	committed0 := r.c.metric("fluxroom_committed_readings_total")
 	r.c.resetPeak()
 	cpu0, gen0 := r.c.cpu(), selfCPU()
 	rng := rand.New(rand.NewPCG(uint64(len(stations)), uint64(rate)))
@@ -206,8 +214,11 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	fwg.Wait()
 	ph.elapsed = time.Since(start)
 	ph.serverCPU, ph.genCPU = r.c.cpu()-cpu0, selfCPU()-gen0
-	hist1 := r.c.histogram(submitMethod)
+	hist1, commits1 := r.c.histogram("fluxroom_rpc_seconds", submitLabels), r.c.histogram("fluxroom_commit_seconds", "")
 	ph.serverP50, ph.serverP99 = bucketQuantile(hist0, hist1, 0.5), bucketQuantile(hist0, hist1, 0.99)
+	ph.commitP50, ph.commitP99 = bucketQuantile(commits0, commits1, 0.5), bucketQuantile(commits0, commits1, 0.99)
+	ph.commits = commits1[math.Inf(1)] - commits0[math.Inf(1)]
+	ph.committed = r.c.metric("fluxroom_committed_readings_total") - committed0
 	_, ph.peakRSS = r.c.mem()
 	// Let the last events reach the watchers, then stop them.
 	time.Sleep(300 * time.Millisecond)

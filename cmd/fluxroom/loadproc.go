@@ -192,11 +192,12 @@ func (c *child) metric(name string) float64 {
 	return math.NaN()
 }
 
-// histogram reads the cumulative bucket counts of one method's RPC latency
-// histogram from the child's /metrics: upper bound in seconds → count.
-func (c *child) histogram(method string) map[float64]float64 {
+// histogram reads the cumulative bucket counts of a histogram in the
+// child's /metrics, name with its labels but le ("method=\"…\","): upper
+// bound in seconds → count.
+func (c *child) histogram(name, labels string) map[float64]float64 {
 	out := map[float64]float64{}
-	prefix := fmt.Sprintf("fluxroom_rpc_seconds_bucket{method=%q,le=\"", method)
+	prefix := name + "_bucket{" + labels + "le=\""
 	for _, line := range c.metricsLines() {
 		rest, ok := strings.CutPrefix(line, prefix)
 		if !ok {
