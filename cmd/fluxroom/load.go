@@ -7,7 +7,6 @@ import (
 	"os"
 	"runtime"
 	"runtime/debug"
-	"runtime/pprof"
 	"strconv"
 	"strings"
 	"time"
@@ -66,17 +65,11 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	if _, fromEnv := os.LookupEnv("GOGC"); !fromEnv {
 		debug.SetGCPercent(defaultGCPercent)
 	}
-	if *genProfile != "" {
-		f, err := os.Create(*genProfile)
-		if err != nil {
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		if err := pprof.StartCPUProfile(f); err != nil {
-			f.Close()
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		defer func() { pprof.StopCPUProfile(); f.Close() }()
+	stopProfile, err := startCPUProfile(*genProfile)
+	if err != nil {
+		return err
 	}
+	defer stopProfile()
 	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
 		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit, gcPercent: *gcPercent}
 	switch {

@@ -229,6 +229,23 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 	return r, nil
 }
 
+// startCPUProfile writes a CPU profile of this process to path (none when
+// path is empty) until stop is called.
+func startCPUProfile(path string) (stop func(), err error) {
+	if path == "" {
+		return func() {}, nil
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, fmt.Errorf("--cpuprofile: %w", err)
+	}
+	if err := pprof.StartCPUProfile(f); err != nil {
+		f.Close()
+		return nil, fmt.Errorf("--cpuprofile: %w", err)
+	}
+	return func() { pprof.StopCPUProfile(); f.Close() }, nil
+}
+
 // parseBytes reads a size as GOMEMLIMIT writes it: a number with B, KiB,
 // MiB, GiB or TiB.
 func parseBytes(s string) (int64, error) {
@@ -330,17 +347,11 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if _, fromEnv := os.LookupEnv("GOMEMLIMIT"); !fromEnv || *memLimit != defaultMemoryLimit {
 		debug.SetMemoryLimit(limit)
 	}
-	if *cpuProfile != "" {
-		f, err := os.Create(*cpuProfile)
-		if err != nil {
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		if err := pprof.StartCPUProfile(f); err != nil {
-			f.Close()
-			return fmt.Errorf("--cpuprofile: %w", err)
-		}
-		defer func() { pprof.StopCPUProfile(); f.Close() }()
+	stopProfile, err := startCPUProfile(*cpuProfile)
+	if err != nil {
+		return err
 	}
+	defer stopProfile()
 	if *ackEarly {
 		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
 	}
