@@ -28,8 +28,9 @@ func TestLoadtestRuns(t *testing.T) {
 	if err != nil {
 		t.Fatalf("%v\n%s", err, out.String())
 	}
-	for _, want := range []string{"baseline echo:", "baseline bbolt:", "closed loop", "M=40 stations", "light   200/s offered",
-		"verdicts missing at watchers 0", "fairness at 200/s", "restart on the filled file", "in-use pages grew", "targets"} {
+	for _, want := range []string{"baseline echo:", "the empty call", "baseline bbolt:", "closed loop", "longest run 30)", "M=40 stations",
+		"light   200/s offered", "verdicts missing at watchers 0", "group commits", "fairness at 200/s", "restart on the filled file",
+		"in-use pages grew", "targets"} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("the output has no %q:\n%s", want, out.String())
 		}
