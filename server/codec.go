@@ -2,6 +2,7 @@ package server
 
 import (
 	"fmt"
+	"math"
 
 	"google.golang.org/grpc/encoding"
 	_ "google.golang.org/grpc/encoding/proto" // registers the codec wrapped here
@@ -23,14 +24,26 @@ import (
 type roomEvent struct {
 	msg  *pb.WatchRoomResponse
 	body []byte
+	// key names what the event is the whole state of: its bench (by id),
+	// or the room's findings (findingsKey). A newer event with the same
+	// key replaces one a watcher has not been sent yet.
+	key uint64
 }
+
+// findingsKey is the key of the room's findings; bench ids start at 1 and
+// never reach it.
+const findingsKey = math.MaxUint64
 
 func newRoomEvent(ev *pb.WatchRoomResponse) (*roomEvent, error) {
 	body, err := proto.Marshal(ev)
 	if err != nil {
 		return nil, fmt.Errorf("encode room event: %w", err)
 	}
-	return &roomEvent{msg: ev, body: body}, nil
+	re := &roomEvent{msg: ev, body: body, key: findingsKey}
+	if b := ev.GetBench(); b != nil {
+		re.key = b.GetBench().GetBenchId()
+	}
+	return re, nil
 }
 
 // sequenced is a roomEvent as one stream sends it.

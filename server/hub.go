@@ -6,9 +6,12 @@ import (
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
-// watcherBuffer is how many bench changes a slow watcher may fall behind
-// before it is cut off; it then reconnects and starts from a fresh snapshot,
-// so it never shows a stale room without knowing.
+// watcherBuffer bounds the events waiting for one watcher. A watcher that
+// falls behind gets each bench's and the findings' latest state, not every
+// change in between (see watcher.push), so a room of benches waits as at
+// most one event each; past the bound the watcher is cut off, reconnects and
+// starts from a fresh snapshot, so it never shows a stale room without
+// knowing.
 const watcherBuffer = 256
 
 // hub fans bench changes out to the watchers of each session's room.
@@ -21,20 +24,64 @@ type hub struct {
 	publishMu sync.Map // session id → *sync.Mutex
 }
 
+// watcher is one room stream's queue of events not sent yet.
 type watcher struct {
-	ch chan *roomEvent
+	mu    sync.Mutex
+	queue []*roomEvent
+	// waiting: an event's key → its place in queue. Each event is a whole
+	// state (a bench's, or the room's findings), so a newer one replaces
+	// one not sent yet: a slow dashboard skips to the latest state
+	// instead of sending, and drawing, every step.
+	waiting map[uint64]int
+	// ready holds a token while queue is not empty.
+	ready chan struct{}
 	// gone is closed when the hub drops the watcher (fell behind, or the
 	// server is shutting down).
 	gone     chan struct{}
 	goneOnce sync.Once
 }
 
+func newWatcher() *watcher {
+	return &watcher{waiting: map[uint64]int{}, ready: make(chan struct{}, 1), gone: make(chan struct{})}
+}
+
 func (w *watcher) drop() { w.goneOnce.Do(func() { close(w.gone) }) }
+
+// push queues an event, in place of the waiting one with the same key if
+// there is one; false when the watcher is too far behind to keep.
+func (w *watcher) push(ev *roomEvent) bool {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	if i, ok := w.waiting[ev.key]; ok {
+		w.queue[i] = ev
+		return true
+	}
+	if len(w.queue) >= watcherBuffer {
+		return false
+	}
+	w.waiting[ev.key] = len(w.queue)
+	w.queue = append(w.queue, ev)
+	select {
+	case w.ready <- struct{}{}:
+	default:
+	}
+	return true
+}
+
+// take returns the waiting events in order and empties the queue.
+func (w *watcher) take() []*roomEvent {
+	w.mu.Lock()
+	defer w.mu.Unlock()
+	q := w.queue
+	w.queue = nil
+	clear(w.waiting)
+	return q
+}
 
 func newHub() *hub { return &hub{watchers: map[uint64]map[*watcher]struct{}{}} }
 
 func (h *hub) subscribe(sessionID uint64) *watcher {
-	w := &watcher{ch: make(chan *roomEvent, watcherBuffer), gone: make(chan struct{})}
+	w := newWatcher()
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	if h.closed {
@@ -64,8 +111,8 @@ func (h *hub) sessionLock(sessionID uint64) *sync.Mutex {
 }
 
 // publish sends an event (a bench's new state, or the room's findings) to
-// every watcher of its session without blocking; a watcher whose buffer is
-// full is dropped. The event is encoded once for all of them, and not at
+// every watcher of its session without blocking; a watcher too far behind
+// is dropped. The event is encoded once for all of them, and not at
 // all when nobody watches; each stream adds its sequence number. Call it
 // with the session's publish lock held: a watcher that subscribes after the
 // check for watchers takes its snapshot after this change.
@@ -80,12 +127,8 @@ func (h *hub) publish(sessionID uint64, ev *pb.WatchRoomResponse) {
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	for w := range h.watchers[sessionID] {
-		if err == nil {
-			select {
-			case w.ch <- re:
-				continue
-			default:
-			}
+		if err == nil && w.push(re) {
+			continue
 		}
 		// Behind, or the event cannot be sent: the watcher reconnects and
 		// starts from a fresh snapshot.

@@ -301,10 +301,12 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 			return stream.Context().Err()
 		case <-w.gone:
 			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
-		case ev := <-w.ch:
-			seq++
-			if err := stream.SendMsg(sequenced{seq: seq, ev: ev}); err != nil {
-				return err
+		case <-w.ready:
+			for _, ev := range w.take() {
+				seq++
+				if err := stream.SendMsg(sequenced{seq: seq, ev: ev}); err != nil {
+					return err
+				}
 			}
 		}
 	}

@@ -1,0 +1,127 @@
+package server
+
+import (
+	"fmt"
+	"testing"
+
+	"github.com/google/go-cmp/cmp"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// benchEv is a bench's state at a reading count, as the judge publishes it.
+func benchEv(t *testing.T, benchID uint64, count int32) *roomEvent {
+	t.Helper()
+	re, err := newRoomEvent(&pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: &pb.BenchState{
+		Bench: &pb.Bench{BenchId: benchID}, ReadingCount: count}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return re
+}
+
+func findingsEv(t *testing.T, n int) *roomEvent {
+	t.Helper()
+	fs := make([]*pb.RoomFinding, n)
+	for i := range fs {
+		fs[i] = &pb.RoomFinding{Code: fmt.Sprintf("room.f%d", i)}
+	}
+	re, err := newRoomEvent(&pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: fs}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return re
+}
+
+// label names a queued event for comparison: "b<bench>@<count>" or
+// "findings<n>".
+func label(ev *roomEvent) string {
+	if b := ev.msg.GetBench(); b != nil {
+		return fmt.Sprintf("b%d@%d", b.GetBench().GetBenchId(), b.GetReadingCount())
+	}
+	return fmt.Sprintf("findings%d", len(ev.msg.GetFindings().GetFindings()))
+}
+
+// A watcher that has not been sent its events yet gets each bench's latest
+// state and the latest findings, in the order they first changed; events
+// pushed after a take come in the next one.
+func TestWatcherSendsLatestStates(t *testing.T) {
+	for _, tc := range []struct {
+		name   string
+		pushes []func(t *testing.T) *roomEvent
+		want   []string
+	}{
+		{"one bench, three readings", []func(*testing.T) *roomEvent{
+			func(t *testing.T) *roomEvent { return benchEv(t, 4, 1) },
+			func(t *testing.T) *roomEvent { return benchEv(t, 4, 2) },
+			func(t *testing.T) *roomEvent { return benchEv(t, 4, 3) },
+		}, []string{"b4@3"}},
+		{"benches keep their first places", []func(*testing.T) *roomEvent{
+			func(t *testing.T) *roomEvent { return benchEv(t, 1, 1) },
+			func(t *testing.T) *roomEvent { return benchEv(t, 2, 1) },
+			func(t *testing.T) *roomEvent { return findingsEv(t, 1) },
+			func(t *testing.T) *roomEvent { return benchEv(t, 1, 2) },
+			func(t *testing.T) *roomEvent { return findingsEv(t, 2) },
+			func(t *testing.T) *roomEvent { return benchEv(t, 3, 1) },
+		}, []string{"b1@2", "b2@1", "findings2", "b3@1"}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			w := newWatcher()
+			for _, p := range tc.pushes {
+				if !w.push(p(t)) {
+					t.Fatal("push refused")
+				}
+			}
+			select {
+			case <-w.ready:
+			default:
+				t.Fatal("events waiting, and ready holds no token")
+			}
+			var got []string
+			for _, ev := range w.take() {
+				got = append(got, label(ev))
+			}
+			if diff := cmp.Diff(tc.want, got); diff != "" {
+				t.Errorf("sent (-want +got):\n%s", diff)
+			}
+			if rest := w.take(); len(rest) != 0 {
+				t.Errorf("a second take got %d events", len(rest))
+			}
+			// After a take, a bench's next state is news again.
+			w.push(benchEv(t, 1, 9))
+			if got := w.take(); len(got) != 1 || label(got[0]) != "b1@9" {
+				t.Errorf("after a take, got %d events", len(got))
+			}
+		})
+	}
+}
+
+// More distinct states waiting than watcherBuffer: the watcher is too far
+// behind to keep, and the hub drops it so it starts again from a snapshot.
+func TestHubDropsAWatcherTooFarBehind(t *testing.T) {
+	h := newHub()
+	w := h.subscribe(7)
+	for b := uint64(1); b <= watcherBuffer; b++ {
+		h.publish(7, benchEv(t, b, 1).msg)
+	}
+	select {
+	case <-w.gone:
+		t.Fatalf("dropped with %d benches waiting, the bound", watcherBuffer)
+	default:
+	}
+	h.publish(7, benchEv(t, 1, 2).msg) // replaces a waiting state: still kept
+	select {
+	case <-w.gone:
+		t.Fatal("dropped for a state that replaced a waiting one")
+	default:
+	}
+	h.publish(7, benchEv(t, watcherBuffer+1, 1).msg)
+	select {
+	case <-w.gone:
+	default:
+		t.Fatalf("kept with %d distinct states waiting", watcherBuffer+1)
+	}
+	if n := h.watchersOf(7); n != 0 {
+		t.Errorf("the dropped watcher is still subscribed (%d)", n)
+	}
+}
