@@ -246,13 +246,13 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 				return p, err
 			}
 		}
-		used0 := r.c.metric("fluxroom_db_used_bytes")
+		used0 := r.c.scrape().value("fluxroom_db_used_bytes")
 		if *ph.out, err = openLoop(r, ph.rate, cfg.dur, ph.watch, ph.flooder); err != nil {
 			r.c.kill()
 			return p, err
 		}
 		if ph.out == &p.heavy {
-			p.growthPerReading = (r.c.metric("fluxroom_db_used_bytes") - used0) / float64(max(1, p.heavy.stored))
+			p.growthPerReading = (r.c.scrape().value("fluxroom_db_used_bytes") - used0) / float64(max(1, p.heavy.stored))
 		}
 		total += ph.out.stored + ph.out.floodStored
 	}

@@ -189,8 +189,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 
 	const submitMethod = "/fluxroom.v1.StationService/SubmitReading"
 	submitLabels := fmt.Sprintf("method=%q,", submitMethod)
-	hist0, commits0 := r.c.histogram("fluxroom_rpc_seconds", submitLabels), r.c.histogram("fluxroom_commit_seconds", "")
-	committed0 := r.c.metric("fluxroom_committed_readings_total")
+	before := r.c.scrape()
 	r.c.resetPeak()
 	cpu0, gen0 := r.c.cpu(), selfCPU()
 	rng := rand.New(rand.NewPCG(uint64(len(stations)), uint64(rate)))
@@ -214,11 +213,13 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	fwg.Wait()
 	ph.elapsed = time.Since(start)
 	ph.serverCPU, ph.genCPU = r.c.cpu()-cpu0, selfCPU()-gen0
-	hist1, commits1 := r.c.histogram("fluxroom_rpc_seconds", submitLabels), r.c.histogram("fluxroom_commit_seconds", "")
+	after := r.c.scrape()
+	hist0, hist1 := before.histogram("fluxroom_rpc_seconds", submitLabels), after.histogram("fluxroom_rpc_seconds", submitLabels)
+	commits0, commits1 := before.histogram("fluxroom_commit_seconds", ""), after.histogram("fluxroom_commit_seconds", "")
 	ph.serverP50, ph.serverP99 = bucketQuantile(hist0, hist1, 0.5), bucketQuantile(hist0, hist1, 0.99)
 	ph.commitP50, ph.commitP99 = bucketQuantile(commits0, commits1, 0.5), bucketQuantile(commits0, commits1, 0.99)
 	ph.commits = commits1[math.Inf(1)] - commits0[math.Inf(1)]
-	ph.committed = r.c.metric("fluxroom_committed_readings_total") - committed0
+	ph.committed = after.value("fluxroom_committed_readings_total") - before.value("fluxroom_committed_readings_total")
 	_, ph.peakRSS = r.c.mem()
 	// Let the last events reach the watchers, then stop them.
 	time.Sleep(300 * time.Millisecond)

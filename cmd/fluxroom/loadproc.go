@@ -164,9 +164,12 @@ func procMem(pid int) (rss, peak float64) {
 	return rss, peak
 }
 
-// metricsLines is the child's /metrics, a line each; none when it does not
-// answer.
-func (c *child) metricsLines() []string {
+// metricsPage is one reading of a child's /metrics, a line each: a phase
+// reads it once at each end and takes every figure from the same moment.
+type metricsPage []string
+
+// scrape reads the child's /metrics; an empty page when it does not answer.
+func (c *child) scrape() metricsPage {
 	resp, err := http.Get("http://" + c.addr + "/metrics")
 	if err != nil {
 		return nil
@@ -180,9 +183,9 @@ func (c *child) metricsLines() []string {
 	return out
 }
 
-// metric reads one value from the child's /metrics; NaN when absent.
-func (c *child) metric(name string) float64 {
-	for _, line := range c.metricsLines() {
+// value is one unlabelled value on the page; NaN when absent.
+func (p metricsPage) value(name string) float64 {
+	for _, line := range p {
 		if v, ok := strings.CutPrefix(line, name+" "); ok {
 			if f, err := strconv.ParseFloat(strings.TrimSpace(v), 64); err == nil {
 				return f
@@ -192,13 +195,13 @@ func (c *child) metric(name string) float64 {
 	return math.NaN()
 }
 
-// histogram reads the cumulative bucket counts of a histogram in the
-// child's /metrics, name with its labels but le ("method=\"…\","): upper
-// bound in seconds → count.
-func (c *child) histogram(name, labels string) map[float64]float64 {
+// histogram is the cumulative bucket counts of a histogram on the page,
+// name with its labels but le ("method=\"…\","): upper bound in seconds →
+// count.
+func (p metricsPage) histogram(name, labels string) map[float64]float64 {
 	out := map[float64]float64{}
 	prefix := name + "_bucket{" + labels + "le=\""
-	for _, line := range c.metricsLines() {
+	for _, line := range p {
 		rest, ok := strings.CutPrefix(line, prefix)
 		if !ok {
 			continue
