@@ -42,7 +42,7 @@ type rig struct {
 
 // startRig runs a real Server on a loopback port with a bbolt file in a temp
 // dir, and a native gRPC client connected to it.
-func startRig(t *testing.T) *rig {
+func startRig(t testing.TB) *rig {
 	t.Helper()
 	clock := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
 	var mu sync.Mutex
@@ -55,7 +55,7 @@ func startRig(t *testing.T) *rig {
 }
 
 // startRigWith is startRig with the given clock and room settings.
-func startRigWith(t *testing.T, cfg Config) *rig {
+func startRigWith(t testing.TB, cfg Config) *rig {
 	t.Helper()
 	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
 	if err != nil {
