@@ -168,17 +168,28 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 
 	var points []sweepPoint
 	for _, ms := range cfg.stations {
+		echoes, err := echoOpenLoop(ms, []float64{cfg.capRate(cfg.light, ms), cfg.capRate(cfg.heavy, ms)}, cfg.dur)
+		if err != nil {
+			return fmt.Errorf("M=%d: echo baseline: %w", ms, err)
+		}
 		for _, ws := range cfg.watchers {
 			p, err := sweep(dir, cfg, ms, ws)
 			if err != nil {
 				return fmt.Errorf("M=%d W=%d: %w", ms, ws, err)
 			}
+			p.echoLight, p.echoHeavy = echoes[0], echoes[1]
 			p.print(w)
 			points = append(points, p)
 		}
 	}
 	summarize(w, cfg, shared, own, cl, points)
 	return nil
+}
+
+// capRate is an open-loop rate as n stations can offer it, each sending at
+// most perStation readings a second.
+func (cfg loadConfig) capRate(rate float64, n int) float64 {
+	return min(rate, cfg.perStation*float64(n))
 }
 
 // sweepPoint is one M × W point of the sweep.
@@ -188,6 +199,9 @@ type sweepPoint struct {
 	idleConnBytes      float64
 	light, heavy       phase
 	fair               phase
+	// echoLight and echoHeavy are the bare echo under the light and heavy
+	// phases' rates over as many connections.
+	echoLight, echoHeavy openEcho
 	diskPerReading     float64 // the file at the end, over every reading
 	usedPerReading     float64 // its pages in use, likewise
 	// growthPerReading is how much the pages in use grew over the heavy
@@ -226,7 +240,7 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	rss1, _ := r.c.mem()
 	p.idleConnBytes = (rss1 - rss0) / float64(stations)
 
-	capRate := func(rate float64) float64 { return min(rate, cfg.perStation*float64(stations)) }
+	capRate := func(rate float64) float64 { return cfg.capRate(rate, stations) }
 	phases := []struct {
 		out            *phase
 		rate           float64
@@ -284,7 +298,8 @@ func (p sweepPoint) print(w io.Writer) {
 	for _, x := range []struct {
 		name string
 		ph   phase
-	}{{"light", p.light}, {"heavy", p.heavy}} {
+		echo openEcho
+	}{{"light", p.light, p.echoLight}, {"heavy", p.heavy, p.echoHeavy}} {
 		ph := x.ph
 		rate := float64(ph.stored) / ph.elapsed.Seconds()
 		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s (inside the server p50 ≤ %g p99 ≤ %g ms); submit→watcher %s over %d deliveries\n",
@@ -293,6 +308,9 @@ func (p sweepPoint) print(w io.Writer) {
 			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
 		fmt.Fprintf(w, "        group commits %.0f/s of %.1f readings each, p50 ≤ %g p99 ≤ %g ms with their fsyncs\n",
 			ph.commits/ph.elapsed.Seconds(), ph.committed/max(1, ph.commits), ph.commitP50, ph.commitP99)
+		e := x.echo.latencies
+		fmt.Fprintf(w, "        baseline: the bare echo at %.0f/s over %d connections %s, server CPU %.0f µs/call; submit→ack p50 %.1f × its p50, p99 %.1f × its p99\n",
+			x.echo.rate, p.stations, ms3(e), x.echo.serverCPU*1e6, ratio(quantile(ph.ack, 0.5), quantile(e, 0.5)), ratio(quantile(ph.ack, 0.99), quantile(e, 0.99)))
 	}
 	f := p.fair
 	on := f.elapsed.Seconds() / 2
@@ -307,6 +325,14 @@ func (p sweepPoint) print(w io.Writer) {
 
 func ms(d time.Duration) float64 { return float64(d.Microseconds()) / 1000 }
 
+// ratio is a / b, or 0 when there is no b to divide by.
+func ratio(a, b float64) float64 {
+	if b <= 0 {
+		return 0
+	}
+	return a / b
+}
+
 // summarize checks the figures against the targets of the README's
 // performance section.
 func summarize(w io.Writer, cfg loadConfig, shared, own echoRates, cl closedResult, points []sweepPoint) {
@@ -318,14 +344,16 @@ func summarize(w io.Writer, cfg loadConfig, shared, own echoRates, cl closedResu
 		h := p.heavy
 		if p.stations >= 512 && h.offered >= 5000 {
 			ok := quantile(h.watch, 0.99) <= 30 && quantile(h.watch, 0.999) <= 50 && h.missing == 0
-			fmt.Fprintf(w, "  %.0f/s from %d connections, W=%d: p99 submit→watcher %.1f ms ≤ 30, p999 %.1f ms ≤ 50, missing %d = 0: %s\n",
-				h.offered, p.stations, p.watchers, quantile(h.watch, 0.99), quantile(h.watch, 0.999), h.missing, mark(ok))
+			fmt.Fprintf(w, "  %.0f/s from %d connections, W=%d: p99 submit→watcher %.1f ms ≤ 30, p999 %.1f ms ≤ 50, missing %d = 0: %s (the bare echo at that rate: p99 %.1f, p999 %.1f ms)\n",
+				h.offered, p.stations, p.watchers, quantile(h.watch, 0.99), quantile(h.watch, 0.999), h.missing, mark(ok),
+				quantile(p.echoHeavy.latencies, 0.99), quantile(p.echoHeavy.latencies, 0.999))
 		}
 		l := p.light
 		if l.offered >= 1000 {
 			ok := quantile(l.ack, 0.5) <= 2 && quantile(l.ack, 0.99) <= 12
-			fmt.Fprintf(w, "  light %.0f/s, M=%d W=%d: submit→ack p50 %.1f ms ≤ 2, p99 %.1f ms ≤ 12: %s\n",
-				l.offered, p.stations, p.watchers, quantile(l.ack, 0.5), quantile(l.ack, 0.99), mark(ok))
+			fmt.Fprintf(w, "  light %.0f/s, M=%d W=%d: submit→ack p50 %.1f ms ≤ 2, p99 %.1f ms ≤ 12: %s (the bare echo at that rate: p50 %.1f, p99 %.1f ms)\n",
+				l.offered, p.stations, p.watchers, quantile(l.ack, 0.5), quantile(l.ack, 0.99), mark(ok),
+				quantile(p.echoLight.latencies, 0.5), quantile(p.echoLight.latencies, 0.99))
 		}
 		ratio := quantile(p.fair.ackFlood, 0.99) / quantile(p.fair.ack, 0.99)
 		fmt.Fprintf(w, "  fairness M=%d W=%d: others' p99 with a flooding station %.2f × quiet ≤ 2: %s\n", p.stations, p.watchers, ratio, mark(ratio <= 2))

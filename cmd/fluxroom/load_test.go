@@ -29,7 +29,8 @@ func TestLoadtestRuns(t *testing.T) {
 		t.Fatalf("%v\n%s", err, out.String())
 	}
 	for _, want := range []string{"baseline echo:", "the empty call", "baseline bbolt:", "closed loop", "longest run 30)", "M=40 stations",
-		"light   200/s offered", "verdicts missing at watchers 0", "group commits", "fairness at 200/s", "restart on the filled file",
+		"light   200/s offered", "verdicts missing at watchers 0", "group commits",
+		"baseline: the bare echo at 200/s over 40 connections", "baseline: the bare echo at 300/s over 40 connections", "fairness at 200/s", "restart on the filled file",
 		"in-use pages grew", "targets"} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("the output has no %q:\n%s", want, out.String())

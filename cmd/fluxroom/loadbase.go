@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"path/filepath"
 	"slices"
 	"sync"
@@ -58,6 +59,96 @@ func echoBaseline(callers, conns int, dur time.Duration) (echoRates, error) {
 	})
 	res.empty, res.emptyCPU = n/dur.Seconds(), cpu
 	return res, nil
+}
+
+// openEcho is the echo baseline of an open-loop phase: the bare grpc-go
+// server answering readings arriving at the phase's rate over as many
+// connections as the phase has stations. The machine's own latency at that
+// load, transport and load generator included, is what the server's
+// latencies are divided by.
+type openEcho struct {
+	rate      float64
+	latencies []time.Duration // sorted, from each reading's due time
+	serverCPU float64         // seconds per call
+}
+
+// echoOpenLoop measures the echo server in its own process under each of
+// the rates in turn, each for dur, over conns connections dialled and used
+// once before the clock starts.
+func echoOpenLoop(conns int, rates []float64, dur time.Duration) ([]openEcho, error) {
+	c, _, err := startChild("loadtest-echo")
+	if err != nil {
+		return nil, err
+	}
+	defer c.stop()
+	ccs := make([]*grpc.ClientConn, conns)
+	for i := range ccs {
+		if ccs[i], err = grpc.NewClient(c.addr, stationDialOptions()...); err != nil {
+			return nil, err
+		}
+		defer ccs[i].Close()
+	}
+	readings := make([]*pb.SubmitReadingRequest, conns)
+	for i := range readings {
+		readings[i] = (&loadStation{sid: 1, bid: uint64(i + 1)}).reading()
+	}
+	echo := func(ctx context.Context, i int) error {
+		return ccs[i].Invoke(ctx, echoMethod, readings[i], new(pb.SubmitReadingRequest))
+	}
+	var wg sync.WaitGroup
+	sem := make(chan struct{}, 64)
+	var failed atomic.Int64
+	for i := range ccs {
+		wg.Add(1)
+		sem <- struct{}{}
+		go func() {
+			defer wg.Done()
+			defer func() { <-sem }()
+			if echo(context.Background(), i) != nil {
+				failed.Add(1)
+			}
+		}()
+	}
+	wg.Wait()
+	if n := failed.Load(); n > 0 {
+		return nil, fmt.Errorf("%d of %d connections to the echo server failed", n, conns)
+	}
+	var out []openEcho
+	for _, rate := range rates {
+		res := openEcho{rate: rate}
+		var mu sync.Mutex
+		queues := make([]chan time.Time, conns)
+		for i := range queues {
+			queues[i] = make(chan time.Time, 1024)
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				for t0 := range queues[i] {
+					ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+					err := echo(ctx, i)
+					cancel()
+					if err != nil {
+						failed.Add(1)
+						continue
+					}
+					d := time.Since(t0)
+					mu.Lock()
+					res.latencies = append(res.latencies, d)
+					mu.Unlock()
+				}
+			}()
+		}
+		cpu0 := c.cpu()
+		schedule(queues, rate, dur, time.Now().Add(50*time.Millisecond))
+		wg.Wait()
+		if n := failed.Load(); n > 0 {
+			return nil, fmt.Errorf("%d echo calls failed at %.0f/s", n, rate)
+		}
+		res.serverCPU = (c.cpu() - cpu0) / float64(max(1, len(res.latencies)))
+		slices.Sort(res.latencies)
+		out = append(out, res)
+	}
+	return out, nil
 }
 
 // closedCPU is the CPU time per call of a closed loop's server and of the

@@ -63,6 +63,30 @@ type arrival struct {
 	at    time.Time
 }
 
+// schedule hands out the due times of readings arriving at rate from start
+// for dur (exponential inter-arrival times, so bursts happen as they do),
+// each to one of the queues at random, and then closes the queues. The
+// seed depends on the queues and the rate alone, so the server and the
+// echo baseline see the same arrivals.
+func schedule(queues []chan time.Time, rate float64, dur time.Duration, start time.Time) {
+	rng := rand.New(rand.NewPCG(uint64(len(queues)), uint64(rate)))
+	time.Sleep(time.Until(start))
+	next := start
+	for time.Since(start) < dur {
+		next = next.Add(time.Duration(rng.ExpFloat64() / rate * float64(time.Second)))
+		// Wake at most once a millisecond and send what is due: a timer
+		// per arrival would cost the generator more than the server a
+		// reading. A reading sent late is measured from its due time.
+		if d := time.Until(next); d > 0 {
+			time.Sleep(max(d, time.Millisecond))
+		}
+		queues[rng.IntN(len(queues))] <- next
+	}
+	for _, q := range queues {
+		close(q)
+	}
+}
+
 // openLoop sends readings at rate (exponential inter-arrival times, so
 // bursts happen as they do) for dur, whatever the answers do, so queueing
 // shows in the latencies. Watchers follow the rooms; with flood, one
@@ -192,22 +216,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	before := r.c.scrape()
 	r.c.resetPeak()
 	cpu0, gen0 := r.c.cpu(), selfCPU()
-	rng := rand.New(rand.NewPCG(uint64(len(stations)), uint64(rate)))
-	time.Sleep(time.Until(start))
-	next := start
-	for time.Since(start) < dur {
-		next = next.Add(time.Duration(rng.ExpFloat64() / rate * float64(time.Second)))
-		// Wake at most once a millisecond and send what is due: a timer
-		// per arrival would cost the generator more than the server a
-		// reading. A reading sent late is measured from its due time.
-		if d := time.Until(next); d > 0 {
-			time.Sleep(max(d, time.Millisecond))
-		}
-		queues[rng.IntN(len(stations))] <- next
-	}
-	for _, q := range queues {
-		close(q)
-	}
+	schedule(queues, rate, dur, start)
 	swg.Wait()
 	fcancel()
 	fwg.Wait()
