@@ -81,7 +81,7 @@ const (
 	zeroInterceptMin    = 0.05 // N
 )
 
-func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	x := make([]float64, len(rs))
 	y := make([]float64, len(rs))
 	for i, r := range rs {
@@ -126,12 +126,14 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance) (A
 		FormatMeasurement(slope.Value, slope.Uncertainty, "N/A"),
 		FormatMeasurement(predicted.Value, predicted.Uncertainty, ""), pct, z)
 
-	pts := make([]PlotPoint, len(rs))
-	for i := range rs {
-		pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, fit.ResidualSD), ReadingID: rs[i].id}
+	if plot {
+		pts := make([]PlotPoint, len(rs))
+		for i := range rs {
+			pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, fit.ResidualSD), ReadingID: rs[i].id}
+		}
+		p := linePlot("current I (A)", "force F (N)", pts, fit.Intercept, fit.Slope, pred, tol.GoodPercent)
+		a.Plot = &p
 	}
-	plot := linePlot("current I (A)", "force F (N)", pts, fit.Intercept, fit.Slope, pred, tol.GoodPercent)
-	a.Plot = &plot
 
 	var fs findings
 	rho := slope.Value / pred

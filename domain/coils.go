@@ -111,12 +111,12 @@ func coilPoints(c map[string]Measurement, rs []siReading, theory func(I, z float
 	return pts
 }
 
-func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	N, L, R := c["turns"].Value, c["length"], c["radius"]
 	pts := coilPoints(c, rs, func(I, z float64) float64 { return solenoidField(N, L.Value, R.Value, I, z) })
 	// Near the centre B ∝ 1/L to first order; R enters only the small
 	// end correction, so L dominates the model's uncertainty.
-	a, fs, ok := assessFieldPoints(pts, L.RelUncertainty(), tol, "solenoid")
+	a, fs, ok := assessFieldPoints(pts, L.RelUncertainty(), tol, "solenoid", plot)
 	if !ok {
 		return a, fs
 	}
@@ -149,10 +149,10 @@ func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance) (As
 	return a, fs
 }
 
-func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	N, R := c["turns"].Value, c["radius"]
 	pts := coilPoints(c, rs, func(I, z float64) float64 { return coilField(N, R.Value, I, z) })
-	a, fs, ok := assessFieldPoints(pts, R.RelUncertainty(), tol, "flat coil")
+	a, fs, ok := assessFieldPoints(pts, R.RelUncertainty(), tol, "flat coil", plot)
 	if !ok {
 		return a, fs
 	}

@@ -134,7 +134,7 @@ func coilConstant(c map[string]Measurement) Measurement {
 	return Measurement{Value: k, Uncertainty: k * R.RelUncertainty()}
 }
 
-func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	k := coilConstant(c)
 	uV := resolutionU(c["voltage_resolution"].Value)
 	uI := resolutionU(c["current_resolution"].Value)
@@ -192,15 +192,17 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance)
 	a.Reason = fmt.Sprintf("e/m %s vs %.5g C/kg (CODATA 2022) (%+.1f %%, z = %+.1f), %d readings",
 		FormatMeasurement(measured.Value, measured.Uncertainty, "C/kg"), ElectronChargeToMass, pct, z, n)
 
-	pts := make([]PlotPoint, n)
-	for i := range rs {
-		pts[i] = PlotPoint{X: radius[i], Y: em[i], UY: uem[i], ReadingID: rs[i].id}
+	if plot {
+		pts := make([]PlotPoint, n)
+		for i := range rs {
+			pts[i] = PlotPoint{X: radius[i], Y: em[i], UY: uem[i], ReadingID: rs[i].id}
+		}
+		lo, hi := minOf(radius)*0.9, maxOf(radius)*1.1
+		flat := func(v float64) []XY { return []XY{{lo, v}, {hi, v}} }
+		a.Plot = &Plot{XLabel: "orbit radius r (m)", YLabel: "e/m (C/kg)", Points: pts, Fit: flat(meanEM),
+			Theory: flat(ElectronChargeToMass), BandLow: flat(ElectronChargeToMass * (1 - tol.GoodPercent/100)),
+			BandHigh: flat(ElectronChargeToMass * (1 + tol.GoodPercent/100))}
 	}
-	lo, hi := minOf(radius)*0.9, maxOf(radius)*1.1
-	flat := func(v float64) []XY { return []XY{{lo, v}, {hi, v}} }
-	a.Plot = &Plot{XLabel: "orbit radius r (m)", YLabel: "e/m (C/kg)", Points: pts, Fit: flat(meanEM),
-		Theory: flat(ElectronChargeToMass), BandLow: flat(ElectronChargeToMass * (1 - tol.GoodPercent/100)),
-		BandHigh: flat(ElectronChargeToMass * (1 + tol.GoodPercent/100))}
 
 	var fs findings
 	rho := meanEM / ElectronChargeToMass

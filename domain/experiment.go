@@ -205,7 +205,9 @@ type Experiment struct {
 	Values    []QuantitySpec
 	// MinReadings is how many readings the first verdict needs.
 	MinReadings int
-	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings)
+	// assess judges the converted readings; with plot it also builds the
+	// Assessment's Plot, which only the bench detail draws.
+	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings)
 }
 
 // siReading is a reading converted to SI.

@@ -42,7 +42,7 @@ func fieldConstants() []QuantitySpec {
 // assessFieldPoints fits ρ and runs the diagnoses every field experiment
 // shares. modelRelU is the relative uncertainty of the theory from the bench
 // constants (common to every point).
-func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what string) (Assessment, findings, bool) {
+func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what string, plot bool) (Assessment, findings, bool) {
 	x := make([]float64, len(pts))
 	y := make([]float64, len(pts))
 	u := make([]float64, len(pts))
@@ -63,12 +63,14 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what 
 	a.Reason = fmt.Sprintf("%s: B/B_theory %s (%+.1f %%, z = %+.1f), %d readings",
 		what, FormatMeasurement(rho, se, ""), pct, z, len(pts))
 
-	pp := make([]PlotPoint, len(pts))
-	for i, p := range pts {
-		pp[i] = PlotPoint{X: p.theory, Y: p.measured, UY: u[i], ReadingID: p.reading.id}
+	if plot {
+		pp := make([]PlotPoint, len(pts))
+		for i, p := range pts {
+			pp[i] = PlotPoint{X: p.theory, Y: p.measured, UY: u[i], ReadingID: p.reading.id}
+		}
+		p := linePlot("B_theory (T)", "B measured (T)", pp, 0, rho, 1, tol.GoodPercent)
+		a.Plot = &p
 	}
-	plot := linePlot("B_theory (T)", "B measured (T)", pp, 0, rho, 1, tol.GoodPercent)
-	a.Plot = &plot
 
 	var fs findings
 	uRel := math.Hypot(se/math.Abs(rho), modelRelU)

@@ -21,6 +21,21 @@ type Memo struct {
 	// contiguous slice, not a lookup in a map spread over the heap.
 	converted []memoReading
 	fp        fingerprint
+	// scratch is the judging's list of the readings that count, kept for
+	// the next judging: nothing judged keeps it.
+	scratch []siReading
+}
+
+// readings is an empty list for up to n converted readings: the memo's,
+// reused, or a new one without a memo.
+func (m *Memo) readings(n int) []siReading {
+	if m == nil {
+		return make([]siReading, 0, n)
+	}
+	if cap(m.scratch) < n {
+		m.scratch = make([]siReading, 0, n+n/4)
+	}
+	return m.scratch[:0]
 }
 
 type memoReading struct {

@@ -120,12 +120,19 @@ type Assessment struct {
 // ValidateBench and each reading ValidateReading; anything else is reported
 // as a need-data verdict with the reason, never a panic.
 func Assess(b Bench, readings []Reading, tol Tolerance) Assessment {
-	return AssessMemo(b, readings, tol, nil)
+	return assess(b, readings, tol, nil, true)
 }
 
-// AssessMemo is Assess with the bench's Memo: the same result, with the
-// work on readings judged before taken from the memo (nil: none).
+// AssessMemo is Assess for the room's judge, after every reading: the same
+// verdict, reasons, fit and diagnoses, with the work on readings judged
+// before taken from the bench's Memo (nil: none), and without the Plot,
+// which only the bench detail draws (with Assess) and which would be most
+// of the judging's allocations.
 func AssessMemo(b Bench, readings []Reading, tol Tolerance, m *Memo) Assessment {
+	return assess(b, readings, tol, m, false)
+}
+
+func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Assessment {
 	e, ok := LookupExperiment(b.Experiment)
 	if !ok {
 		return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("unknown experiment %q", b.Experiment)}
@@ -134,7 +141,7 @@ func AssessMemo(b Bench, readings []Reading, tol Tolerance, m *Memo) Assessment 
 	if err != nil {
 		return Assessment{Verdict: NeedData, Reason: "bench constants need fixing: " + err.Error(), ExperimentTitle: e.Title}
 	}
-	rs := make([]siReading, 0, len(readings))
+	rs := m.readings(len(readings))
 	var last time.Time
 	gone := Superseded(readings)
 	for i, r := range readings {
@@ -157,7 +164,7 @@ func AssessMemo(b Bench, readings []Reading, tol Tolerance, m *Memo) Assessment 
 		a = Assessment{Verdict: NeedData, Reason: fmt.Sprintf("%d of %d readings needed for a first verdict", len(rs), e.MinReadings)}
 	} else {
 		var fs findings
-		a, fs = e.assess(c, rs, tol)
+		a, fs = e.assess(c, rs, tol, plot)
 		ds, raise := fs.ranked()
 		a.Diagnoses = ds
 		if raise && a.Verdict == Consistent {

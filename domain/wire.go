@@ -69,7 +69,7 @@ var (
 		Action: "B = μ0·I/(2π·r) for a long straight wire", Lookalikes: []string{"straight_wire.wrong_scale"}})
 )
 
-func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance) (Assessment, findings) {
+func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	ell, delta := c["wire_length"].Value, c["sensor_offset"].Value
 	ur := c["distance_uncertainty"].Value
 	pts := make([]fieldPoint, 0, len(rs))
@@ -91,7 +91,7 @@ func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance)
 		p.theoryRelU = ur / rr
 		pts = append(pts, p)
 	}
-	a, fs, ok := assessFieldPoints(pts, 0, tol, "wire")
+	a, fs, ok := assessFieldPoints(pts, 0, tol, "wire", plot)
 	if !ok {
 		return a, fs
 	}

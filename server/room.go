@@ -215,7 +215,14 @@ func (s *Server) judge(sess domain.Session, b domain.Bench, bm *pb.Bench, readin
 	if sess.Tolerance != (domain.Tolerance{}) {
 		tol = sess.EffectiveTolerance()
 	}
-	a := domain.AssessMemo(b, readings, tol, m)
+	// The room's judging (with the bench's memo) leaves out the plot; a
+	// bench judged on its own, for its state or its detail, has it.
+	var a domain.Assessment
+	if m != nil {
+		a = domain.AssessMemo(b, readings, tol, m)
+	} else {
+		a = domain.Assess(b, readings, tol)
+	}
 	if bm == nil {
 		bm = benchToPB(b)
 	}

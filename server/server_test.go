@@ -218,6 +218,11 @@ func TestJoinSubmitWatch(t *testing.T) {
 	if math.Abs(detail.Detail.Fit.GetIntercept()-0.8) > 0.01 {
 		t.Errorf("fit intercept = %g N, want ≈ 0.8", detail.Detail.Fit.GetIntercept())
 	}
+	// The room's judging draws no plot; the detail draws one, a point per
+	// reading.
+	if n := len(detail.Detail.GetPlot().GetPoints()); n != 5 {
+		t.Errorf("detail plot has %d points, want 5", n)
+	}
 
 	h, err := r.health.Check(ctx, &healthpb.HealthCheckRequest{})
 	if err != nil || h.Status != healthpb.HealthCheckResponse_SERVING {
