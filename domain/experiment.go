@@ -207,7 +207,7 @@ type Experiment struct {
 	MinReadings int
 	// assess judges the converted readings; with plot it also builds the
 	// Assessment's Plot, which only the bench detail draws.
-	assess      func(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings)
+	assess func(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings)
 }
 
 // siReading is a reading converted to SI.

@@ -202,8 +202,8 @@ type sweepPoint struct {
 	// echoLight and echoHeavy are the bare echo under the light and heavy
 	// phases' rates over as many connections.
 	echoLight, echoHeavy openEcho
-	diskPerReading     float64 // the file at the end, over every reading
-	usedPerReading     float64 // its pages in use, likewise
+	diskPerReading       float64 // the file at the end, over every reading
+	usedPerReading       float64 // its pages in use, likewise
 	// growthPerReading is how much the pages in use grew over the heavy
 	// phase, per reading stored in it: the cost of a reading alone, the
 	// sections' sessions and benches being written before.
