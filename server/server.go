@@ -127,8 +127,9 @@ const maxStreamsPerConn = 128
 
 // connBufferSize is each connection's read and write buffer, against
 // grpc-go's default of 32 KiB each: 5 000 stations' read buffers take
-// 20 MB instead of 160.
-const connBufferSize = 4 << 10
+// 10 MB instead of 160. A station's reading (its HEADERS and DATA frames, a
+// few hundred bytes) still comes in one read.
+const connBufferSize = 2 << 10
 
 // streamWorkers is how many goroutines wait for calls; a call that finds
 // them all busy (most of them wait for a commit's fsync) gets a goroutine
