@@ -2,6 +2,7 @@ package domain
 
 import (
 	"encoding/binary"
+	"maps"
 	"math"
 	"strconv"
 )
@@ -24,6 +25,36 @@ type Memo struct {
 	// scratch is the judging's list of the readings that count, kept for
 	// the next judging: nothing judged keeps it.
 	scratch []siReading
+	// The bench's constants as last converted, and what they converted
+	// to: a bench's constants change rarely, and its judging after every
+	// reading reads the result only.
+	constIn  map[string]Quantity
+	constOut map[string]Measurement
+	constErr error
+	hasConst bool
+}
+
+// forExperiment makes the memo e's, starting over if it held another
+// experiment's work.
+func (m *Memo) forExperiment(e *Experiment) {
+	if m.experiment != e.ID {
+		*m = Memo{experiment: e.ID}
+	}
+}
+
+// constants is e.convertConstants(c), remembered while the bench's
+// constants stay as they were. The result is shared: read it only.
+func (m *Memo) constants(e *Experiment, c map[string]Quantity) (map[string]Measurement, error) {
+	if m == nil {
+		return e.convertConstants(c)
+	}
+	m.forExperiment(e)
+	if m.hasConst && maps.Equal(m.constIn, c) {
+		return m.constOut, m.constErr
+	}
+	out, err := e.convertConstants(c)
+	m.constIn, m.constOut, m.constErr, m.hasConst = maps.Clone(c), out, err, true
+	return out, err
 }
 
 // readings is an empty list for up to n converted readings: the memo's,
@@ -51,9 +82,7 @@ func (m *Memo) convert(e *Experiment, i int, r Reading) (siValues, bool) {
 		v, err := e.convertReading("values", r.Values)
 		return siValuesOf(e, v), err == nil
 	}
-	if m.experiment != e.ID {
-		*m = Memo{experiment: e.ID}
-	}
+	m.forExperiment(e)
 	if i < len(m.converted) && m.converted[i].id == r.ID {
 		return m.converted[i].values, m.converted[i].ok
 	}

@@ -2,6 +2,7 @@ package domain
 
 import (
 	"fmt"
+	"maps"
 	"math/rand/v2"
 	"reflect"
 	"testing"
@@ -15,6 +16,12 @@ import (
 // through a correction and a change of the bench's experiment.
 func TestMemoMatchesFromScratch(t *testing.T) {
 	t0 := time.Date(2026, 10, 6, 13, 0, 0, 0, time.UTC)
+	constantsChanged := 0
+	defer func() {
+		if constantsChanged == 0 {
+			t.Error("no simulated group had a bench constant that changes its assessment: the constants step checked nothing")
+		}
+	}()
 	for _, exp := range SimulatedExperiments() {
 		for _, mistake := range append([]string{""}, SimulatedMistakes(exp)...) {
 			g, err := Simulate(exp, mistake, rand.New(rand.NewPCG(3, 4)), t0)
@@ -65,6 +72,28 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 				}
 				rs = append(rs[:1], append([]Reading{late}, rs[1:]...)...)
 				check("after a reading placed among earlier ones")
+			}
+			// The instructor corrects a bench constant, one that changes
+			// the verdict's figures: the memo must convert the new
+			// constants, not keep the old ones.
+			e, _ := LookupExperiment(exp)
+			for _, spec := range e.Constants {
+				fixed := maps.Clone(g.Bench.Constants)
+				was, ok := fixed[spec.Name]
+				if !ok {
+					was = Quantity{Value: spec.Default, Unit: spec.Unit}
+				}
+				fixed[spec.Name] = Quantity{Value: was.Value * 0.8, Unit: was.Unit, Uncertainty: was.Uncertainty}
+				other := g.Bench
+				other.Constants = fixed
+				if reflect.DeepEqual(Assess(other, rs, DefaultTolerance), Assess(g.Bench, rs, DefaultTolerance)) {
+					continue
+				}
+				AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+				g.Bench = other
+				check("after bench constant " + spec.Name + " changed")
+				constantsChanged++
+				break
 			}
 			// Judged against another experiment's rules, the same memo
 			// must start over, not reuse conversions made for this one.

@@ -137,7 +137,7 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	if !ok {
 		return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("unknown experiment %q", b.Experiment)}
 	}
-	c, err := e.convertConstants(b.Constants)
+	c, err := m.constants(e, b.Constants)
 	if err != nil {
 		return Assessment{Verdict: NeedData, Reason: "bench constants need fixing: " + err.Error(), ExperimentTitle: e.Title}
 	}
