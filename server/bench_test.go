@@ -20,10 +20,16 @@ import (
 // test's client in the same process. allocs/op counts both ends; the
 // server's share is read from a -memprofile. Callers send runs of 30
 // readings to a bench each, as a lab does, then take an unused bench, so
-// the judging measured is that of lab-length runs.
+// the judging measured is that of lab-length runs. The unjudged case
+// leaves the judging out, to show its share of a reading's cost.
 //
 //	go test -run '^$' -bench SubmitReading -benchmem ./server/
 func BenchmarkSubmitReading(b *testing.B) {
+	b.Run("judged", func(b *testing.B) { benchmarkSubmitReading(b, false) })
+	b.Run("unjudged", func(b *testing.B) { benchmarkSubmitReading(b, true) })
+}
+
+func benchmarkSubmitReading(b *testing.B, skipJudging bool) {
 	const (
 		runLength = 30
 		perRoom   = 30
@@ -32,6 +38,7 @@ func BenchmarkSubmitReading(b *testing.B) {
 	// No station is held back: the rate limit is measured in the load
 	// program's fairness phase, not here.
 	r := startRigWith(b, Config{StationRate: 1e9, StationBurst: 1 << 30})
+	r.srv.skipJudging = skipJudging
 	ctx := context.Background()
 	benches := b.N/runLength + 1
 	var calls []context.Context // one per bench, carrying its station token

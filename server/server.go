@@ -103,6 +103,10 @@ type Server struct {
 	http                             *http.Server
 	health                           *health.Server
 
+	// skipJudging leaves committed readings unjudged: set only by
+	// BenchmarkSubmitReading, to show what judging costs a reading.
+	skipJudging bool
+
 	// judges holds each session's roomJudge. The judges and the ticker
 	// run through goBackground, so Shutdown can wait for them.
 	judges     sync.Map
