@@ -35,6 +35,7 @@ BENCH_ARGS ?=
 bench:
 	$(GO) run ./cmd/fluxroom loadtest $(BENCH_ARGS)
 	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
+	$(GO) test -run='^$$' -bench=SubmitReading -benchmem ./server/
 	$(GO) test -run='^$$' -bench=ExportTerm -benchtime=1x ./internal/export/
 
 demo: build
