@@ -26,12 +26,11 @@ type Memo struct {
 	// the next judging: nothing judged keeps it.
 	scratch []siReading
 	// The bench's constants as last converted, and what they converted
-	// to: a bench's constants change rarely, and its judging after every
-	// reading reads the result only.
+	// to (never nil once converted): a bench's constants change rarely, and
+	// its judging after every reading reads the result only.
 	constIn  map[string]Quantity
 	constOut map[string]Measurement
 	constErr error
-	hasConst bool
 }
 
 // forExperiment makes the memo e's, starting over if it held another
@@ -49,11 +48,11 @@ func (m *Memo) constants(e *Experiment, c map[string]Quantity) (map[string]Measu
 		return e.convertConstants(c)
 	}
 	m.forExperiment(e)
-	if m.hasConst && maps.Equal(m.constIn, c) {
+	if m.constOut != nil && maps.Equal(m.constIn, c) {
 		return m.constOut, m.constErr
 	}
 	out, err := e.convertConstants(c)
-	m.constIn, m.constOut, m.constErr, m.hasConst = maps.Clone(c), out, err, true
+	m.constIn, m.constOut, m.constErr = maps.Clone(c), out, err
 	return out, err
 }
 
