@@ -95,24 +95,11 @@ func echoOpenLoop(conns int, rates []float64, dur time.Duration) ([]openEcho, er
 	echo := func(ctx context.Context, i int) error {
 		return ccs[i].Invoke(ctx, echoMethod, readings[i], new(pb.SubmitReadingRequest))
 	}
+	if err := openEach(conns, func(i int) error { return echo(context.Background(), i) }); err != nil {
+		return nil, fmt.Errorf("connecting %d stations to the echo server: %w", conns, err)
+	}
 	var wg sync.WaitGroup
-	sem := make(chan struct{}, 64)
 	var failed atomic.Int64
-	for i := range ccs {
-		wg.Add(1)
-		sem <- struct{}{}
-		go func() {
-			defer wg.Done()
-			defer func() { <-sem }()
-			if echo(context.Background(), i) != nil {
-				failed.Add(1)
-			}
-		}()
-	}
-	wg.Wait()
-	if n := failed.Load(); n > 0 {
-		return nil, fmt.Errorf("%d of %d connections to the echo server failed", n, conns)
-	}
 	var out []openEcho
 	for _, rate := range rates {
 		res := openEcho{rate: rate}

@@ -153,10 +153,6 @@ func (r *loadRoom) newSection() error {
 
 // connectAll gives every station its own connection, opened by one call.
 func (r *loadRoom) connectAll() error {
-	var mu sync.Mutex
-	var firstErr error
-	sem := make(chan struct{}, 64)
-	var wg sync.WaitGroup
 	for _, s := range r.stations {
 		c, err := grpc.NewClient(r.c.addr, stationDialOptions()...)
 		if err != nil {
@@ -164,14 +160,33 @@ func (r *loadRoom) connectAll() error {
 		}
 		r.conns = append(r.conns, c)
 		s.st = rpcpb.NewStationServiceClient(c)
+	}
+	return openEach(len(r.stations), func(i int) error {
+		s := r.stations[i]
+		_, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}, s.creds())
+		return err
+	})
+}
+
+// openEach makes the first call on each of n new connections, 64 at a
+// time (a connection opens with its first call), and returns the first
+// error, so the phases measure open connections only.
+func openEach(n int, first func(i int) error) error {
+	var mu sync.Mutex
+	var firstErr error
+	sem := make(chan struct{}, 64)
+	var wg sync.WaitGroup
+	for i := 0; i < n; i++ {
 		wg.Add(1)
 		sem <- struct{}{}
 		go func() {
 			defer wg.Done()
 			defer func() { <-sem }()
-			if _, err := s.st.GetBenchState(context.Background(), &pb.GetBenchStateRequest{SessionId: s.sid, BenchId: s.bid}, s.creds()); err != nil {
+			if err := first(i); err != nil {
 				mu.Lock()
-				firstErr = err
+				if firstErr == nil {
+					firstErr = err
+				}
 				mu.Unlock()
 			}
 		}()
