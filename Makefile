@@ -48,17 +48,21 @@ tools:
 	GOBIN=$(BIN) $(GO) install google.golang.org/protobuf/cmd/protoc-gen-go@$(PROTOC_GEN_GO_VERSION)
 	GOBIN=$(BIN) $(GO) install google.golang.org/grpc/cmd/protoc-gen-go-grpc@$(PROTOC_GEN_GO_GRPC_VERSION)
 
-## generate: protobuf Go code from proto/ (needs Debian's protobuf-compiler).
+## generate: protobuf Go code from proto/ (needs Debian's protobuf-compiler), and
+## domain/tables.go, the shape tests' critical values from gonum's distuv.
 generate: tools
 	PATH=$(BIN):$$PATH protoc -I proto \
 		--go_out=. --go_opt=module=example.com/fluxroom \
 		--go-grpc_out=. --go-grpc_opt=module=example.com/fluxroom \
 		$(PROTOS)
+	$(GO) run ./domain/internal/gentables > domain/tables.go.new && mv domain/tables.go.new domain/tables.go
+
+GENERATED := proto/ domain/tables.go
 
 ## verify-generate: fails when the committed generated code is stale.
 verify-generate: generate
-	@git diff --exit-code -- proto/ || (echo "generated code is stale: run make generate and commit" >&2; exit 1)
-	@test -z "$$(git status --porcelain -- proto/)" || (git status --porcelain -- proto/; echo "generated code is not committed" >&2; exit 1)
+	@git diff --exit-code -- $(GENERATED) || (echo "generated code is stale: run make generate and commit" >&2; exit 1)
+	@test -z "$$(git status --porcelain -- $(GENERATED))" || (git status --porcelain -- $(GENERATED); echo "generated code is not committed" >&2; exit 1)
 
 clean:
 	rm -rf $(BIN) $(WEB)/app.wasm $(WEB)/app.wasm.gz

@@ -19,14 +19,22 @@ var CoilForce = &Experiment{
 		// Fringing makes the effective length longer than the ruler's; 2 %
 		// covers a ruler reading on a few centimetres // common practice.
 		{Name: "segment_length", Label: "segment length L", Dim: Length, Unit: "cm", Default: 4.0, DefaultRelU: 0.02,
-			Min: 0, MinExclusive: true, Max: 1, Hint: "longer than any bench coil: was it typed in cm with unit m?"},
+			Min: 0, MinExclusive: true, Max: 1, Hint: "longer than any bench coil",
+			Usual: [2]float64{0.01, 0.10}}, // 1–10 cm (from memory, PHYSICS.md §2(a))
 		// Probe and gap non-uniformity give 2–5 % // common practice.
 		{Name: "gap_field", Label: "gap field B", Dim: MagneticField, Unit: "T", Default: 0.120, DefaultRelU: 0.03,
-			Min: 0, MinExclusive: true, Max: 1.5, Hint: "permanent magnets stay below about 1.45 T (from memory): was it in G or mT?"},
+			Min: 0, MinExclusive: true, Max: 1.5, Hint: "permanent magnets stay below about 1.45 T (from memory)",
+			Usual: [2]float64{0.02, 0.5}}, // a magnet's gap (from memory, PHYSICS.md §2(a))
 		{Name: "force_resolution", Label: "force sensor resolution", Dim: Force, Unit: "N", Default: 0.001,
 			Min: 0, MinExclusive: true, Max: 1},
 		{Name: "current_resolution", Label: "ammeter resolution", Dim: Current, Unit: "A", Default: 0.01,
 			Min: 0, MinExclusive: true, Max: 1},
+		// How far repeated readings of one steady force spread (a standard
+		// deviation): a few mN for a ±10 N lab force sensor on a bench that
+		// vibrates a little (from memory). Scatter beyond this and the
+		// resolution is judged a run taken inconsistently.
+		{Name: "force_repeatability", Label: "force sensor repeatability", Dim: Force, Unit: "N", Default: 0.005,
+			Min: 0, Max: 1},
 		// Coil supplies for this set-up give up to about 5 A // common practice.
 		{Name: "max_current", Label: "coil current limit", Dim: Current, Unit: "A", Default: 5,
 			Min: 0, MinExclusive: true, Max: 50},
@@ -34,16 +42,16 @@ var CoilForce = &Experiment{
 	Values: []QuantitySpec{
 		// 50 A means a unit slip on any coil supply // common practice.
 		{Name: "current", Label: "current I", Dim: Current, Unit: "A", Min: -50, Max: 50,
-			Hint:        "far above any coil supply: was it typed in mA with unit A?",
-			SafetyLimit: "max_current", Caution: "Coil current above its rating overheats the coil: turn the supply down and let the coil cool."},
+			Hint: "far above any coil supply", Usual: [2]float64{0.05, 5},
+			SafetyLimit: "max_current", Resolution: "current_resolution",
+			Caution: "Coil current above its rating overheats the coil: turn the supply down and let the coil cool."},
 		{Name: "force", Label: "force F", Dim: Force, Unit: "N", Min: -100, Max: 100,
-			Hint: "far above what a coil segment feels: check the unit"},
+			Hint: "far above what a coil segment feels", Usual: [2]float64{0.001, 10}},
 		// The group's own N·B·L, when they computed one: it lets the tool
 		// check their arithmetic against its own.
 		{Name: "reported_prediction", Label: "the group's own N·B·L", Dim: ForcePerCurrent, Unit: "N/A",
 			Min: math.NaN(), Max: math.NaN(), Optional: true},
 	},
-	assess: assessCoilForce,
 }
 
 func init() { register(CoilForce) }
@@ -73,13 +81,19 @@ var (
 		Action: "only the segment inside the gap feels the field: use one length"})
 )
 
-// Thresholds for the sensor-not-zeroed diagnosis: an intercept beyond three
-// standard errors and above 0.05 N, a fourth of the smallest offset a skipped
-// zero typically leaves (0.2–3 N) // common practice (PHYSICS.md §3a).
-const (
-	zeroInterceptSigmas = 3.0
-	zeroInterceptMin    = 0.05 // N
-)
+// CodeMassAsForce: a sensor read as a mass. Its factor is 1/gₙ (kilograms
+// typed as newtons); grams typed as newtons give 1000/gₙ, a newton reading
+// "converted" with g gives gₙ: matchMassAsForce tries every decade.
+var CodeMassAsForce = entry(CatalogueEntry{Code: "coil_force.mass_as_force", Level: Raw, Factor: 1 / StandardGravity,
+	Cause:      "the force sensor was read as a mass (kg or g) and entered as newtons, or a reading in newtons was multiplied by g",
+	Action:     "set the sensor to newtons, or multiply a reading in kilograms by g = 9.81 m/s² (grams: by 0.00981), once",
+	Lookalikes: []string{"generic.decade_slip"}})
+
+// zeroInterceptMin is the least intercept called a skipped zero, 0.05 N: a
+// fourth of the smallest offset a skipped zero typically leaves (0.2–3 N)
+// // common practice (PHYSICS.md §3a). Beyond that the intercept must be
+// significant by Student's t for the run (tShape).
+const zeroInterceptMin = 0.05 // N
 
 func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	x := make([]float64, len(rs))
@@ -101,26 +115,36 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	uF := resolutionU(c["force_resolution"].Value)
 	uI := resolutionU(c["current_resolution"].Value)
 	uy := math.Hypot(uF, fit.Slope*uI)
+	// What the instruments allow one reading to scatter: resolution,
+	// repeatability and the current reading's share.
+	uAllowed := math.Hypot(uy, c["force_repeatability"].Value)
 	mx := mean(x)
 	n := float64(len(x))
 	slope := Measurement{Value: fit.Slope, Uncertainty: math.Max(fit.SlopeSE, uy/math.Sqrt(fit.Sxx))}
 	intercept := Measurement{Value: fit.Intercept, Uncertainty: math.Max(fit.InterceptSE, uy*math.Sqrt(1/n+mx*mx/fit.Sxx))}
 	fit.SlopeSE, fit.InterceptSE = slope.Uncertainty, intercept.Uncertainty
+	var sc scatter
+	if len(x) > 2 {
+		sc = scatter{chi2: fit.ResidualSD * fit.ResidualSD * float64(len(x)-2) / (uAllowed * uAllowed), nu: len(x) - 2}
+	}
 
 	N, B, L := c["turns"], c["gap_field"], c["segment_length"]
 	pred := N.Value * B.Value * L.Value
 	// N is exact; (u/NBL)² = (u_B/B)² + (u_L/L)² [pub: JCGM 100:2008 (GUM) §5.1.6].
 	predicted := Measurement{Value: pred, Uncertainty: pred * math.Hypot(B.RelUncertainty(), L.RelUncertainty())}
 
-	z, pct, v := combine(slope, predicted, tol)
+	z, pct, v, extra := judgeScatter(slope, predicted, math.Max(uAllowed, uy)/math.Sqrt(fit.Sxx), sc, tol)
+	fitItem := BudgetItem{Input: "slope fit", RelU: slope.RelUncertainty()}
+	items := []BudgetItem{fitItem,
+		{Input: "gap field B", RelU: B.RelUncertainty()},
+		{Input: "segment length L", RelU: L.RelUncertainty()}}
+	if extra != nil {
+		items[0].RelU = math.Sqrt(math.Max(0, fitItem.RelU*fitItem.RelU-extra.RelU*extra.RelU))
+		items = append(items, *extra)
+	}
 	a := Assessment{
 		Verdict: v, Measured: slope, Predicted: predicted, ResultUnit: "N/A", ResultName: "slope",
-		Z: z, PercentDiff: pct, Fit: &fit, FitX: "current", FitY: "force",
-		Budget: budget(
-			BudgetItem{Input: "slope fit", RelU: slope.RelUncertainty()},
-			BudgetItem{Input: "gap field B", RelU: B.RelUncertainty()},
-			BudgetItem{Input: "segment length L", RelU: L.RelUncertainty()},
-		),
+		Z: z, PercentDiff: pct, Fit: &fit, FitX: "current", FitY: "force", Budget: budget(items...), scatter: sc,
 	}
 	a.Reason = fmt.Sprintf("slope %s vs %s predicted (%+.1f %%, z = %+.1f)",
 		FormatMeasurement(slope.Value, slope.Uncertainty, "N/A"),
@@ -141,25 +165,56 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	if v != Consistent {
 		fs.matchFactor(rho, uRel, "slope/N·B·L", CodeSignReversed, CodeLengthDoubled, CodeTurnsMismatch)
 		fs.matchDecade(rho, uRel, "slope/N·B·L")
+		fs.matchMassAsForce(rho, uRel, "slope/N·B·L")
 		if rho > 1.03 && rho < 1.5 {
 			theta := math.Acos(1/rho) * 180 / math.Pi
 			fs.add(CodeFieldProbeTilted, fmt.Sprintf("slope/N·B·L = %.3f, as a probe tilted by about %.0f° would give", rho, theta), 0.6, true)
 		}
 	}
-	if math.Abs(intercept.Value) > zeroInterceptSigmas*intercept.Uncertainty && math.Abs(intercept.Value) > zeroInterceptMin {
+	if math.Abs(intercept.Value) > tShape(len(x)-2)*intercept.Uncertainty && math.Abs(intercept.Value) > zeroInterceptMin {
 		fs.add(CodeSensorNotZeroed, fmt.Sprintf("intercept %s, expected 0; slope/N·B·L = %.3f",
 			FormatMeasurement(intercept.Value, intercept.Uncertainty, "N"), rho), 0.95, true)
 	}
 	if len(x) >= 5 {
 		if q, err := FitPoly(x, y, 2); err == nil && q.SE[2] > 0 {
-			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > 4 && q.ResidualSD < 0.5*fit.ResidualSD {
+			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > tShape(len(x)-3) && q.ResidualSD < 0.5*fit.ResidualSD {
 				fs.add(CodeNonlinear, fmt.Sprintf("a curvature term of %.3g N/A² is %.0f standard errors from zero", q.Coef[2], math.Abs(t)), 0.8, true)
 			}
 		}
 	}
-	lineShape(&fs, x, y, fit, uy, "force", "N")
+	lineShape(&fs, rs, x, y, fit, uy, uAllowed, "force", "N")
 	reportedPrediction(&fs, rs, pred, N.Value)
 	return a, fs
+}
+
+// matchMassAsForce adds coil_force.mass_as_force when ρ is within tolerance
+// of gₙ^±1 times a power of ten from 10⁻³ to 10³ (kilograms or grams typed
+// as newtons, or newtons multiplied by g); ×1/gₙ·10 =
+// 1.02 and ×gₙ/10 = 0.98 are left out, too close to 1 to tell from a good
+// run. Where a decade slip matches too, both are listed (PHYSICS.md §3:
+// close pairs are never picked silently).
+func (fs *findings) matchMassAsForce(rho, uRel float64, what string) {
+	if rho <= 0 {
+		return
+	}
+	tol := math.Max(2*uRel, 0.02)
+	for _, base := range []float64{1 / StandardGravity, StandardGravity} {
+		k := math.Round(math.Log10(rho / base))
+		f := base * math.Pow(10, k)
+		if math.Abs(k) > 3 || math.Abs(math.Log(f)) < 0.1 {
+			continue
+		}
+		if d := math.Abs(math.Log(rho / f)); d <= tol {
+			how := "a reading in newtons multiplied by g"
+			if base < 1 {
+				how = map[float64]string{0: "kilograms typed as newtons", 3: "grams typed as newtons"}[k]
+				if how == "" {
+					how = "a mass typed as newtons"
+				}
+			}
+			fs.add(CodeMassAsForce, fmt.Sprintf("%s ratio %.4g ≈ ×%.4g: %s (gₙ = 9.80665 m/s²)", what, rho, f, how), 1-0.5*d/tol, true)
+		}
+	}
 }
 
 // reportedPrediction compares the group's own N·B·L with the tool's.

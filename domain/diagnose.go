@@ -3,6 +3,7 @@ package domain
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 )
 
@@ -74,11 +75,12 @@ var (
 		Cause:  "the result has the right size but the wrong sign: leads, probe or direction reversed",
 		Action: "check the polarity of the supply leads and which way the probe faces, then retake one point"})
 	CodeDecadeSlip = entry(CatalogueEntry{Code: "generic.decade_slip", Level: Raw,
-		Cause:  "the result is off by a power of ten: a unit or decimal slip (G vs mT, cm vs m, mA vs A)",
-		Action: "check the unit chosen for each value against the meter's range and scale"})
+		Cause:      "the result is off by a power of ten: a unit or decimal slip (G vs mT, cm vs m, mA vs A)",
+		Action:     "check the unit chosen for each value against the meter's range and scale",
+		Lookalikes: []string{"coil_force.mass_as_force"}})
 	CodeDecimalSlipPoint = entry(CatalogueEntry{Code: "generic.decimal_slip_point", Level: Shape,
-		Cause:  "one reading is off by ×10 or ×0.1 from the others: a decimal point slipped",
-		Action: "ask the group to re-read that one point"})
+		Cause:  "one reading is off by a power of ten from the others: a decimal point slipped in one value",
+		Action: "re-take this point"})
 	CodeDrift = entry(CatalogueEntry{Code: "generic.drift", Level: Shape,
 		Cause:  "the residuals trend with time: heating or sensor drift during the run",
 		Action: "switch off between readings, let the set-up settle, re-zero and retake"})
@@ -88,6 +90,16 @@ var (
 	CodeProbeNotAligned = entry(CatalogueEntry{Code: "generic.probe_not_aligned", Level: Raw,
 		Cause:  "every reading is low by the same factor: the probe is probably not perpendicular to the field (ρ = cos θ)",
 		Action: "turn the probe until the reading peaks, then retake"})
+)
+
+// Diagnosis codes added after the first catalogue. Append-only.
+var (
+	CodeScatterBeyond = entry(CatalogueEntry{Code: "generic.scatter_beyond_instruments", Level: Shape,
+		Cause:  "the readings disagree with each other far more than the instruments allow: part of the run was taken differently (another scale, setting or set-up)",
+		Action: "find the readings that stand apart in the plot, and retake them with one set-up and one meter scale"})
+	CodeOutlierPoint = entry(CatalogueEntry{Code: "generic.outlier_point", Level: Shape,
+		Cause:  "one reading stands far apart from the others, by no factor a known slip gives",
+		Action: "re-take this point"})
 )
 
 // finding is a candidate diagnosis with its score (higher is more likely).
@@ -104,6 +116,33 @@ type findings []finding
 func (fs *findings) add(code, evidence string, score float64, raise bool) {
 	e := catalogue[code]
 	*fs = append(*fs, finding{Diagnosis: Diagnosis{Code: code, Cause: e.Cause, Action: e.Action, Evidence: evidence}, score: score, raise: raise})
+}
+
+// addPoint records a candidate about one reading, which the action names
+// so that the group knows which point to re-take.
+func (fs *findings) addPoint(code string, r siReading, evidence string, score float64) {
+	fs.add(code, evidence, score, true)
+	d := &(*fs)[len(*fs)-1].Diagnosis
+	d.ReadingID = r.id
+	d.Action = fmt.Sprintf("%s: reading #%d", d.Action, r.seq)
+}
+
+// drop removes the candidates with the given code: a finding that explains
+// the whole run takes the place of one about a single reading.
+func (fs *findings) drop(code string) {
+	*fs = slices.DeleteFunc(*fs, func(f finding) bool { return f.Code == code })
+}
+
+// has reports whether a candidate with one of the codes was found.
+func (fs findings) has(codes ...string) bool {
+	for _, f := range fs {
+		for _, c := range codes {
+			if f.Code == c {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // matchFactor adds every signature whose factor is within tolerance of the
@@ -124,19 +163,21 @@ func (fs *findings) matchFactor(rho, uRel float64, what string, codes ...string)
 }
 
 // matchDecade adds generic.decade_slip when ρ is within tolerance of a
-// power of ten from 10⁻⁴ to 10⁴ other than 1.
-func (fs *findings) matchDecade(rho, uRel float64, what string) {
+// power of ten from 10⁻⁸ to 10⁸ other than 1, and reports whether it did.
+func (fs *findings) matchDecade(rho, uRel float64, what string) bool {
 	if rho <= 0 {
-		return
+		return false
 	}
 	tol := math.Max(2*uRel, 0.02)
 	k := math.Round(math.Log10(rho))
 	if k == 0 || math.Abs(k) > 8 {
-		return
+		return false
 	}
 	if d := math.Abs(math.Log(rho) - k*math.Ln10); d <= tol {
 		fs.add(CodeDecadeSlip, fmt.Sprintf("%s ratio %.4g ≈ 10^%d", what, rho, int(k)), 1-0.5*d/tol, true)
+		return true
 	}
+	return false
 }
 
 // ranked orders the candidates and folds ties into alternatives: a
@@ -172,46 +213,6 @@ func (fs findings) ranked() (ds []Diagnosis, raise bool) {
 		ds = append(ds, d)
 	}
 	return ds, raise
-}
-
-// outlierSlip finds one point whose value is ×10 or ×0.1 of what a line
-// through the other points predicts, and returns its index, or -1. The
-// leave-one-out prediction and scatter come from the hat values of the full
-// fit, so the check is O(n): ŷ₍ᵢ₎ = yᵢ − eᵢ/(1−hᵢᵢ), hᵢᵢ = 1/n + (xᵢ−x̄)²/Sxx
-// [pub: any regression text, leave-one-out residuals]. floor is the least
-// scatter the instruments allow.
-func outlierSlip(x, y []float64, f Fit, floor float64) int {
-	n := float64(len(x))
-	if len(x) < 4 || f.Sxx == 0 {
-		return -1
-	}
-	mx := mean(x)
-	var ssr float64
-	e := make([]float64, len(x))
-	for i := range x {
-		e[i] = y[i] - (f.Intercept + f.Slope*x[i])
-		ssr += e[i] * e[i]
-	}
-	for i := range x {
-		h := 1/n + (x[i]-mx)*(x[i]-mx)/f.Sxx
-		if h >= 1 {
-			continue
-		}
-		loo := e[i] / (1 - h)
-		want := y[i] - loo
-		// Residual variance of the fit without point i.
-		s2 := (ssr - e[i]*e[i]/(1-h)) / (n - 3)
-		sd := math.Max(math.Sqrt(math.Max(s2, 0)), floor)
-		if sd <= 0 || want == 0 || math.Abs(loo) < 5*sd {
-			continue
-		}
-		for _, fac := range []float64{10, 0.1} {
-			if math.Abs(y[i]/fac-want) < 3*sd+0.02*math.Abs(want) {
-				return i
-			}
-		}
-	}
-	return -1
 }
 
 // LevelOf returns the level of evidence of a diagnosis code.

@@ -18,10 +18,12 @@ var EOverM = &Experiment{
 			Min: 1, Max: 10000, Integer: true},
 		// A tape reading of the mean coil radius is good to about 1 % // common practice.
 		{Name: "coil_radius", Label: "coil radius R", Dim: Length, Unit: "cm", Default: 15.0, DefaultRelU: 0.01,
-			Min: 0, MinExclusive: true, Max: 1, Hint: "larger than any teaching coil pair: was it typed in cm with unit m?"},
+			Min: 0, MinExclusive: true, Max: 1, Hint: "larger than any teaching coil pair",
+			Usual: [2]float64{0.05, 0.25}}, // common practice
 		// 0 means "compute k from N and R with the Helmholtz formula".
 		{Name: "coil_constant", Label: "coil constant k", Dim: CoilConstant, Unit: "mT/A", Default: 0, DefaultRelU: 0.01,
-			Min: 0, Max: 0.1, Hint: "far above a Helmholtz pair's: was it typed in mT/A with unit T/A?"},
+			Min: 0, Max: 0.1, Hint: "far above a Helmholtz pair's",
+			Usual: [2]float64{1e-4, 5e-3}}, // 0.78 mT/A for 130 turns of 15 cm (PHYSICS.md §2(b))
 		// The diameter is read to ±1–2 mm against a scale behind the bulb
 		// // common practice (PHYSICS.md §2(b)).
 		{Name: "diameter_uncertainty", Label: "diameter reading uncertainty", Dim: Length, Unit: "mm", Default: 1,
@@ -42,21 +44,21 @@ var EOverM = &Experiment{
 	},
 	Values: []QuantitySpec{
 		{Name: "anode_voltage", Label: "anode voltage V", Dim: Voltage, Unit: "V", Min: 0, MinExclusive: true, Max: 2000,
-			Hint: "beyond any beam tube supply: was it typed in V with unit kV?", SafetyLimit: "max_anode_voltage",
+			Hint: "beyond any beam tube supply", Usual: [2]float64{100, 300}, SafetyLimit: "max_anode_voltage", Resolution: "voltage_resolution",
 			Caution: "The anode supply is above the tube's limit: switch it off. The tube runs above extra-low voltage (IEC 61140): change wiring only with the supplies off and after the instructor's check."},
 		{Name: "coil_current", Label: "coil current I", Dim: Current, Unit: "A", Min: -10, Max: 10,
-			Hint: "beyond any coil pair's rating: was it typed in mA with unit A?", SafetyLimit: "max_coil_current",
+			Hint: "beyond any coil pair's rating", Usual: [2]float64{0.5, 2}, SafetyLimit: "max_coil_current", Resolution: "current_resolution",
 			Caution: "Coil current above the pair's rating overheats the coils: turn it down."},
 		// The bulb is about 16 cm across, so no orbit is wider (from memory).
 		{Name: "beam_diameter", Label: "beam diameter d", Dim: Length, Unit: "cm", Min: 0, MinExclusive: true, Max: 0.16,
-			Hint: "wider than the bulb (about 16 cm, from memory): was it in mm typed as cm?"},
+			Hint:  "wider than the bulb (about 16 cm, from memory)",
+			Usual: [2]float64{0.03, 0.12}}, // r 1.5–6 cm (from memory, PHYSICS.md §2(b))
 		{Name: "heater_voltage", Label: "heater voltage", Dim: Voltage, Unit: "V", Min: 0, Max: 100, Optional: true,
 			SafetyLimit: "max_heater_voltage",
 			Caution:     "The heater is above its limit: turn it down at once, more than 6.3 V destroys the filament. The tube is evacuated glass: handle it gently."},
 		{Name: "reported_e_over_m", Label: "the group's own e/m", Dim: ChargeToMassRatio, Unit: "C/kg",
 			Min: math.NaN(), Max: math.NaN(), Optional: true},
 	},
-	assess: assessChargeToMass,
 }
 
 func init() { register(EOverM) }
@@ -164,30 +166,36 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance,
 		relV, relI, relR = relV+a/float64(n), relI+b/float64(n), relR+cc/float64(n)
 	}
 	meanEM := sumWX / sumW
-	uRand := math.Sqrt(1 / sumW)
+	uInstr := math.Sqrt(1 / sumW)
+	uRand := uInstr
+	var sc scatter
 	if n > 1 {
 		var chi2 float64
 		for i := range em {
 			d := (em[i] - meanEM) / uem[i]
 			chi2 += d * d
 		}
-		if s := chi2 / float64(n-1); s > 1 {
+		sc = scatter{chi2: chi2, nu: n - 1}
+		if s := sc.ratio(); s > 1 {
 			uRand *= math.Sqrt(s)
 		}
 	}
 	relK := 2 * k.RelUncertainty()
 	measured := Measurement{Value: meanEM, Uncertainty: math.Hypot(uRand, meanEM*relK)}
 	predicted := Measurement{Value: ElectronChargeToMass}
-	z, pct, v := combine(measured, predicted, tol)
+	z, pct, v, extra := judgeScatter(measured, predicted, math.Hypot(uInstr, meanEM*relK), sc, tol)
+	items := []BudgetItem{
+		{Input: "beam diameter d", RelU: relR / math.Sqrt(float64(n))},
+		{Input: "anode voltage V", RelU: relV / math.Sqrt(float64(n))},
+		{Input: "coil current I", RelU: relI / math.Sqrt(float64(n))},
+		{Input: "coil constant k", RelU: relK},
+	}
+	if extra != nil {
+		items = append(items, *extra)
+	}
 	a := Assessment{
 		Verdict: v, Measured: measured, Predicted: predicted, ResultUnit: "C/kg", ResultName: "e/m",
-		Z: z, PercentDiff: pct,
-		Budget: budget(
-			BudgetItem{Input: "beam diameter d", RelU: relR / math.Sqrt(float64(n))},
-			BudgetItem{Input: "anode voltage V", RelU: relV / math.Sqrt(float64(n))},
-			BudgetItem{Input: "coil current I", RelU: relI / math.Sqrt(float64(n))},
-			BudgetItem{Input: "coil constant k", RelU: relK},
-		),
+		Z: z, PercentDiff: pct, Budget: budget(items...), scatter: sc,
 	}
 	a.Reason = fmt.Sprintf("e/m %s vs %.5g C/kg (CODATA 2022) (%+.1f %%, z = %+.1f), %d readings",
 		FormatMeasurement(measured.Value, measured.Uncertainty, "C/kg"), ElectronChargeToMass, pct, z, n)
@@ -224,15 +232,105 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance,
 			fs.add(CodeBeamTilt, fmt.Sprintf("e/m / CODATA = %.3f, as a beam tilted by about %.0f° would give", rho, math.Acos(math.Sqrt(1/rho))*180/math.Pi), 0.5, true)
 		}
 	}
-	timeAndDirection(&fs, rs, em, k.Value)
-	if n >= 5 {
-		if t := TrendT(radius, em); t < -4 && (maxOf(radius)-minOf(radius)) > 0.01 {
-			fs.add(CodeLargeOrbitsLow, fmt.Sprintf("e/m falls as the orbit grows (t = %.1f over r = %.1f–%.1f cm)", t, 100*minOf(radius), 100*maxOf(radius)), 0.8, true)
-		}
+	chargeToMassOutlier(&fs, rs, em, uem)
+	background := timeAndDirection(&fs, rs, em, uem, k.Value, v)
+	if t, crit, ok := largeOrbits(rs, radius, em, uem); ok && t < -crit && (maxOf(radius)-minOf(radius)) > 0.01 {
+		fs.add(CodeLargeOrbitsLow, fmt.Sprintf("e/m falls as the orbit grows (t = %.1f over r = %.1f–%.1f cm)", t, 100*minOf(radius), 100*maxOf(radius)), 0.8, true)
 	}
 	reportedChargeToMass(&fs, rs, em)
 	a.Notes = linearForms(rs, k.Value)
+	if background != "" {
+		// The background explains the run's scatter, and the pairs
+		// average it out: no scatter finding.
+		a.Notes, a.scatter = append(a.Notes, background), scatter{}
+	}
 	return a, fs
+}
+
+// largeOrbits fits e/m = a + b·r² (+ c·sign(I) when the run has both
+// directions, so a background does not blur it) with the readings' known
+// uncertainties, and returns b's z and its threshold (weightedModel). The
+// coils' field falls off as r² away from the centre to first order, so a
+// real loss shows in b [derived from PHYSICS.md §2(b)].
+func largeOrbits(rs []siReading, radius, em, uem []float64) (z, threshold float64, ok bool) {
+	n := len(rs)
+	if n < 5 {
+		return 0, 0, false
+	}
+	one, r2, dir := make([]float64, n), make([]float64, n), make([]float64, n)
+	var pos, neg int
+	for i, r := range rs {
+		one[i], r2[i] = 1, radius[i]*radius[i]
+		if r.v("coil_current") >= 0 {
+			dir[i] = 1
+			pos++
+		} else {
+			dir[i] = -1
+			neg++
+		}
+	}
+	cols := [][]float64{one, r2}
+	if pos >= 2 && neg >= 2 && n >= 6 {
+		cols = append(cols, dir)
+	}
+	coef, se, crit, err := weightedModel(cols, em, uem)
+	if err != nil || !(se[1] > 0) {
+		return 0, 0, false
+	}
+	return coef[1] / se[1], crit, true
+}
+
+// chargeToMassOutlier looks for one reading whose e/m stands apart from the
+// others' and names the value whose slipped decimal explains it: e/m =
+// 2V/(k·I·d/2)² moves ×10^j with V typed ×10^j, and ×10^(−2j) with I or d
+// typed ×10^j [derived from PHYSICS.md §2(b)]. Between I and d, the one
+// whose corrected value falls among the others' values is named.
+func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) {
+	relU := make([]float64, len(em))
+	for i := range em {
+		relU[i] = uem[i] / em[i]
+	}
+	o, ok := loneOutlier(em, relU)
+	if !ok {
+		return
+	}
+	r := rs[o.i]
+	tol := slipTolerance(o.sigma)
+	type slip struct {
+		name, label, unit string
+		power             float64 // e/m ∝ value^power
+	}
+	best, bestMiss := -1.0, math.Inf(1)
+	var bestSlip slip
+	for _, s := range []slip{{"anode_voltage", "anode voltage", "V", 1}, {"coil_current", "coil current", "A", -2}, {"beam_diameter", "beam diameter", "m", -2}} {
+		// The factor the value was typed with, if e/m's factor came from it.
+		f, ok := slipFactor(math.Pow(o.factor, 1/s.power), tol/math.Abs(s.power))
+		if !ok {
+			continue
+		}
+		var others []float64
+		for j, x := range rs {
+			if j != o.i {
+				others = append(others, math.Abs(x.v(s.name)))
+			}
+		}
+		// How far the corrected value sits from the others' middle, in
+		// logarithms: the slipped value comes back among them.
+		miss := math.Abs(math.Log(math.Abs(r.v(s.name)) / f / median(others)))
+		if miss < bestMiss {
+			best, bestMiss, bestSlip = f, miss, s
+		}
+	}
+	if best > 0 {
+		v := math.Abs(r.v(bestSlip.name))
+		fs.addPoint(CodeDecimalSlipPoint, r, fmt.Sprintf("reading #%d: e/m %.3g C/kg, ×%.3g the others' %.4g; its %s %.4g %s looks typed ×%g (%.4g %s would fit)",
+			r.seq, em[o.i], o.factor, o.want, bestSlip.label, v, bestSlip.unit, best, v/best, bestSlip.unit), 0.9)
+		return
+	}
+	if !o.restBeyond {
+		fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: e/m %.3g C/kg, ×%.3g the others' %.4g (%.0f standard uncertainties apart)",
+			r.seq, em[o.i], o.factor, o.want, math.Abs(o.z)), 0.75)
+	}
 }
 
 // linearForms fits the experiment's two straight-line forms where the
@@ -308,10 +406,14 @@ func sortedFloatKeys[V any](m map[float64]V) []float64 {
 // background field along the axis are told apart. With a background B_bg,
 // e/m computed from k·|I| alone is high one way and low the other:
 // √(e/m₊/e/m₋) = (kI + B_bg)/(kI − B_bg) [derived from PHYSICS.md §2(b)].
-func timeAndDirection(fs *findings, rs []siReading, em []float64, k float64) {
+// A group that took every point both ways has averaged the background out:
+// it is returned as a note, not a finding. A group that took one way only
+// cannot average it: then 1/r against I shows it as an intercept
+// (oneWayBackground).
+func timeAndDirection(fs *findings, rs []siReading, em, uem []float64, k float64, judged Verdict) (note string) {
 	n := len(rs)
 	if n < 5 {
-		return
+		return ""
 	}
 	one := make([]float64, n)
 	order := make([]float64, n)
@@ -333,27 +435,98 @@ func timeAndDirection(fs *findings, rs []siReading, em []float64, k float64) {
 	if pos >= 2 && neg >= 2 {
 		cols = append(cols, dir)
 	}
-	coef, se, err := FitModel(cols, em)
+	coef, se, crit, err := weightedModel(cols, em, uem)
 	if err != nil {
-		return
+		return ""
 	}
-	if se[1] > 0 && math.Abs(coef[1]/se[1]) > 4 {
+	if se[1] > 0 && math.Abs(coef[1]/se[1]) > crit {
 		fs.add(CodeDrift, fmt.Sprintf("e/m changes by %+.2g C/kg per reading (t = %+.1f)", coef[1], coef[1]/se[1]), 0.8, true)
 	}
-	if len(coef) == 3 && se[2] > 0 && math.Abs(coef[2]/se[2]) > 3 {
-		ep, en := coef[0]+coef[2], coef[0]-coef[2]
-		if en <= 0 {
-			return
+	if len(coef) < 3 {
+		if pos == 0 || neg == 0 {
+			oneWayBackground(fs, rs, em, kI, judged != Consistent)
 		}
-		s := math.Sqrt(ep / en)
-		bg := median(kI) * (s - 1) / (s + 1)
-		// Below about 10 µT the bias on e/m stays under 3 %, inside a
-		// teaching lab's uncertainty // common practice.
-		if math.Abs(bg) < 10e-6 {
-			return
+		return ""
+	}
+	if !(se[2] > 0) || math.Abs(coef[2]/se[2]) <= crit {
+		return ""
+	}
+	ep, en := coef[0]+coef[2], coef[0]-coef[2]
+	if en <= 0 {
+		return ""
+	}
+	s := math.Sqrt(ep / en)
+	bg := median(kI) * (s - 1) / (s + 1)
+	// Below about 10 µT the bias on e/m stays under 3 %, inside a
+	// teaching lab's uncertainty // common practice.
+	if math.Abs(bg) < 10e-6 {
+		return ""
+	}
+	evidence := fmt.Sprintf("e/m one way %.4g, the other way %.4g C/kg (t = %.1f): about %.0f µT along the axis",
+		ep, en, coef[2]/se[2], bg*1e6)
+	if bothWays(rs) {
+		return "background along the axis: " + evidence + "; every point was taken both ways, so it averages out"
+	}
+	fs.add(CodeBackgroundAxial, evidence, 0.9, true)
+	return ""
+}
+
+// bothWays reports whether every reading has a partner with the current
+// reversed at about the same current (2 %) and voltage (5 %) // common
+// practice: the pairs that average a background out.
+func bothWays(rs []siReading) bool {
+	used := make([]bool, len(rs))
+	for i, a := range rs {
+		if used[i] {
+			continue
 		}
-		fs.add(CodeBackgroundAxial, fmt.Sprintf("e/m one way %.4g, the other way %.4g C/kg (t = %.1f): about %.0f µT along the axis",
-			ep, en, coef[2]/se[2], bg*1e6), 0.9, true)
+		found := false
+		for j := i + 1; j < len(rs) && !found; j++ {
+			b := rs[j]
+			Ia, Ib := a.v("coil_current"), b.v("coil_current")
+			if used[j] || Ia*Ib >= 0 || math.Abs(Ia+Ib) > 0.02*math.Abs(Ia) ||
+				math.Abs(a.v("anode_voltage")-b.v("anode_voltage")) > 0.05*a.v("anode_voltage") {
+				continue
+			}
+			used[i], used[j], found = true, true, true
+		}
+		if !found {
+			return false
+		}
+	}
+	return true
+}
+
+// oneWayBackground looks for a background along the axis in a run taken
+// with the current one way only, which cannot average it out. With a
+// background B_bg, e/m from k·|I| alone is e/m·((k|I| + B_bg)/k|I|)², so
+// √(e/m_i) = √(e/m)·(1 + B_bg/(k|I_i|)): a line in 1/(k|I|) whose slope over
+// intercept is B_bg [derived from PHYSICS.md §2(b)]. A slope significant by
+// Student's t names the background outright; otherwise, when the mean e/m
+// is judged off, or check, by what a background of the Earth's size would give (up to 70 µT:
+// the Earth's field is 22–67 µT [pub: World Magnetic Model, from memory]),
+// it is offered as a candidate with less weight.
+func oneWayBackground(fs *findings, rs []siReading, em, kI []float64, off bool) {
+	x := make([]float64, len(rs))
+	y := make([]float64, len(rs))
+	for i := range rs {
+		x[i] = 1 / kI[i]
+		y[i] = math.Sqrt(em[i])
+	}
+	f, err := FitLine(x, y)
+	if err != nil || !(f.Intercept > 0) {
+		return
+	}
+	if bg := f.Slope / f.Intercept; f.SlopeSE > 0 && math.Abs(f.Slope/f.SlopeSE) > tShape(len(rs)-2) && math.Abs(bg) >= 10e-6 {
+		fs.add(CodeBackgroundAxial, fmt.Sprintf("every reading has the current one way, and e/m grows with 1/I as a background of %.0f µT along the axis gives (t = %.1f); reversing the current would average it out",
+			bg*1e6, f.Slope/f.SlopeSE), 0.9, true)
+		return
+	}
+	rho := median(em) / ElectronChargeToMass
+	bg := median(kI) * (math.Sqrt(rho) - 1)
+	if off && math.Abs(bg) >= 10e-6 && math.Abs(bg) <= 70e-6 {
+		fs.add(CodeBackgroundAxial, fmt.Sprintf("every reading has the current one way; e/m / CODATA = %.3f is what a background of %.0f µT along the axis gives",
+			rho, bg*1e6), 0.7, true)
 	}
 }
 

@@ -3,10 +3,10 @@ package domain
 import (
 	"fmt"
 	"math"
-	"regexp"
 	"sort"
 	"strings"
 	"time"
+	"unicode"
 	"unicode/utf8"
 )
 
@@ -185,8 +185,12 @@ type QuantitySpec struct {
 	MinExclusive bool
 	// Integer requires a whole number (turns).
 	Integer bool
-	// Hint explains Max to the person who typed past it.
+	// Hint explains Max to the person who typed past it; the likeliest
+	// unit slip for the value they typed is added to it (slipHint).
 	Hint string
+	// Usual is the range, in SI, that a teaching set-up usually gives:
+	// a value typed past Max is matched against it to name the unit slip.
+	Usual [2]float64
 	// Optional values may be left out of a reading.
 	Optional bool
 	// SafetyLimit names the bench constant that caps this value; a reading
@@ -194,6 +198,11 @@ type QuantitySpec struct {
 	SafetyLimit string
 	// Caution is shown with an unsafe reading of this value.
 	Caution string
+	// Resolution names the bench constant that is the resolution of the
+	// meter this value is read on: a reading past SafetyLimit by no more
+	// than that is at the limit (a caution), not above it. Empty: none, the
+	// limit is strict.
+	Resolution string
 }
 
 // Experiment is one kind of bench work: what the instructor sets, what the
@@ -205,16 +214,19 @@ type Experiment struct {
 	Values    []QuantitySpec
 	// MinReadings is how many readings the first verdict needs.
 	MinReadings int
-	// assess judges the converted readings; with plot it also builds the
-	// Assessment's Plot, which only the bench detail draws.
-	assess func(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings)
 }
+
+// judge judges an experiment's converted readings; with plot it also builds
+// the Assessment's Plot, which only the bench detail draws.
+type judge func(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings)
 
 // siReading is a reading converted to SI.
 type siReading struct {
 	values siValues
 	at     time.Time
 	id     string
+	// seq is the reading's number as the dashboard and station show it.
+	seq uint64
 }
 
 // has reports whether the reading carries the optional value name.
@@ -313,8 +325,13 @@ func (s QuantitySpec) check(fieldOf func() string, q Quantity, vs *violations) (
 	}
 	if !math.IsNaN(s.Max) && m.Value > s.Max {
 		reason := fmt.Sprintf("%s must be ≤ %g %s, got %g %s", s.Label, s.Max, siUnit(s.Dim), q.Value, q.Unit)
-		if s.Hint != "" {
-			reason += " (" + s.Hint + ")"
+		hint := s.Hint
+		if slip := s.slipHint(q); slip != "" {
+			hint = strings.TrimRight(hint+": "+slip, " ")
+			hint = strings.TrimPrefix(hint, ": ")
+		}
+		if hint != "" {
+			reason += " (" + hint + ")"
 		}
 		vs.add(field+".value", "%s", reason)
 		ok = false
@@ -355,7 +372,21 @@ func siUnit(d Dimension) string {
 	return ""
 }
 
-var labelPattern = regexp.MustCompile(`^[\p{L}\p{N}][\p{L}\p{N} ._-]*$`)
+// validLabel reports whether a bench label is letters and digits (any
+// script), spaces, '.', '_' and '-', starting with a letter or digit. A
+// loop, not a regular expression: the dashboard's build links this package,
+// and regexp would be its only user there.
+func validLabel(l string) bool {
+	for i, r := range l {
+		switch {
+		case unicode.IsLetter(r) || unicode.IsNumber(r):
+		case i > 0 && (r == ' ' || r == '.' || r == '_' || r == '-'):
+		default:
+			return false
+		}
+	}
+	return l != ""
+}
 
 // Grid limits: a teaching lab is far smaller, so larger numbers are typing
 // mistakes // common practice.
@@ -370,7 +401,7 @@ const (
 // field path in the request, such as "benches[3]".
 func ValidateBench(prefix string, b Bench) (Bench, error) {
 	var vs violations
-	if !utf8.ValidString(b.Label) || !labelPattern.MatchString(b.Label) || utf8.RuneCountInString(b.Label) > maxLabelLen {
+	if !utf8.ValidString(b.Label) || !validLabel(b.Label) || utf8.RuneCountInString(b.Label) > maxLabelLen {
 		vs.add(prefix+".label", "must be 1–%d letters, digits, spaces, '.', '_' or '-', starting with a letter or digit; got %q", maxLabelLen, b.Label)
 	}
 	if b.Row < 0 || b.Row >= MaxGridRows {
@@ -408,13 +439,22 @@ func ValidateBench(prefix string, b Bench) (Bench, error) {
 
 // ValidateReadingID checks a client-generated reading id.
 func ValidateReadingID(field, id string) error {
-	if id == "" || len(id) > 64 || !readingIDPattern.MatchString(id) {
+	if id == "" || len(id) > 64 || !validReadingID(id) {
 		return Invalid(field, "must be 1–64 characters of letters, digits, '-' or '_'; got %q", id)
 	}
 	return nil
 }
 
-var readingIDPattern = regexp.MustCompile(`^[A-Za-z0-9_-]+$`)
+// validReadingID reports whether an id is ASCII letters, digits, '-' and '_'.
+func validReadingID(id string) bool {
+	for i := 0; i < len(id); i++ {
+		c := id[i]
+		if !('a' <= c && c <= 'z' || 'A' <= c && c <= 'Z' || '0' <= c && c <= '9' || c == '-' || c == '_') {
+			return false
+		}
+	}
+	return id != ""
+}
 
 // ValidateReading checks one reading's values for the bench's experiment.
 // prefix is the field path of the values map, such as "values".

@@ -36,13 +36,18 @@ func fieldConstants() []QuantitySpec {
 		// 2 % // common practice.
 		{Name: "meter_accuracy", Label: "gaussmeter accuracy (fraction of reading)", Dim: Dimensionless, Unit: "1", Default: 0.02,
 			Min: 0, Max: 0.5},
+		// The current's meter; it tells a reading at the current limit from
+		// one above it.
+		{Name: "current_resolution", Label: "ammeter resolution", Dim: Current, Unit: "A", Default: 0.01,
+			Min: 0, MinExclusive: true, Max: 1},
 	}
 }
 
 // assessFieldPoints fits ρ and runs the diagnoses every field experiment
 // shares. modelRelU is the relative uncertainty of the theory from the bench
-// constants (common to every point).
-func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what string, plot bool) (Assessment, findings, bool) {
+// constants (common to every point); fieldUnit is the unit the bench's
+// meter reads the field in, which a unit slip most likely starts from.
+func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what, fieldUnit string, plot bool) (Assessment, findings, bool) {
 	x := make([]float64, len(pts))
 	y := make([]float64, len(pts))
 	u := make([]float64, len(pts))
@@ -50,16 +55,24 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what 
 		x[i], y[i] = p.theory, p.measured
 		u[i] = math.Hypot(p.u, math.Abs(p.measured)*p.theoryRelU)
 	}
-	rho, se, _, err := FitRatio(x, y, u)
+	rho, se, chi2nu, err := FitRatio(x, y, u)
 	if err != nil {
 		return Assessment{Verdict: NeedData, Reason: "no reading has a theory value yet: check currents and positions"}, nil, false
 	}
+	sc := scatter{chi2: chi2nu * float64(len(pts)-1), nu: len(pts) - 1}
 	measured := Measurement{Value: rho, Uncertainty: se}
 	predicted := Measurement{Value: 1, Uncertainty: modelRelU}
-	z, pct, v := combine(measured, predicted, tol)
+	// FitRatio scaled se up by √(χ²/ν) when the scatter exceeds the
+	// readings' uncertainties; unscaled, it is what the instruments allow.
+	z, pct, v, extra := judgeScatter(measured, predicted, se/math.Sqrt(math.Max(1, chi2nu)), sc, tol)
+	fitRelU := se / math.Abs(rho)
+	items := []BudgetItem{{Input: "field readings (fit)", RelU: fitRelU}, {Input: "bench constants", RelU: modelRelU}}
+	if extra != nil {
+		items[0].RelU = math.Sqrt(math.Max(0, fitRelU*fitRelU-extra.RelU*extra.RelU))
+		items = append(items, *extra)
+	}
 	a := Assessment{Verdict: v, Measured: measured, Predicted: predicted, ResultUnit: "1", ResultName: "B/B_theory",
-		Z: z, PercentDiff: pct,
-		Budget: budget(BudgetItem{Input: "field readings (fit)", RelU: se / math.Abs(rho)}, BudgetItem{Input: "bench constants", RelU: modelRelU})}
+		Z: z, PercentDiff: pct, Budget: budget(items...)}
 	a.Reason = fmt.Sprintf("%s: B/B_theory %s (%+.1f %%, z = %+.1f), %d readings",
 		what, FormatMeasurement(rho, se, ""), pct, z, len(pts))
 
@@ -76,36 +89,42 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what 
 	uRel := math.Hypot(se/math.Abs(rho), modelRelU)
 	if v != Consistent {
 		fs.matchFactor(rho, uRel, "B/B_theory", CodeSignReversed)
-		fs.matchDecade(rho, uRel, "B/B_theory")
-	}
-	// Point by point, for shape checks.
-	ratios := make([]float64, len(pts))
-	order := make([]float64, len(pts))
-	for i, p := range pts {
-		ratios[i] = p.measured / p.theory
-		order[i] = float64(i)
-	}
-	if len(pts) >= 4 {
-		// The median and MAD barely move when one point is left out, so the
-		// whole set's serve every point: O(n log n), not O(n² log n).
-		med := median(ratios)
-		spread := math.Max(mad(ratios), 0.02*math.Abs(med))
-		for i, r := range ratios {
-			if math.Abs(r-med) <= 5*spread {
-				continue
-			}
-			for _, f := range []float64{10, 0.1} {
-				if math.Abs(r/f-med) < 3*spread {
-					fs.add(CodeDecimalSlipPoint, fmt.Sprintf("reading %d: B/B_theory %.3g while the others give %.3g", i+1, r, med), 0.9, true)
-				}
+		if fs.matchDecade(rho, uRel, "B/B_theory") {
+			d := &fs[len(fs)-1].Diagnosis
+			if slip := decadeSlipUnits(MagneticField, fieldUnit, int(math.Round(math.Log10(rho)))); slip != "" {
+				d.Evidence += ": a field in " + slip
 			}
 		}
 	}
+	// Point by point, for shape checks.
+	ratios := make([]float64, len(pts))
+	relU := make([]float64, len(pts))
+	order := make([]float64, len(pts))
+	for i, p := range pts {
+		ratios[i] = p.measured / p.theory
+		relU[i] = u[i] / math.Abs(p.measured)
+		order[i] = float64(i)
+	}
+	if o, ok := loneOutlier(ratios, relU); ok {
+		r := pts[o.i].reading
+		if f, ok := slipFactor(o.factor, slipTolerance(o.sigma)); ok {
+			fs.addPoint(CodeDecimalSlipPoint, r, fmt.Sprintf("reading #%d: B/B_theory %.3g while the others give %.3g: ×%g, a decimal point slipped in the field",
+				r.seq, ratios[o.i], o.want, f), 0.9)
+		} else if !o.restBeyond {
+			fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: B/B_theory %.3g while the others give %.3g (×%.3g, %.0f standard uncertainties apart)",
+				r.seq, ratios[o.i], o.want, o.factor, math.Abs(o.z)), 0.75)
+		}
+	}
 	if len(pts) >= 6 {
-		// A drift must be real (t > 4) and matter: more than 5 % over the run.
-		if g, err := FitLine(order, ratios); err == nil && g.SlopeSE > 0 && math.Abs(g.Slope/g.SlopeSE) > 4 &&
+		// A drift must be real (weightedTrend) and matter: more than 5 %
+		// over the run // common practice.
+		uRatio := make([]float64, len(pts))
+		for i := range pts {
+			uRatio[i] = relU[i] * math.Abs(ratios[i])
+		}
+		g, err := FitLine(order, ratios)
+		if t, crit, ok := weightedTrend(order, ratios, uRatio); ok && err == nil && math.Abs(t) > crit &&
 			math.Abs(g.Slope)*float64(len(pts)-1) > 0.05*math.Abs(median(ratios)) {
-			t := g.Slope / g.SlopeSE
 			fs.add(CodeDrift, fmt.Sprintf("B/B_theory trends with reading order (t = %+.1f)", t), 0.6, true)
 		}
 		var ss, us float64
@@ -118,6 +137,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what 
 			fs.add(CodeTooGood, fmt.Sprintf("the readings scatter %.2g of what the meter allows", math.Sqrt(ss/float64(len(pts)-1))/math.Sqrt(us/float64(len(pts)))), 0.55, false)
 		}
 	}
+	a.scatter = sc
 	return a, fs, true
 }
 

@@ -30,17 +30,18 @@ var simulators = map[string]struct {
 	mistakes []string
 }{
 	"coil_force": {simCoilForce, []string{CodeSensorNotZeroed, CodeLengthDoubled, CodeTurnsMismatch, CodeFieldProbeTilted,
-		CodeNonlinear, CodeSignReversed, CodeDecadeSlip, CodeDecimalSlipPoint, CodeDrift, CodeTooGood, CodeTurnsLeftOut, CodeBothSegments}},
+		CodeNonlinear, CodeSignReversed, CodeDecadeSlip, CodeDecimalSlipPoint, CodeDrift, CodeTooGood, CodeTurnsLeftOut, CodeBothSegments,
+		CodeMassAsForce, CodeScatterBeyond, CodeOutlierPoint}},
 	"e_over_m": {simEOverM, []string{CodeRadiusEntered, CodeHeaterAsAnode, CodeKSingleLoop, CodeKNoHelmholtzFactor,
 		CodeBackgroundAxial, CodeLargeOrbitsLow, CodeBeamTilt, CodeDiameterAsRadius, CodeTwoN, CodeRadiusHalvedTwice,
 		CodeSingleLoop, CodeExtraFactorTwo, CodeFactorTwoDropped, CodeHelmholtzDropped, CodeRInCm, CodeGaussAsTesla,
-		CodeMilliteslaAsTesla, CodeMu0Without4Pi, CodeHeaterInFormula, CodeDrift}},
+		CodeMilliteslaAsTesla, CodeMu0Without4Pi, CodeHeaterInFormula, CodeDrift, CodeDecimalSlipPoint, CodeOutlierPoint}},
 	"straight_wire": {simWire, []string{CodeWireBackground, CodeReversalSign, CodeTipOffset, CodeWrongScale,
 		CodeProbeNotAligned, CodeSignReversed, CodeDecadeSlip, CodeWireLoopFormula, CodeDecimalSlipPoint, CodeDrift}},
 	"solenoid": {simSolenoid, []string{CodeProbeAtEnd, CodeProbeNotAligned, CodeSignReversed, CodeDecadeSlip,
-		CodeTotalTurnsAsN, CodeNPerCm, CodeDecimalSlipPoint, CodeDrift}},
+		CodeTotalTurnsAsN, CodeNPerCm, CodeDecimalSlipPoint, CodeDrift, CodeScatterBeyond}},
 	"flat_coil": {simFlatCoil, []string{CodeCoilDiameterAsRadius, CodeProbeNotAligned, CodeSignReversed, CodeDecadeSlip,
-		CodeCoilWireFormula, CodeCoilDiameterInFormula, CodeDecimalSlipPoint}},
+		CodeCoilWireFormula, CodeCoilDiameterInFormula, CodeDecimalSlipPoint, CodeOutlierPoint}},
 }
 
 // SimulatedMistakes lists the codes Simulate can inject for an experiment.
@@ -116,6 +117,19 @@ func simCoilForce(rng *rand.Rand, mistake string) (map[string]Quantity, []map[st
 		offset = uniform(rng, 0.2, 1.5) * float64(1-2*rng.IntN(2))
 	}
 	slip := 1 + rng.IntN(10) // never the 0 A point, where ×10 changes nothing
+	// A sensor set to show kilograms, read off and typed as newtons.
+	massAsForce := mistake == CodeMassAsForce
+	// Half the run (the way down) taken after the magnet was moved on
+	// its stand, so the segment sits partly out of the gap; or one
+	// reading misread, by no factor a slip gives. Drawn only for these
+	// mistakes, so that the other runs stay as they were.
+	var moved, misread float64
+	switch mistake {
+	case CodeScatterBeyond:
+		moved = uniform(rng, 0.5, 0.7)
+	case CodeOutlierPoint:
+		misread = uniform(rng, 1.4, 2.2)
+	}
 	var out []map[string]Quantity
 	// Up in whole amperes, then down in the half steps, so a drift in
 	// time does not line up with the current.
@@ -132,6 +146,17 @@ func simCoilForce(rng *rand.Rand, mistake string) (map[string]Quantity, []map[st
 			F += 0.015 * float64(i)
 		case CodeTooGood:
 			F = turns * bSet * lengthSet / 100 * shownI // computed, not measured
+		case CodeScatterBeyond:
+			if i > 5 {
+				F = slope*moved*I + 0.004*rng.NormFloat64()
+			}
+		case CodeOutlierPoint:
+			if i == slip {
+				F *= misread
+			}
+		}
+		if massAsForce {
+			F /= StandardGravity
 		}
 		shownF := round(F, 0.001)
 		if mistake == CodeTooGood {
@@ -171,16 +196,27 @@ func simEOverM(rng *rand.Rand, mistake string) (map[string]Quantity, []map[strin
 	}
 	tilt := 0.0
 	if mistake == CodeBeamTilt {
-		tilt = uniform(rng, 12, 20) * math.Pi / 180
+		// 15–22° reads e/m 7–16 % high; a smaller tilt stays inside the
+		// 5 % band, where no judging can see it.
+		tilt = uniform(rng, 15, 22) * math.Pi / 180
+	}
+	// The point with a slipped decimal or a misread value, and which value.
+	var slip, slipValue int
+	if mistake == CodeDecimalSlipPoint || mistake == CodeOutlierPoint {
+		slip, slipValue = rng.IntN(8), rng.IntN(3)
 	}
 	var out []map[string]Quantity
 	i := 0
 	// Each point with the current one way, then the other, as a careful
-	// group does to average out a background field.
+	// group does to average out a background field; a group that leaves
+	// the background in takes them all one way, at the same currents.
 	for _, V := range []float64{150, 250} {
 		for _, I := range []float64{1.0, -1.0, 1.6, -1.6} {
 			if V == 250 {
 				I *= 1.2
+			}
+			if mistake == CodeBackgroundAxial {
+				I = math.Abs(I) * (1 + 0.15*float64(i%2))
 			}
 			em := ElectronChargeToMass
 			B := math.Abs(kTrue*I + bg)
@@ -203,6 +239,20 @@ func simEOverM(rng *rand.Rand, mistake string) (map[string]Quantity, []map[strin
 				v["beam_diameter"] = qty(round(d/2*100, 0.1), "cm")
 			case CodeHeaterAsAnode:
 				v["anode_voltage"] = qty(6.3, "V")
+			case CodeDecimalSlipPoint, CodeOutlierPoint:
+				if i == slip {
+					// ÷10 on one value: ×10 would break a limit and be
+					// refused or called unsafe, which is seen already.
+					f := 0.1
+					if mistake == CodeOutlierPoint {
+						f = uniform(rng, 0.65, 0.8) // a diameter read off the wrong mark
+						slipValue = 2
+					}
+					name := []string{"anode_voltage", "coil_current", "beam_diameter"}[slipValue]
+					q := v[name]
+					q.Value = sig3(q.Value * f)
+					v[name] = q
+				}
 			}
 			// The group's own e/m from its own recorded numbers.
 			kk := kTrue
@@ -350,6 +400,13 @@ func simSolenoid(rng *rand.Rand, mistake string) (map[string]Quantity, []map[str
 	slip := rng.IntN(6)
 	var out []map[string]Quantity
 	for i, I := range []float64{0.5, 1.0, 1.5, 2.0, 2.5, 1.2} {
+		if mistake == CodeScatterBeyond {
+			// The probe slid towards the end after the third reading.
+			z = 0
+			if i >= 3 {
+				z = L / 2
+			}
+		}
 		Ieff := I
 		if mistake == CodeDrift {
 			Ieff *= 1 - 0.03*float64(i)
@@ -360,7 +417,13 @@ func simSolenoid(rng *rand.Rand, mistake string) (map[string]Quantity, []map[str
 		}
 		shown := round(B*1e3, 0.001) // mT
 		if mistake == CodeDecimalSlipPoint && i == slip {
-			shown *= 10
+			// ÷10 where ×10 would pass the 0.1 T an air core can give, and
+			// be refused at the door instead.
+			if shown*10 < 90 {
+				shown *= 10
+			} else {
+				shown = round(shown/10, 0.001)
+			}
 		}
 		v := map[string]Quantity{"current": qty(I, "A"), "field": qty(shown, "mT")}
 		if mistake == CodeDecadeSlip {
@@ -400,6 +463,9 @@ func simFlatCoil(rng *rand.Rand, mistake string) (map[string]Quantity, []map[str
 		shown := round(B*1e3, 0.001)
 		if mistake == CodeDecimalSlipPoint && i == slip {
 			shown *= 10
+		}
+		if mistake == CodeOutlierPoint && i == slip {
+			shown = round(shown*uniform(rng, 0.4, 0.7), 0.001) // read at the wrong position
 		}
 		v := map[string]Quantity{"current": qty(p.I, "A"), "field": qty(shown, "mT"), "position": qty(p.z*100, "cm")}
 		switch mistake {

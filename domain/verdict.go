@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 	"time"
 )
@@ -81,6 +82,9 @@ type Diagnosis struct {
 	Action   string
 	// Alternatives are codes that fit the numbers about as well.
 	Alternatives []string
+	// ReadingID is the one reading the diagnosis is about, when it is
+	// about one: the reading to re-take.
+	ReadingID string
 }
 
 // Assessment is the judged state of one bench.
@@ -100,7 +104,9 @@ type Assessment struct {
 	ResultName string
 	// Budget says which inputs dominate the combined uncertainty.
 	Budget []BudgetItem
-	// Caution is the safety text for an unsafe bench.
+	// Caution is the safety text for an unsafe bench, or for a reading
+	// at a limit (within its meter's resolution) while the verdict stays
+	// the data's.
 	Caution string
 	// Plot is what the bench detail draws.
 	Plot *Plot
@@ -114,6 +120,10 @@ type Assessment struct {
 	ReadingCount    int
 	LastReadingAt   time.Time
 	ExperimentTitle string
+
+	// scatter is the run's scatter against its instruments, which the
+	// judging reports after the experiment's own findings.
+	scatter scatter
 }
 
 // Assess judges a bench from its readings. The bench must have passed
@@ -137,6 +147,9 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	if !ok {
 		return Assessment{Verdict: NeedData, Reason: fmt.Sprintf("unknown experiment %q", b.Experiment)}
 	}
+	if judges[e.ID] == nil {
+		return Assessment{Verdict: NeedData, Reason: "not judged in this build", ExperimentTitle: e.Title}
+	}
 	c, err := m.constants(e, b.Constants)
 	if err != nil {
 		return Assessment{Verdict: NeedData, Reason: "bench constants need fixing: " + err.Error(), ExperimentTitle: e.Title}
@@ -154,7 +167,11 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 		if !ok {
 			continue // rejected at submission; never stored
 		}
-		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID})
+		seq := r.Sequence
+		if seq == 0 {
+			seq = uint64(i + 1) // readings not from the store: their place
+		}
+		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID, seq: seq})
 		if r.ReceivedAt.After(last) {
 			last = r.ReceivedAt
 		}
@@ -164,7 +181,8 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 		a = Assessment{Verdict: NeedData, Reason: fmt.Sprintf("%d of %d readings needed for a first verdict", len(rs), e.MinReadings)}
 	} else {
 		var fs findings
-		a, fs = e.assess(c, rs, tol, plot)
+		a, fs = judges[e.ID](c, rs, tol, plot)
+		fs.addScatter(a.scatter)
 		ds, raise := fs.ranked()
 		a.Diagnoses = ds
 		if raise && a.Verdict == Consistent {
@@ -177,9 +195,13 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	a.ReadingCount = len(rs)
 	a.LastReadingAt = last
 	a.ExperimentTitle = e.Title
-	if reason, caution, unsafe := e.safety(c, rs); unsafe {
+	reason, caution, unsafe, atLimit := e.safety(c, rs)
+	switch {
+	case unsafe:
 		a.Verdict, a.Caution = Unsafe, caution
 		a.Reason = reason + " " + a.Reason
+	case atLimit != "":
+		a.Caution = atLimit
 	}
 	return a
 }
@@ -195,27 +217,66 @@ func alsoPossible(d Diagnosis) string {
 
 // safety checks every reading against the bench's limits. The first breach
 // found in each value is reported; any breach makes the bench unsafe,
-// whatever the data say.
-func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, caution string, unsafe bool) {
-	var reasons, cautions []string
+// whatever the data say. A reading past its limit by no more than its
+// meter's resolution is at the limit: that meter cannot tell it from the
+// limit itself, so it is a caution (atLimit), not an unsafe verdict
+// // common practice.
+func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, caution string, unsafe bool, atLimit string) {
+	var reasons, cautions, limits []string
 	for _, s := range e.Values {
 		if s.SafetyLimit == "" {
 			continue
 		}
 		limit := c[s.SafetyLimit].Value
+		var res float64
+		if s.Resolution != "" {
+			res = c[s.Resolution].Value
+		}
+		at := ""
 		for _, r := range rs {
-			if m, ok := r.values.get(s.Name); ok && math.Abs(m.Value) > limit {
-				reasons = append(reasons, fmt.Sprintf("UNSAFE: %s %.3g %s is above the bench limit of %.3g %s.", s.Label, math.Abs(m.Value), siUnit(s.Dim), limit, siUnit(s.Dim)))
-				cautions = append(cautions, s.Caution)
-				break
+			m, ok := r.values.get(s.Name)
+			if !ok || math.Abs(m.Value) <= limit {
+				continue
 			}
+			v, l := distinctDigits(math.Abs(m.Value), limit)
+			unit := siUnit(s.Dim)
+			if math.Abs(m.Value)-limit <= res {
+				if at == "" {
+					at = fmt.Sprintf("At the limit: %s %s %s (reading #%d) is at the bench limit of %s %s, within the meter's %s %s resolution.",
+						s.Label, v, unit, r.seq, l, unit, strconv.FormatFloat(res, 'g', -1, 64), unit)
+				}
+				continue
+			}
+			reasons = append(reasons, fmt.Sprintf("UNSAFE: %s %s %s (reading #%d) is above the bench limit of %s %s.", s.Label, v, unit, r.seq, l, unit))
+			cautions = append(cautions, s.Caution)
+			at = ""
+			break
+		}
+		if at != "" {
+			limits = append(limits, at+" "+s.Caution)
 		}
 	}
+	if len(limits) > 0 {
+		atLimit = strings.Join(limits, " ") + " " + safetyDeferral
+	}
 	if len(reasons) == 0 {
-		return "", "", false
+		return "", "", false, atLimit
 	}
 	cautions = append(cautions, safetyDeferral)
-	return strings.Join(reasons, " "), strings.Join(cautions, " "), true
+	return strings.Join(reasons, " "), strings.Join(cautions, " "), true, atLimit
+}
+
+// distinctDigits writes a value and the limit it passed with as many
+// significant digits as it takes to tell them apart (at least three), so a
+// message never reads "5 A is above the limit of 5 A".
+func distinctDigits(v, limit float64) (string, string) {
+	for p := 3; p < 17; p++ {
+		a, b := strconv.FormatFloat(v, 'g', p, 64), strconv.FormatFloat(limit, 'g', p, 64)
+		if a != b {
+			return a, strconv.FormatFloat(limit, 'g', -1, 64)
+		}
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64), strconv.FormatFloat(limit, 'g', -1, 64)
 }
 
 // safetyDeferral ends every caution: fluxroom's limits are reminders, not

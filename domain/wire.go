@@ -34,17 +34,16 @@ var StraightWire = &Experiment{
 	),
 	Values: []QuantitySpec{
 		{Name: "current", Label: "current I", Dim: Current, Unit: "A", Min: -100, Max: 100,
-			SafetyLimit: "max_current", Hint: "beyond any bench supply: was it typed in mA with unit A?",
+			SafetyLimit: "max_current", Resolution: "current_resolution", Hint: "beyond any bench supply", Usual: [2]float64{1, 20},
 			Caution: "The wire current is above the set-up's limit: the wire and leads get hot. Use a current-limited supply and switch off between readings."},
 		{Name: "distance", Label: "distance r", Dim: Length, Unit: "cm", Min: 0, MinExclusive: true, Max: 2,
-			Hint: "farther than any bench: was it typed in cm with unit m?"},
+			Hint: "farther than any bench", Usual: [2]float64{0.005, 0.3}},
 		{Name: "field", Label: "field B", Dim: MagneticField, Unit: "G", Min: -0.1, Max: 0.1,
-			Hint: "far above a wire's field: was it in G typed as T?"},
+			Hint: "far above a wire's field", Usual: [2]float64{1e-6, 1e-3}}, // 0.01–10 G (PHYSICS.md §2(c))
 		{Name: "field_reversed", Label: "field with the current reversed", Dim: MagneticField, Unit: "G", Min: -0.1, Max: 0.1, Optional: true},
 		{Name: "meter_range", Label: "meter range (full scale)", Dim: MagneticField, Unit: "G", Min: 0, MinExclusive: true, Max: 1, Optional: true},
 		{Name: "reported_theory", Label: "the group's own B_theory", Dim: MagneticField, Unit: "G", Min: math.NaN(), Max: math.NaN(), Optional: true},
 	},
-	assess: assessStraightWire,
 }
 
 func init() { register(StraightWire) }
@@ -91,7 +90,7 @@ func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance,
 		p.theoryRelU = ur / rr
 		pts = append(pts, p)
 	}
-	a, fs, ok := assessFieldPoints(pts, 0, tol, "wire", plot)
+	a, fs, ok := assessFieldPoints(pts, 0, tol, "wire", "G", plot)
 	if !ok {
 		return a, fs
 	}

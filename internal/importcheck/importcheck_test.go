@@ -80,3 +80,25 @@ func TestImportRules(t *testing.T) {
 		})
 	}
 }
+
+// TestBrowserBuildLeavesOutJudging: the dashboard links the domain for its
+// validation only; the file that ties experiments to their judging stays out
+// of the js build, which keeps the judging out of app.wasm.
+func TestBrowserBuildLeavesOutJudging(t *testing.T) {
+	files := func(goos, goarch string) string {
+		cmd := exec.Command("go", "list", "-f", "{{join .GoFiles \" \"}}", module+"/domain")
+		cmd.Dir = "../.."
+		cmd.Env = append(os.Environ(), "GOOS="+goos, "GOARCH="+goarch)
+		out, err := cmd.Output()
+		if err != nil {
+			t.Fatalf("go list domain for %s/%s: %v", goos, goarch, err)
+		}
+		return " " + strings.TrimSpace(string(out)) + " "
+	}
+	if js := files("js", "wasm"); strings.Contains(js, " judges.go ") || !strings.Contains(js, " judges_js.go ") {
+		t.Errorf("js/wasm build of domain has files %s; want judges_js.go and not judges.go", js)
+	}
+	if host := files("", ""); !strings.Contains(host, " judges.go ") || strings.Contains(host, " judges_js.go ") {
+		t.Errorf("host build of domain has files %s; want judges.go and not judges_js.go", host)
+	}
+}
