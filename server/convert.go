@@ -78,7 +78,7 @@ func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 	}
 	for _, d := range a.Diagnoses {
 		st.Diagnoses = append(st.Diagnoses, &pb.Diagnosis{Code: d.Code, Cause: d.Cause, Evidence: d.Evidence,
-			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String()})
+			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String(), ReadingId: d.ReadingID})
 	}
 	return st
 }

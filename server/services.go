@@ -155,8 +155,10 @@ func forStation(st *pb.BenchState, seeVerdicts bool) *pb.BenchState {
 	if seeVerdicts || st.GetVerdict() == pb.Verdict_VERDICT_UNSAFE {
 		return st
 	}
+	// A caution at a limit reaches the bench whatever the session shows.
 	return &pb.BenchState{Bench: st.GetBench(), ReadingCount: st.GetReadingCount(), LastReadingAt: st.GetLastReadingAt(),
-		ExperimentTitle: st.GetExperimentTitle(), VerdictLabel: "shown after class", Verdict: pb.Verdict_VERDICT_UNSPECIFIED}
+		ExperimentTitle: st.GetExperimentTitle(), VerdictLabel: "shown after class", Verdict: pb.Verdict_VERDICT_UNSPECIFIED,
+		Caution: st.GetCaution()}
 }
 
 func (st stationService) ListExperiments(ctx context.Context, req *pb.ListExperimentsRequest) (*pb.ListExperimentsResponse, error) {

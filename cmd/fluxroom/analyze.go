@@ -35,6 +35,8 @@ type analyzeDiagnosis struct {
 	Evidence     string   `json:"evidence"`
 	Action       string   `json:"action"`
 	Alternatives []string `json:"alternatives"`
+	// ReadingID is the reading to re-take, when the diagnosis is about one.
+	ReadingID string `json:"reading_id,omitempty"`
 }
 
 type analyzeBench struct {
@@ -89,7 +91,7 @@ func analyze(r io.Reader) (analyzeReport, error) {
 				alts = []string{}
 			}
 			ab.Diagnoses = append(ab.Diagnoses, analyzeDiagnosis{Code: d.Code, Level: domain.LevelOf(d.Code).String(), Cause: d.Cause,
-				Evidence: d.Evidence, Action: d.Action, Alternatives: alts})
+				Evidence: d.Evidence, Action: d.Action, Alternatives: alts, ReadingID: d.ReadingID})
 		}
 		rep.Benches = append(rep.Benches, ab)
 	}

@@ -49,6 +49,8 @@ type jsonDiagnosis struct {
 	Evidence     string   `json:"evidence"`
 	Action       string   `json:"action"`
 	Alternatives []string `json:"alternatives"`
+	// ReadingID is the reading to re-take, when the diagnosis is about one.
+	ReadingID string `json:"reading_id,omitempty"`
 }
 
 type jsonGrade struct {
@@ -99,7 +101,7 @@ func WriteJSON(w io.Writer, s Session) error {
 		}
 		for _, d := range a.Diagnoses {
 			alts := append([]string{}, d.Alternatives...)
-			jg.Diagnoses = append(jg.Diagnoses, jsonDiagnosis{d.Code, d.Cause, d.Evidence, d.Action, alts})
+			jg.Diagnoses = append(jg.Diagnoses, jsonDiagnosis{d.Code, d.Cause, d.Evidence, d.Action, alts, d.ReadingID})
 		}
 		if o := g.Override; o != nil {
 			jg.Grade.Override = &jsonNote{Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At, Points: o.Points}

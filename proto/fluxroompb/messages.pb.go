@@ -852,7 +852,10 @@ type Diagnosis struct {
 	// Codes that fit the numbers about as well.
 	Alternatives []string `protobuf:"bytes,5,rep,name=alternatives,proto3" json:"alternatives,omitempty"`
 	// The evidence it rests on: "raw readings", "recomputation" or "fit shape".
-	Level         string `protobuf:"bytes,6,opt,name=level,proto3" json:"level,omitempty"`
+	Level string `protobuf:"bytes,6,opt,name=level,proto3" json:"level,omitempty"`
+	// The one reading the diagnosis is about, when it is about one: the
+	// reading to re-take (a slipped decimal, a reading apart from the rest).
+	ReadingId     string `protobuf:"bytes,7,opt,name=reading_id,json=readingId,proto3" json:"reading_id,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -925,6 +928,13 @@ func (x *Diagnosis) GetAlternatives() []string {
 func (x *Diagnosis) GetLevel() string {
 	if x != nil {
 		return x.Level
+	}
+	return ""
+}
+
+func (x *Diagnosis) GetReadingId() string {
+	if x != nil {
+		return x.ReadingId
 	}
 	return ""
 }
@@ -1265,7 +1275,8 @@ type BenchState struct {
 	Predicted         *Quantity `protobuf:"bytes,9,opt,name=predicted,proto3" json:"predicted,omitempty"`
 	Z                 float64   `protobuf:"fixed64,10,opt,name=z,proto3" json:"z,omitempty"`
 	PercentDifference float64   `protobuf:"fixed64,11,opt,name=percent_difference,json=percentDifference,proto3" json:"percent_difference,omitempty"`
-	// Safety caution when the verdict is UNSAFE.
+	// Safety caution when the verdict is UNSAFE, or when a reading is at a
+	// limit within its meter's resolution (the verdict is then the data's).
 	Caution         string `protobuf:"bytes,12,opt,name=caution,proto3" json:"caution,omitempty"`
 	ExperimentTitle string `protobuf:"bytes,13,opt,name=experiment_title,json=experimentTitle,proto3" json:"experiment_title,omitempty"`
 	// What measured is: "slope", "e/m", "B/B_theory".
@@ -3621,14 +3632,16 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"supersedes\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
-	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xa3\x01\n" +
+	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xc2\x01\n" +
 	"\tDiagnosis\x12\x12\n" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x12\x14\n" +
 	"\x05cause\x18\x02 \x01(\tR\x05cause\x12\x1a\n" +
 	"\bevidence\x18\x03 \x01(\tR\bevidence\x12\x16\n" +
 	"\x06action\x18\x04 \x01(\tR\x06action\x12\"\n" +
 	"\falternatives\x18\x05 \x03(\tR\falternatives\x12\x14\n" +
-	"\x05level\x18\x06 \x01(\tR\x05level\"k\n" +
+	"\x05level\x18\x06 \x01(\tR\x05level\x12\x1d\n" +
+	"\n" +
+	"reading_id\x18\a \x01(\tR\treadingId\"k\n" +
 	"\n" +
 	"BudgetItem\x12\x14\n" +
 	"\x05input\x18\x01 \x01(\tR\x05input\x121\n" +
