@@ -31,6 +31,7 @@ func (r *Room) renderDetail() app.UI {
 	for _, id := range d.Superseded {
 		gone[id] = true
 	}
+	retake := retakeIDs(st)
 	return app.Aside().Class("detail", "v-"+verdictClass(st.GetVerdict())).ID("detail").Attr("data-bench", st.GetBench().GetLabel()).
 		Aria("label", "bench detail").
 		OnKeyDown(func(ctx app.Context, e app.Event) {
@@ -55,7 +56,7 @@ func (r *Room) renderDetail() app.UI {
 				app.If(len(st.GetDiagnoses()) == 0, app.P().Text("None found.")),
 				app.Ul().Class("diagnoses").Body(app.Range(st.GetDiagnoses()).Slice(func(i int) app.UI {
 					dg := st.GetDiagnoses()[i]
-					return app.Li().Attr("data-code", dg.Code).Body(
+					return app.Li().Attr("data-code", dg.Code).Attr("data-reading", dg.ReadingId).Body(
 						app.Strong().Text(dg.Cause),
 						app.Div().Class("evidence").Text("Evidence ("+dg.Level+"): "+dg.Evidence),
 						app.Div().Class("action").Text("Suggest: "+dg.Action),
@@ -76,7 +77,7 @@ func (r *Room) renderDetail() app.UI {
 			),
 			app.Section().Body(
 				app.H3().Text("Readings"),
-				readingsTable(d.Readings, gone),
+				readingsTable(d.Readings, gone, retake),
 				app.H3().Text("Notes"),
 				app.Ul().Class("notes").Body(app.Range(d.Notes).Slice(func(i int) app.UI {
 					n := d.Notes[i]
@@ -121,8 +122,9 @@ func plotFromPB(p *pb.Plot) *domain.Plot {
 }
 
 // readingsTable lists the readings in arrival order; a corrected reading is
-// struck through, never hidden.
-func readingsTable(rs []*pb.Reading, gone map[string]bool) app.UI {
+// struck through, never hidden; a reading a diagnosis asks to re-take is
+// marked.
+func readingsTable(rs []*pb.Reading, gone, retake map[string]bool) app.UI {
 	names := map[string]bool{}
 	for _, rd := range rs {
 		for k := range rd.Values {
@@ -155,8 +157,11 @@ func readingsTable(rs []*pb.Reading, gone map[string]bool) app.UI {
 		}
 		cells = append(cells, app.Td().Text(id))
 		tr := app.Tr().Attr("data-reading", rd.ReadingId).Body(cells...)
-		if gone[rd.ReadingId] {
+		switch {
+		case gone[rd.ReadingId]:
 			tr = tr.Class("superseded").Title("corrected by a later reading")
+		case retake[rd.ReadingId]:
+			tr = tr.Class("retake").Title("re-take this point")
 		}
 		rows = append(rows, tr)
 	}

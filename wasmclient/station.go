@@ -354,6 +354,9 @@ func (s *Station) Render() app.UI {
 		app.If(s.state != nil && s.state.GetVerdict() == pb.Verdict_VERDICT_UNSAFE,
 			app.Section().Class("unsafe-banner").ID("station-unsafe").Body(app.H2().Text("⚠ Unsafe setting"),
 				app.P().Text(s.state.GetReason()+" "+s.state.GetCaution()))),
+		app.If(s.state != nil && s.state.GetVerdict() != pb.Verdict_VERDICT_UNSAFE && s.state.GetCaution() != "",
+			app.P().Class("caution").ID("station-caution").Text(s.state.GetCaution())),
+		s.retakeOffers(),
 		app.Form().ID("reading-form").OnSubmit(s.submit).Body(append(fields,
 			s.correctionChoice(),
 			app.Button().Type("submit").ID("send").Text("Record reading"))...),
@@ -361,8 +364,46 @@ func (s *Station) Render() app.UI {
 		app.If(s.state != nil && s.state.GetReason() != "", app.P().Class("station-verdict").ID("station-verdict").
 			Text(s.state.GetVerdictLabel()+": "+s.state.GetReason())),
 		app.H2().Text("Your readings"),
-		readingsTable(s.readings, nil),
+		readingsTable(s.readings, nil, retakeIDs(s.state)),
 	)
+}
+
+// retakeOffers offers to re-take each reading a diagnosis is about (a
+// slipped decimal, a reading apart from the rest): the next reading is then
+// its correction, and the old one stays on record, struck through.
+func (s *Station) retakeOffers() app.UI {
+	var offers []app.UI
+	for _, d := range s.state.GetDiagnoses() {
+		for _, r := range s.readings {
+			if d.GetReadingId() == "" || r.ReadingId != d.GetReadingId() {
+				continue
+			}
+			id, seq := r.ReadingId, r.Sequence
+			offers = append(offers, app.Li().Body(
+				app.Span().Text(d.GetEvidence()+" "),
+				app.Button().Class("retake").Attr("data-reading", id).Text(fmt.Sprintf("Re-take reading #%d", seq)).
+					OnClick(func(ctx app.Context, e app.Event) {
+						s.correcting = id
+						app.Window().GetElementByID("reading-form").Call("scrollIntoView")
+					}),
+			))
+		}
+	}
+	return app.If(len(offers) > 0, app.Section().Class("retake-offers").ID("retake-offers").Body(
+		app.H2().Text("Re-take this point"),
+		app.Ul().Body(offers...),
+	))
+}
+
+// retakeIDs are the readings a bench's diagnoses ask to re-take.
+func retakeIDs(st *pb.BenchState) map[string]bool {
+	out := map[string]bool{}
+	for _, d := range st.GetDiagnoses() {
+		if d.GetReadingId() != "" {
+			out[d.GetReadingId()] = true
+		}
+	}
+	return out
 }
 
 // correctionChoice lets the group mark the next reading as the correction of
