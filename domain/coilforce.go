@@ -118,10 +118,7 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	// What the instruments allow one reading to scatter: resolution,
 	// repeatability and the current reading's share.
 	uAllowed := math.Hypot(uy, c["force_repeatability"].Value)
-	mx := mean(x)
-	n := float64(len(x))
-	slope := Measurement{Value: fit.Slope, Uncertainty: math.Max(fit.SlopeSE, uy/math.Sqrt(fit.Sxx))}
-	intercept := Measurement{Value: fit.Intercept, Uncertainty: math.Max(fit.InterceptSE, uy*math.Sqrt(1/n+mx*mx/fit.Sxx))}
+	slope, intercept := floorLine(fit, x, uy)
 	fit.SlopeSE, fit.InterceptSE = slope.Uncertainty, intercept.Uncertainty
 	var sc scatter
 	if len(x) > 2 {
@@ -160,8 +157,20 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	}
 
 	var fs findings
-	rho := slope.Value / pred
-	uRel := math.Hypot(slope.RelUncertainty(), predicted.RelUncertainty())
+	// One reading apart from the rest is named first; the causes that
+	// concern the whole run are then looked for without it, so that one
+	// slipped point is not read as a factor in every reading.
+	cx, cy, cslope, cintercept, cfit := x, y, slope, intercept, fit
+	if o, ok := lineOutlier(x, y, fit, uAllowed); ok {
+		fs.addLinePoint(rs, y, o, "force", "N")
+		cx, cy = without(x, o.i), without(y, o.i)
+		if g, err := FitLine(cx, cy); err == nil {
+			cfit = g
+			cslope, cintercept = floorLine(g, cx, uy)
+		}
+	}
+	rho := cslope.Value / pred
+	uRel := math.Hypot(cslope.RelUncertainty(), predicted.RelUncertainty())
 	if v != Consistent {
 		fs.matchFactor(rho, uRel, "slope/N·B·L", CodeSignReversed, CodeLengthDoubled, CodeTurnsMismatch)
 		fs.matchDecade(rho, uRel, "slope/N·B·L")
@@ -171,18 +180,18 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 			fs.add(CodeFieldProbeTilted, fmt.Sprintf("slope/N·B·L = %.3f, as a probe tilted by about %.0f° would give", rho, theta), 0.6, true)
 		}
 	}
-	if math.Abs(intercept.Value) > tShape(len(x)-2)*intercept.Uncertainty && math.Abs(intercept.Value) > zeroInterceptMin {
+	if math.Abs(cintercept.Value) > tShape(len(cx)-2)*cintercept.Uncertainty && math.Abs(cintercept.Value) > zeroInterceptMin {
 		fs.add(CodeSensorNotZeroed, fmt.Sprintf("intercept %s, expected 0; slope/N·B·L = %.3f",
-			FormatMeasurement(intercept.Value, intercept.Uncertainty, "N"), rho), 0.95, true)
+			FormatMeasurement(cintercept.Value, cintercept.Uncertainty, "N"), rho), 0.95, true)
 	}
-	if len(x) >= 5 {
-		if q, err := FitPoly(x, y, 2); err == nil && q.SE[2] > 0 {
-			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > tShape(len(x)-3) && q.ResidualSD < 0.5*fit.ResidualSD {
+	if len(cx) >= 5 {
+		if q, err := FitPoly(cx, cy, 2); err == nil && q.SE[2] > 0 {
+			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > tShape(len(cx)-3) && q.ResidualSD < 0.5*cfit.ResidualSD {
 				fs.add(CodeNonlinear, fmt.Sprintf("a curvature term of %.3g N/A² is %.0f standard errors from zero", q.Coef[2], math.Abs(t)), 0.8, true)
 			}
 		}
 	}
-	lineShape(&fs, rs, x, y, fit, uy, uAllowed, "force", "N")
+	lineShape(&fs, cx, cy, cfit, uy, uAllowed, "N")
 	reportedPrediction(&fs, rs, pred, N.Value)
 	return a, fs
 }
@@ -215,6 +224,17 @@ func (fs *findings) matchMassAsForce(rho, uRel float64, what string) {
 			fs.add(CodeMassAsForce, fmt.Sprintf("%s ratio %.4g ≈ ×%.4g: %s (gₙ = 9.80665 m/s²)", what, rho, f, how), 1-0.5*d/tol, true)
 		}
 	}
+}
+
+// floorLine is a fit's slope and intercept with their standard errors never
+// below what one reading's uncertainty uy gives: with few readings the
+// residual scatter can be small by chance.
+func floorLine(f Fit, x []float64, uy float64) (slope, intercept Measurement) {
+	mx := mean(x)
+	n := float64(len(x))
+	slope = Measurement{Value: f.Slope, Uncertainty: math.Max(f.SlopeSE, uy/math.Sqrt(f.Sxx))}
+	intercept = Measurement{Value: f.Intercept, Uncertainty: math.Max(f.InterceptSE, uy*math.Sqrt(1/n+mx*mx/f.Sxx))}
+	return slope, intercept
 }
 
 // reportedPrediction compares the group's own N·B·L with the tool's.

@@ -116,18 +116,18 @@ func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 	pts := coilPoints(c, rs, func(I, z float64) float64 { return solenoidField(N, L.Value, R.Value, I, z) })
 	// Near the centre B ∝ 1/L to first order; R enters only the small
 	// end correction, so L dominates the model's uncertainty.
-	a, fs, ok := assessFieldPoints(pts, L.RelUncertainty(), tol, "solenoid", "mT", plot)
+	a, fs, run, ok := assessFieldPoints(pts, L.RelUncertainty(), tol, "solenoid", "mT", plot)
 	if !ok {
 		return a, fs
 	}
-	rho := a.Measured.Value
+	rho := run.rho.Value
 	if a.Verdict != Consistent {
 		end := solenoidField(N, L.Value, R.Value, 1, L.Value/2) / solenoidField(N, L.Value, R.Value, 1, 0)
-		tol := math.Max(2*a.Measured.RelUncertainty(), 0.03)
+		tol := math.Max(2*run.rho.RelUncertainty(), 0.03)
 		if d := math.Abs(math.Log(rho / end)); rho > 0 && d <= tol {
 			fs.add(CodeProbeAtEnd, fmt.Sprintf("B/B_theory = %.3f, and B(end)/B(centre) = %.3f for this solenoid", rho, end), 1-0.4*d/tol, true)
 		}
-		if len(fs) == 0 {
+		if fs.onlyPoints() {
 			probeNotAligned(&fs, rho, nil, nil)
 		}
 	}
@@ -152,15 +152,15 @@ func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	N, R := c["turns"].Value, c["radius"]
 	pts := coilPoints(c, rs, func(I, z float64) float64 { return coilField(N, R.Value, I, z) })
-	a, fs, ok := assessFieldPoints(pts, R.RelUncertainty(), tol, "flat coil", "mT", plot)
+	a, fs, run, ok := assessFieldPoints(pts, R.RelUncertainty(), tol, "flat coil", "mT", plot)
 	if !ok {
 		return a, fs
 	}
-	rho := a.Measured.Value
+	rho := run.rho.Value
 	if a.Verdict != Consistent {
 		// If R is really the diameter, the true theory uses R/2.
 		var f []float64
-		for _, p := range pts {
+		for _, p := range run.pts {
 			var z float64
 			if p.reading.has("position") {
 				z = p.reading.v("position")
@@ -168,14 +168,14 @@ func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 			f = append(f, coilField(N, R.Value/2, p.reading.v("current"), z)/p.theory)
 		}
 		want := median(f)
-		tol := math.Max(2*a.Measured.RelUncertainty(), 0.03)
+		tol := math.Max(2*run.rho.RelUncertainty(), 0.03)
 		if d := math.Abs(math.Log(rho / want)); rho > 0 && d <= tol {
 			// R/2 also explains why the ratio changes along the axis, which
 			// can make the reading farthest out look like an outlier.
 			fs.drop(CodeOutlierPoint)
 			fs.add(CodeCoilDiameterAsRadius, fmt.Sprintf("B/B_theory = %.3f, and R/2 would give ×%.3f", rho, want), 1-0.4*d/tol, true)
 		}
-		if len(fs) == 0 {
+		if fs.onlyPoints() {
 			probeNotAligned(&fs, rho, nil, nil)
 		}
 	}

@@ -133,6 +133,17 @@ func (fs *findings) drop(code string) {
 	*fs = slices.DeleteFunc(*fs, func(f finding) bool { return f.Code == code })
 }
 
+// onlyPoints reports whether every candidate so far is about one reading
+// (or there is none): nothing yet explains the run as a whole.
+func (fs findings) onlyPoints() bool {
+	for _, f := range fs {
+		if f.ReadingID == "" {
+			return false
+		}
+	}
+	return true
+}
+
 // has reports whether a candidate with one of the codes was found.
 func (fs findings) has(codes ...string) bool {
 	for _, f := range fs {

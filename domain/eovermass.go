@@ -213,10 +213,21 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance,
 	}
 
 	var fs findings
-	rho := meanEM / ElectronChargeToMass
-	uRel := measured.RelUncertainty()
+	// One reading apart from the rest is named first; the causes that
+	// concern the whole run are then looked for without it, so that one
+	// slipped value is not read as a factor in every reading.
+	rho, uRel := meanEM/ElectronChargeToMass, measured.RelUncertainty()
+	crs, cem, cuem, cradius := rs, em, uem, radius
+	if i := chargeToMassOutlier(&fs, rs, em, uem); i >= 0 {
+		crs, cem, cuem, cradius = without(rs, i), without(em, i), without(uem, i), without(radius, i)
+		var w, wx float64
+		for j := range cem {
+			w, wx = w+1/(cuem[j]*cuem[j]), wx+cem[j]/(cuem[j]*cuem[j])
+		}
+		rho, uRel = wx/w/ElectronChargeToMass, math.Hypot(math.Sqrt(1/w)/(wx/w), relK)
+	}
 	var volts []float64
-	for _, r := range rs {
+	for _, r := range crs {
 		volts = append(volts, r.v("anode_voltage"))
 	}
 	switch {
@@ -224,18 +235,18 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance,
 		// Tube anodes run at 100–300 V (from memory); a few volts is the heater.
 		fs.add(CodeHeaterAsAnode, fmt.Sprintf("anode voltage %.3g V, where tubes run at 100–300 V", median(volts)), 1, true)
 	case v != Consistent:
+		before := len(fs)
 		fs.matchFactor(rho, uRel, "e/m / CODATA", CodeRadiusEntered, CodeKSingleLoop, CodeKNoHelmholtzFactor)
-		if len(fs) == 0 {
+		if len(fs) == before {
 			fs.matchDecade(rho, uRel, "e/m / CODATA")
 		}
 		if rho > 1.02 && rho < 1.25 {
 			fs.add(CodeBeamTilt, fmt.Sprintf("e/m / CODATA = %.3f, as a beam tilted by about %.0f° would give", rho, math.Acos(math.Sqrt(1/rho))*180/math.Pi), 0.5, true)
 		}
 	}
-	chargeToMassOutlier(&fs, rs, em, uem)
-	background := timeAndDirection(&fs, rs, em, uem, k.Value, v)
-	if t, crit, ok := largeOrbits(rs, radius, em, uem); ok && t < -crit && (maxOf(radius)-minOf(radius)) > 0.01 {
-		fs.add(CodeLargeOrbitsLow, fmt.Sprintf("e/m falls as the orbit grows (t = %.1f over r = %.1f–%.1f cm)", t, 100*minOf(radius), 100*maxOf(radius)), 0.8, true)
+	background := timeAndDirection(&fs, crs, cem, cuem, k.Value, v)
+	if t, crit, ok := largeOrbits(crs, cradius, cem, cuem); ok && t < -crit && (maxOf(cradius)-minOf(cradius)) > 0.01 {
+		fs.add(CodeLargeOrbitsLow, fmt.Sprintf("e/m falls as the orbit grows (t = %.1f over r = %.1f–%.1f cm)", t, 100*minOf(cradius), 100*maxOf(cradius)), 0.8, true)
 	}
 	reportedChargeToMass(&fs, rs, em)
 	a.Notes = linearForms(rs, k.Value)
@@ -284,15 +295,16 @@ func largeOrbits(rs []siReading, radius, em, uem []float64) (z, threshold float6
 // others' and names the value whose slipped decimal explains it: e/m =
 // 2V/(k·I·d/2)² moves ×10^j with V typed ×10^j, and ×10^(−2j) with I or d
 // typed ×10^j [derived from PHYSICS.md §2(b)]. Between I and d, the one
-// whose corrected value falls among the others' values is named.
-func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) {
+// whose corrected value falls among the others' values is named. It returns
+// the reading's index, or -1 when none stands apart.
+func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) int {
 	relU := make([]float64, len(em))
 	for i := range em {
 		relU[i] = uem[i] / em[i]
 	}
 	o, ok := loneOutlier(em, relU)
 	if !ok {
-		return
+		return -1
 	}
 	r := rs[o.i]
 	tol := slipTolerance(o.sigma)
@@ -325,12 +337,13 @@ func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) {
 		v := math.Abs(r.v(bestSlip.name))
 		fs.addPoint(CodeDecimalSlipPoint, r, fmt.Sprintf("reading #%d: e/m %.3g C/kg, ×%.3g the others' %.4g; its %s %.4g %s looks typed ×%g (%.4g %s would fit)",
 			r.seq, em[o.i], o.factor, o.want, bestSlip.label, v, bestSlip.unit, best, v/best, bestSlip.unit), 0.9)
-		return
+		return o.i
 	}
 	if !o.restBeyond {
 		fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: e/m %.3g C/kg, ×%.3g the others' %.4g (%.0f standard uncertainties apart)",
 			r.seq, em[o.i], o.factor, o.want, math.Abs(o.z)), 0.75)
 	}
+	return o.i
 }
 
 // linearForms fits the experiment's two straight-line forms where the

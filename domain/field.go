@@ -47,7 +47,7 @@ func fieldConstants() []QuantitySpec {
 // shares. modelRelU is the relative uncertainty of the theory from the bench
 // constants (common to every point); fieldUnit is the unit the bench's
 // meter reads the field in, which a unit slip most likely starts from.
-func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what, fieldUnit string, plot bool) (Assessment, findings, bool) {
+func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what, fieldUnit string, plot bool) (Assessment, findings, fieldRun, bool) {
 	x := make([]float64, len(pts))
 	y := make([]float64, len(pts))
 	u := make([]float64, len(pts))
@@ -57,7 +57,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 	}
 	rho, se, chi2nu, err := FitRatio(x, y, u)
 	if err != nil {
-		return Assessment{Verdict: NeedData, Reason: "no reading has a theory value yet: check currents and positions"}, nil, false
+		return Assessment{Verdict: NeedData, Reason: "no reading has a theory value yet: check currents and positions"}, nil, fieldRun{}, false
 	}
 	sc := scatter{chi2: chi2nu * float64(len(pts)-1), nu: len(pts) - 1}
 	measured := Measurement{Value: rho, Uncertainty: se}
@@ -86,25 +86,17 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 	}
 
 	var fs findings
-	uRel := math.Hypot(se/math.Abs(rho), modelRelU)
-	if v != Consistent {
-		fs.matchFactor(rho, uRel, "B/B_theory", CodeSignReversed)
-		if fs.matchDecade(rho, uRel, "B/B_theory") {
-			d := &fs[len(fs)-1].Diagnosis
-			if slip := decadeSlipUnits(MagneticField, fieldUnit, int(math.Round(math.Log10(rho)))); slip != "" {
-				d.Evidence += ": a field in " + slip
-			}
-		}
-	}
-	// Point by point, for shape checks.
+	// Point by point: one reading apart from the rest is named first; the
+	// causes that concern the whole run are then looked for without it, so
+	// that one slipped point is not read as a factor in every reading.
 	ratios := make([]float64, len(pts))
 	relU := make([]float64, len(pts))
-	order := make([]float64, len(pts))
 	for i, p := range pts {
 		ratios[i] = p.measured / p.theory
 		relU[i] = u[i] / math.Abs(p.measured)
-		order[i] = float64(i)
 	}
+	run := fieldRun{pts: pts, rho: Measurement{Value: rho, Uncertainty: se}}
+	cx, cy, cu, cratios, crelU := x, y, u, ratios, relU
 	if o, ok := loneOutlier(ratios, relU); ok {
 		r := pts[o.i].reading
 		if f, ok := slipFactor(o.factor, slipTolerance(o.sigma)); ok {
@@ -114,31 +106,55 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 			fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: B/B_theory %.3g while the others give %.3g (×%.3g, %.0f standard uncertainties apart)",
 				r.seq, ratios[o.i], o.want, o.factor, math.Abs(o.z)), 0.75)
 		}
+		cx, cy, cu, cratios, crelU = without(x, o.i), without(y, o.i), without(u, o.i), without(ratios, o.i), without(relU, o.i)
+		if r, se, _, err := FitRatio(cx, cy, cu); err == nil {
+			run = fieldRun{pts: without(pts, o.i), rho: Measurement{Value: r, Uncertainty: se}}
+		}
 	}
-	if len(pts) >= 6 {
+	uRel := math.Hypot(run.rho.RelUncertainty(), modelRelU)
+	if v != Consistent {
+		fs.matchFactor(run.rho.Value, uRel, "B/B_theory", CodeSignReversed)
+		if fs.matchDecade(run.rho.Value, uRel, "B/B_theory") {
+			d := &fs[len(fs)-1].Diagnosis
+			if slip := decadeSlipUnits(MagneticField, fieldUnit, int(math.Round(math.Log10(run.rho.Value)))); slip != "" {
+				d.Evidence += ": a field in " + slip
+			}
+		}
+	}
+	if n := len(cx); n >= 6 {
 		// A drift must be real (weightedTrend) and matter: more than 5 %
 		// over the run // common practice.
-		uRatio := make([]float64, len(pts))
-		for i := range pts {
-			uRatio[i] = relU[i] * math.Abs(ratios[i])
+		order := make([]float64, n)
+		uRatio := make([]float64, n)
+		for i := range order {
+			order[i] = float64(i)
+			uRatio[i] = crelU[i] * math.Abs(cratios[i])
 		}
-		g, err := FitLine(order, ratios)
-		if t, crit, ok := weightedTrend(order, ratios, uRatio); ok && err == nil && math.Abs(t) > crit &&
-			math.Abs(g.Slope)*float64(len(pts)-1) > 0.05*math.Abs(median(ratios)) {
+		g, err := FitLine(order, cratios)
+		if t, crit, ok := weightedTrend(order, cratios, uRatio); ok && err == nil && math.Abs(t) > crit &&
+			math.Abs(g.Slope)*float64(n-1) > 0.05*math.Abs(median(cratios)) {
 			fs.add(CodeDrift, fmt.Sprintf("B/B_theory trends with reading order (t = %+.1f)", t), 0.6, true)
 		}
 		var ss, us float64
-		for i := range pts {
-			r := y[i] - rho*x[i]
+		for i, p := range run.pts {
+			r := cy[i] - run.rho.Value*cx[i]
 			ss += r * r
-			us += pts[i].u * pts[i].u
+			us += p.u * p.u
 		}
-		if math.Sqrt(ss/float64(len(pts)-1)) < 0.05*math.Sqrt(us/float64(len(pts))) {
-			fs.add(CodeTooGood, fmt.Sprintf("the readings scatter %.2g of what the meter allows", math.Sqrt(ss/float64(len(pts)-1))/math.Sqrt(us/float64(len(pts)))), 0.55, false)
+		if math.Sqrt(ss/float64(n-1)) < 0.05*math.Sqrt(us/float64(n)) {
+			fs.add(CodeTooGood, fmt.Sprintf("the readings scatter %.2g of what the meter allows", math.Sqrt(ss/float64(n-1))/math.Sqrt(us/float64(n))), 0.55, false)
 		}
 	}
 	a.scatter = sc
-	return a, fs, true
+	return a, fs, run, true
+}
+
+// fieldRun is the part of a field run that the causes concerning the whole
+// run are looked for in: every reading but one that stands apart, with the
+// ratio fitted to them.
+type fieldRun struct {
+	pts []fieldPoint
+	rho Measurement
 }
 
 // probeNotAligned adds the cos θ reading when ρ is low by a factor that

@@ -470,3 +470,29 @@ func TestEveryExperimentIsJudged(t *testing.T) {
 		t.Errorf("%d judgings for %d experiments", len(judges), len(ExperimentIDs()))
 	}
 }
+
+// TestSlippedPointIsNotAFactor: one slipped force in a short coil run drags
+// the slope to about half of N·B·L, the factor of a doubled length. The
+// slipped reading is named first, and the run without it shows no factor.
+func TestSlippedPointIsNotAFactor(t *testing.T) {
+	b, err := ValidateBench("b", Bench{Label: "C1", Experiment: "coil_force"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var rs []Reading
+	for i, I := range []float64{0, 1, 2, 3, 4, 5} {
+		F := 0.48*I + 0.002*float64(i%2) // N·B·L = 0.48 N/A [derived, PHYSICS.md §2(a)]
+		if I == 2 {
+			F *= 10
+		}
+		rs = append(rs, Reading{ID: fmt.Sprintf("c1-%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
+			"current": qty(I, "A"), "force": qty(F, "N")}})
+	}
+	a := Assess(b, rs, DefaultTolerance)
+	if cs := codesOf(a); len(cs) == 0 || cs[0] != CodeDecimalSlipPoint || slicesContains(cs, CodeLengthDoubled) {
+		t.Errorf("diagnoses %v, want %s alone (%s)", cs, CodeDecimalSlipPoint, a.Reason)
+	}
+	if a.Diagnoses[0].ReadingID != "c1-2" {
+		t.Errorf("reading %q, want c1-2", a.Diagnoses[0].ReadingID)
+	}
+}

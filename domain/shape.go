@@ -6,24 +6,33 @@ import (
 	"slices"
 )
 
-// lineShape runs the shape checks every straight-line fit gets: one reading
-// apart from the line the others make (a slipped decimal, or no known
-// factor), residuals that trend with time, and scatter too small for the
-// instruments. uRes is the standard uncertainty of one y value from the
-// instruments' resolution alone, uy from everything the instruments allow
-// (resolution, repeatability, the x reading's share); names say what y is.
-func lineShape(fs *findings, rs []siReading, x, y []float64, f Fit, uRes, uy float64, yName, yUnit string) {
-	n := len(x)
-	if o, ok := lineOutlier(x, y, f, uy); ok {
-		r, want := rs[o.i], o.want
-		if sf, ok := slipFactor(o.factor, slipTolerance(o.sigma)); ok {
-			fs.addPoint(CodeDecimalSlipPoint, r, fmt.Sprintf("reading #%d: %s %.4g %s, while the other readings put it near %.4g: ×%g, a decimal point slipped",
-				r.seq, yName, y[o.i], yUnit, want, sf), 0.9)
-		} else if !o.restBeyond {
-			fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: %s %.4g %s, while the other readings put it near %.4g (%.0f standard uncertainties apart)",
-				r.seq, yName, y[o.i], yUnit, want, math.Abs(o.z)), 0.75)
-		}
+// addLinePoint adds the finding about one reading apart from the line the
+// others make (lineOutlier): a slipped decimal when its factor is a power of
+// ten, otherwise an outlier when the other readings agree with their
+// instruments. Names say what y is.
+func (fs *findings) addLinePoint(rs []siReading, y []float64, o outlier, yName, yUnit string) {
+	r, want := rs[o.i], o.want
+	if sf, ok := slipFactor(o.factor, slipTolerance(o.sigma)); ok {
+		fs.addPoint(CodeDecimalSlipPoint, r, fmt.Sprintf("reading #%d: %s %.4g %s, while the other readings put it near %.4g: ×%g, a decimal point slipped",
+			r.seq, yName, y[o.i], yUnit, want, sf), 0.9)
+	} else if !o.restBeyond {
+		fs.addPoint(CodeOutlierPoint, r, fmt.Sprintf("reading #%d: %s %.4g %s, while the other readings put it near %.4g (%.0f standard uncertainties apart)",
+			r.seq, yName, y[o.i], yUnit, want, math.Abs(o.z)), 0.75)
 	}
+}
+
+// without returns s less its element i, in a new slice.
+func without[T any](s []T, i int) []T {
+	return append(append(make([]T, 0, len(s)-1), s[:i]...), s[i+1:]...)
+}
+
+// lineShape runs the checks on a straight-line fit's residuals: a trend
+// with time, and scatter too small for the instruments. uRes is the
+// standard uncertainty of one y value from the instruments' resolution
+// alone, uy from everything the instruments allow (resolution,
+// repeatability, the x reading's share).
+func lineShape(fs *findings, x, y []float64, f Fit, uRes, uy float64, yUnit string) {
+	n := len(x)
 	if n >= 6 {
 		res := make([]float64, n)
 		order := make([]float64, n)

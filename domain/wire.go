@@ -90,24 +90,24 @@ func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance,
 		p.theoryRelU = ur / rr
 		pts = append(pts, p)
 	}
-	a, fs, ok := assessFieldPoints(pts, 0, tol, "wire", "G", plot)
+	a, fs, run, ok := assessFieldPoints(pts, 0, tol, "wire", "G", plot)
 	if !ok {
 		return a, fs
 	}
-	rho := a.Measured.Value
-	dist := make([]float64, len(pts))
-	ratios := make([]float64, len(pts))
-	for i, p := range pts {
+	rho := run.rho.Value
+	dist := make([]float64, len(run.pts))
+	ratios := make([]float64, len(run.pts))
+	for i, p := range run.pts {
 		dist[i] = p.reading.v("distance")
 		ratios[i] = p.measured / p.theory
 	}
 	if reversed >= 3 && sameSign*2 >= reversed {
-		reversalSign(&fs, pts, a.Measured.Value)
+		reversalSign(&fs, run.pts, rho)
 	}
 	if a.Verdict != Consistent {
-		wireShape(&fs, pts, c, reversed == 0)
-		wrongScale(&fs, pts, rho, a.Measured.RelUncertainty(), c["scale_ratio"].Value)
-		if len(fs) == 0 {
+		wireShape(&fs, run.pts, c, reversed == 0)
+		wrongScale(&fs, run.pts, rho, run.rho.RelUncertainty(), c["scale_ratio"].Value)
+		if fs.onlyPoints() {
 			probeNotAligned(&fs, rho, ratios, dist)
 		}
 	}

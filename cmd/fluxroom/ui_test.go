@@ -292,3 +292,49 @@ func mainThread(b *testing.B, tab context.Context) map[string]float64 {
 	}
 	return out
 }
+
+// TestRetakeThisPoint: one reading with a slipped decimal is named on the
+// instructor's detail (its row marked) and, in a session that lets stations
+// see their verdict, offered to the group to re-take; the offer makes the
+// next reading its correction.
+func TestRetakeThisPoint(t *testing.T) {
+	r := newUIRig(t, "C1")
+	if _, err := r.in.UpdateSession(context.Background(), &pb.UpdateSessionRequest{SessionId: r.sess.SessionId, StationsSeeVerdicts: true}); err != nil {
+		t.Fatal(err)
+	}
+	// N·B·L = 0.48 N/A (100 turns, 0.120 T, 4.0 cm); the force at 2 A typed
+	// with its decimal point one place off.
+	for i, I := range []float64{0, 1, 2, 3, 4, 5} {
+		F := 0.48*I + 0.002*float64(i%2)
+		if I == 2 {
+			F *= 10
+		}
+		r.submit(t, "C1", fmt.Sprintf("c1-%d", i), I, F)
+	}
+	r.do(t, "the instructor's detail names the reading",
+		chromedp.Navigate(r.url("/")),
+		chromedp.WaitVisible(chromedp.CSS(`section[data-bench="C1"][data-verdict="check"], section[data-bench="C1"][data-verdict="off"]`)),
+		chromedp.Click(chromedp.CSS(`section[data-bench="C1"]`)),
+		chromedp.WaitVisible(chromedp.CSS(`#detail li[data-code="generic.decimal_slip_point"][data-reading="c1-2"]`)),
+		chromedp.WaitVisible(chromedp.CSS(`#readings tr.retake[data-reading="c1-2"]`)),
+	)
+	screenshot(t, r.tab, "detail-retake.png")
+	r.do(t, "the station offers the re-take",
+		chromedp.Navigate(fmt.Sprintf("http://%s/station", r.p.addr)),
+		chromedp.WaitVisible(chromedp.CSS(`main.station[data-ready="true"] #join_code`)),
+		chromedp.SendKeys(chromedp.CSS(`#join_code`), r.sess.JoinCode),
+		chromedp.SendKeys(chromedp.CSS(`#bench_label`), "C1"),
+		chromedp.Click(chromedp.CSS(`#join`)),
+		chromedp.WaitVisible(chromedp.CSS(`#retake-offers button.retake[data-reading="c1-2"]`)),
+		chromedp.Click(chromedp.CSS(`#retake-offers button.retake[data-reading="c1-2"]`)),
+	)
+	var chosen string
+	for i := 0; i < 50 && chosen != "c1-2"; i++ {
+		time.Sleep(50 * time.Millisecond)
+		chosen, _ = chromedp.Run(r.tab, chromedp.Evaluate[string](`document.querySelector('#v-supersedes').value`))
+	}
+	if chosen != "c1-2" {
+		t.Errorf("after the re-take offer the next reading corrects %q, want c1-2", chosen)
+	}
+	screenshot(t, r.tab, "station-retake.png")
+}
