@@ -8,9 +8,7 @@ import (
 	"net"
 	"net/http"
 	"net/http/pprof"
-	"slices"
 	"strconv"
-	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -20,16 +18,11 @@ import (
 	"github.com/soheilhy/cmux"
 	"golang.org/x/time/rate"
 	"google.golang.org/grpc"
-	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/health"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
-	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/reflection"
-	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
-	"example.com/fluxroom/internal/export"
-	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
 )
@@ -123,6 +116,10 @@ type Server struct {
 	mu   sync.Mutex
 	mux  cmux.CMux
 	done chan struct{}
+	// shutdownOnce makes Shutdown safe to call again; shutdownErr is what
+	// the first call returned.
+	shutdownOnce sync.Once
+	shutdownErr  error
 }
 
 // maxStreamsPerConn bounds one connection's calls in flight: a station
@@ -339,8 +336,14 @@ func (s *Server) goBackground(fn func()) bool {
 
 // Shutdown ends open room streams (clients reconnect), lets unary calls in
 // flight finish until ctx ends, and closes the listener. It does not close
-// the DB.
+// the DB. It may be called more than once and from several goroutines: the
+// first call shuts down, the others wait for it and return its result.
 func (s *Server) Shutdown(ctx context.Context) error {
+	s.shutdownOnce.Do(func() { s.shutdownErr = s.shutdown(ctx) })
+	return s.shutdownErr
+}
+
+func (s *Server) shutdown(ctx context.Context) error {
 	close(s.done)
 	s.health.Shutdown()
 	s.hub.close()
@@ -400,288 +403,4 @@ func (s *Server) ShownKey() string { return s.shown }
 // that act for a station, such as the demo.
 func (s *Server) StationToken(sessionID, benchID uint64) string {
 	return s.auth.stationToken(sessionID, benchID)
-}
-
-// instructorOnly lets through HTTP requests that carry the instructor key
-// as a bearer token.
-func (s *Server) instructorOnly(h http.Handler) http.Handler {
-	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
-		tok, _ := strings.CutPrefix(r.Header.Get("Authorization"), "Bearer ")
-		if !s.auth.isInstructor(strings.TrimSpace(tok)) {
-			http.Error(w, "this needs the instructor key (Authorization: Bearer <key>)", http.StatusUnauthorized)
-			return
-		}
-		h.ServeHTTP(w, r)
-	})
-}
-
-// requestID names a call in the logs: the process's start time and a
-// counter, unique per process and free to make. A unary call's caller gets
-// it as the x-request-id header when it has log lines to find: when it
-// failed, or when every call is logged (debug level).
-func (s *Server) requestID() string {
-	return s.ridPrefix + strconv.FormatUint(s.ridNext.Add(1), 36)
-}
-
-func (s *Server) unaryErrors(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
-	start := time.Now()
-	resp, err := handler(ctx, req)
-	debug := s.log.Enabled(ctx, slog.LevelDebug)
-	// The id and its header cost every answer; one nobody will look up in
-	// the logs goes without.
-	var rid string
-	if err != nil || debug {
-		rid = s.requestID()
-		grpc.SetHeader(ctx, metadata.MD{"x-request-id": []string{rid}})
-	}
-	if err != nil {
-		err = toStatus(ctx, s.log.With("request_id", rid), info.FullMethod, err)
-	}
-	d := time.Since(start)
-	s.metrics.observe(info.FullMethod, d)
-	if debug {
-		s.log.DebugContext(ctx, "rpc", "request_id", rid, "method", info.FullMethod, "code", status.Code(err).String(), "ms", float64(d.Microseconds())/1000)
-	}
-	if status.Code(err) == codes.InvalidArgument {
-		s.metrics.rejected.Add(1)
-	}
-	return resp, err
-}
-
-func (s *Server) streamErrors(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {
-	rid := s.requestID()
-	ss.SetHeader(metadata.Pairs("x-request-id", rid))
-	log := s.log.With("request_id", rid)
-	log.DebugContext(ss.Context(), "stream opened", "method", info.FullMethod)
-	err := toStatus(ss.Context(), log, info.FullMethod, handler(srv, ss))
-	log.DebugContext(ss.Context(), "stream closed", "method", info.FullMethod, "code", status.Code(err).String())
-	return err
-}
-
-// bench loads a bench named by a request, as a field error when it is not
-// there.
-func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
-	if sessionID == 0 {
-		return domain.Bench{}, domain.Invalid("session_id", "is missing")
-	}
-	if benchID == 0 {
-		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
-	}
-	if b, ok := s.benches.get(sessionID, benchID); ok {
-		return b, nil
-	}
-	gen := s.benches.generation(sessionID)
-	b, err := s.db.Bench(sessionID, benchID)
-	if errors.Is(err, store.ErrNotFound) {
-		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
-	}
-	if err != nil {
-		return domain.Bench{}, err
-	}
-	s.benches.put(sessionID, b, gen)
-	return b, nil
-}
-
-// benchCache holds benches read from the file. Every write of a session's
-// benches calls forget, which also bumps the session's generation, so a
-// read that raced with the write is not cached.
-type benchCache struct {
-	mu  sync.RWMutex
-	m   map[[2]uint64]domain.Bench
-	gen map[uint64]uint64
-}
-
-func (c *benchCache) get(sessionID, benchID uint64) (domain.Bench, bool) {
-	c.mu.RLock()
-	defer c.mu.RUnlock()
-	b, ok := c.m[[2]uint64{sessionID, benchID}]
-	return b, ok
-}
-
-func (c *benchCache) generation(sessionID uint64) uint64 {
-	c.mu.RLock()
-	defer c.mu.RUnlock()
-	return c.gen[sessionID]
-}
-
-func (c *benchCache) put(sessionID uint64, b domain.Bench, gen uint64) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if c.gen[sessionID] != gen {
-		return
-	}
-	if c.m == nil {
-		c.m = map[[2]uint64]domain.Bench{}
-	}
-	c.m[[2]uint64{sessionID, b.ID}] = b
-}
-
-// forget drops a session's cached benches; call it after writing them.
-func (c *benchCache) forget(sessionID uint64) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if c.gen == nil {
-		c.gen = map[uint64]uint64{}
-	}
-	c.gen[sessionID]++
-	for k := range c.m {
-		if k[0] == sessionID {
-			delete(c.m, k)
-		}
-	}
-}
-
-// benchState reads a bench and its readings and judges them.
-func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.Assessment, []domain.Reading, error) {
-	if sessionID == 0 {
-		return nil, domain.Assessment{}, nil, domain.Invalid("session_id", "is missing")
-	}
-	b, rs, err := s.db.BenchReadings(sessionID, benchID)
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Assessment{}, nil, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
-	}
-	if err != nil {
-		return nil, domain.Assessment{}, nil, err
-	}
-	sess, err := s.db.Session(sessionID)
-	if err != nil {
-		return nil, domain.Assessment{}, nil, err
-	}
-	st, a, err := s.judge(sess, b, nil, rs, nil, nil)
-	if err != nil {
-		return nil, domain.Assessment{}, nil, err
-	}
-	return st, a, rs, nil
-}
-
-// session loads the session a request names, as a field error when there
-// is none.
-func (s *Server) session(id uint64) (domain.Session, error) {
-	sess, err := s.db.Session(id)
-	if errors.Is(err, store.ErrNotFound) {
-		return domain.Session{}, domain.Invalid("session_id", "no session %d", id)
-	}
-	return sess, err
-}
-
-// graded reads a whole session and grades it under its policy.
-func (s *Server) graded(id uint64) (export.Session, error) {
-	d, err := s.db.ReadSession(id)
-	if errors.Is(err, store.ErrNotFound) {
-		return export.Session{}, domain.Invalid("session_id", "no session %d", id)
-	}
-	if err != nil {
-		return export.Session{}, err
-	}
-	return export.Prepare(d)
-}
-
-// checkSupersedes makes sure a correction names an earlier reading of the
-// same bench.
-func (s *Server) checkSupersedes(sessionID, benchID uint64, readingID, supersedes string) error {
-	if err := domain.ValidateReadingID("supersedes", supersedes); err != nil {
-		return err
-	}
-	if supersedes == readingID {
-		return domain.Invalid("supersedes", "a reading cannot correct itself")
-	}
-	_, rs, err := s.db.BenchReadings(sessionID, benchID)
-	if err != nil {
-		return err
-	}
-	for _, r := range rs {
-		if r.ID == supersedes {
-			return nil
-		}
-	}
-	return domain.Invalid("supersedes", "bench %d has no reading %q to correct", benchID, supersedes)
-}
-
-// note stores an audit-log entry and republishes the bench, whose alert
-// state may have changed.
-func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
-	if _, err := s.bench(sessionID, n.BenchID); err != nil {
-		return nil, err
-	}
-	if err := domain.ValidateNote(n); err != nil {
-		return nil, err
-	}
-	if err := s.db.AppendNote(sessionID, n); err != nil {
-		return nil, err
-	}
-	if err := s.publishBench(sessionID, n.BenchID); err != nil {
-		return nil, err
-	}
-	return noteToPB(n), nil
-}
-
-// rejudgeRoom drops a session's cached room and judges every bench again,
-// after a change that affects them all (the tolerance profile).
-func (s *Server) rejudgeRoom(sessionID uint64) error {
-	mu := s.hub.sessionLock(sessionID)
-	mu.Lock()
-	s.rooms.drop(sessionID)
-	mu.Unlock()
-	benches, err := s.db.Benches(sessionID)
-	if err != nil {
-		return err
-	}
-	for _, b := range benches {
-		if err := s.publishBench(sessionID, b.ID); err != nil {
-			return err
-		}
-	}
-	return nil
-}
-
-// publishBench reads a bench back from the file after a change other than a
-// new reading (its benches, notes, tolerance), judges it and sends its
-// state, and the room's findings when they change, to the room's watchers.
-func (s *Server) publishBench(sessionID, benchID uint64) error {
-	mu := s.hub.sessionLock(sessionID)
-	mu.Lock()
-	defer mu.Unlock()
-	rs, err := s.loadRoom(sessionID)
-	if err != nil {
-		return err
-	}
-	b, readings, err := s.db.BenchReadings(sessionID, benchID)
-	if err != nil {
-		return err
-	}
-	rs.setBench(b)
-	rs.readings[benchID] = readings
-	if err := s.judgeCached(rs, benchID, nil); err != nil {
-		return err
-	}
-	now := s.now()
-	// Only this bench's flag changes here; checkStalls publishes the others'.
-	results := rs.resultList()
-	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
-	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
-	s.publishFindings(sessionID, rs, results)
-	return nil
-}
-
-// snapshot is the whole room now, from the room cache.
-func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
-	mu := s.hub.sessionLock(sess.ID)
-	mu.Lock()
-	defer mu.Unlock()
-	rs, err := s.loadRoom(sess.ID)
-	if err != nil {
-		return nil, err
-	}
-	now := s.now()
-	snap := &pb.RoomSnapshot{Session: sessionToPB(sess), Findings: findingsToPB(rs.findings)}
-	for _, st := range rs.states {
-		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId(), now))
-	}
-	slices.SortFunc(snap.Benches, func(a, b *pb.BenchState) int {
-		if d := a.GetBench().GetRow() - b.GetBench().GetRow(); d != 0 {
-			return int(d)
-		}
-		return int(a.GetBench().GetColumn() - b.GetBench().GetColumn())
-	})
-	return snap, nil
 }

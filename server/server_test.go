@@ -475,3 +475,34 @@ func TestRequestIDHeader(t *testing.T) {
 		})
 	}
 }
+
+// TestShutdownTwice: Shutdown may be called again and from several
+// goroutines at once (a signal handler and a test's cleanup both stop the
+// server); every call returns the first one's result and nothing panics.
+func TestShutdownTwice(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	if _, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "Kestrel Vale · PHY 142 · shutdown"}); err != nil {
+		t.Fatal(err)
+	}
+	var wg sync.WaitGroup
+	errs := make([]error, 4)
+	for i := range errs {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			c, cancel := context.WithTimeout(ctx, 2*time.Second)
+			defer cancel()
+			errs[i] = r.srv.Shutdown(c)
+		}()
+	}
+	wg.Wait()
+	for i, err := range errs {
+		if err != nil {
+			t.Errorf("concurrent Shutdown %d: %v", i, err)
+		}
+	}
+	if err := r.srv.Shutdown(ctx); err != nil {
+		t.Errorf("Shutdown after Shutdown: %v", err)
+	}
+}

@@ -4,12 +4,10 @@ import (
 	"bufio"
 	"bytes"
 	"context"
-	"crypto/rand"
 	"errors"
 	"fmt"
 	"sort"
 	"strings"
-	"time"
 	"unicode"
 	"unicode/utf8"
 
@@ -18,165 +16,18 @@ import (
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/export"
-	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
 )
-
-type stationService struct {
-	rpcpb.UnimplementedStationServiceServer
-	s *Server
-}
 
 type instructorService struct {
 	rpcpb.UnimplementedInstructorServiceServer
 	s *Server
 }
 
-func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest) (*pb.JoinBenchResponse, error) {
-	code := strings.ToUpper(strings.TrimSpace(req.GetJoinCode()))
-	if code == "" {
-		return nil, domain.Invalid("join_code", "is missing; the instructor's screen shows it")
-	}
-	sess, err := st.s.db.SessionByJoinCode(code)
-	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Invalid("join_code", "no session has join code %q; check it on the instructor's screen", code)
-	}
-	if err != nil {
-		return nil, err
-	}
-	if sess.Closed {
-		return nil, domain.Invalid("join_code", "the session with join code %q is closed", code)
-	}
-	benches, err := st.s.db.Benches(sess.ID)
-	if err != nil {
-		return nil, err
-	}
-	members := strings.TrimSpace(req.GetGroupMembers())
-	if err := domain.ValidateMembers("group_members", members); err != nil {
-		return nil, err
-	}
-	var labels []string
-	for _, b := range benches {
-		if strings.EqualFold(b.Label, strings.TrimSpace(req.GetBenchLabel())) {
-			if members != "" && members != b.Members {
-				err := st.s.db.SetMembers(sess.ID, b.ID, members)
-				st.s.benches.forget(sess.ID)
-				if err != nil {
-					return nil, err
-				}
-				b.Members = members
-			}
-			return &pb.JoinBenchResponse{SessionId: sess.ID, Bench: benchToPB(b), StationToken: st.s.auth.stationToken(sess.ID, b.ID)}, nil
-		}
-		labels = append(labels, b.Label)
-	}
-	return nil, domain.Invalid("bench_label", "no bench %q in this session; benches are %s", req.GetBenchLabel(), strings.Join(labels, ", "))
-}
-
-func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadingRequest) (*pb.SubmitReadingResponse, error) {
-	if err := domain.ValidateReadingID("reading_id", req.GetReadingId()); err != nil {
-		return nil, err
-	}
-	bench, err := st.s.bench(req.GetSessionId(), req.GetBenchId())
-	if err != nil {
-		return nil, err
-	}
-	values := wire.QuantitiesFromPB(req.GetValues())
-	if err := domain.ValidateReading("values", bench, values); err != nil {
-		return nil, err
-	}
-	if sup := req.GetSupersedes(); sup != "" {
-		if err := st.s.checkSupersedes(req.GetSessionId(), req.GetBenchId(), req.GetReadingId(), sup); err != nil {
-			return nil, err
-		}
-	}
-	if closed, err := st.s.sessionClosed(req.GetSessionId()); err != nil {
-		return nil, err
-	} else if closed {
-		return nil, status.Error(codes.FailedPrecondition, "the session is closed; it takes no more readings")
-	}
-	r := domain.Reading{ID: req.GetReadingId(), Values: values, ReceivedAt: st.s.now(), Supersedes: req.GetSupersedes()}
-	if err := st.s.fail("received"); err != nil {
-		return nil, err
-	}
-	if st.s.ackBeforeCommit {
-		// The negative control: acknowledge now, write later.
-		go func() {
-			time.Sleep(50 * time.Millisecond)
-			st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
-		}()
-		return &pb.SubmitReadingResponse{Reading: readingToPB(r)}, nil
-	}
-	// AppendReading returns once bbolt has committed the transaction, which
-	// fsyncs the file: only then is the reading acknowledged.
-	stored, dup, err := st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
-	if err != nil {
-		return nil, err
-	}
-	if err := st.s.fail("committed"); err != nil {
-		return nil, err
-	}
-	if dup {
-		st.s.metrics.duplicates.Add(1)
-	} else {
-		st.s.metrics.readings.Add(1)
-		if !st.s.skipJudging {
-			st.s.judged(req.GetSessionId(), req.GetBenchId(), stored)
-		}
-	}
-	if err := st.s.fail("replying"); err != nil {
-		return nil, err
-	}
-	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), Duplicate: dup}, nil
-}
-
-func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
-	state, _, rs, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
-	if err != nil {
-		return nil, err
-	}
-	sess, err := st.s.db.Session(req.GetSessionId())
-	if err != nil {
-		return nil, err
-	}
-	out := &pb.GetBenchStateResponse{State: forStation(state, sess.StationsSeeVerdicts)}
-	for _, r := range rs {
-		out.Readings = append(out.Readings, readingToPB(r))
-	}
-	return out, nil
-}
-
-// forStation is what a bench's own laptop sees of its state: everything
-// when the session allows it, otherwise its bench and progress only. An
-// unsafe verdict and its caution are always shown: safety is not a grade.
-func forStation(st *pb.BenchState, seeVerdicts bool) *pb.BenchState {
-	if seeVerdicts || st.GetVerdict() == pb.Verdict_VERDICT_UNSAFE {
-		return st
-	}
-	// A caution at a limit reaches the bench whatever the session shows.
-	return &pb.BenchState{Bench: st.GetBench(), ReadingCount: st.GetReadingCount(), LastReadingAt: st.GetLastReadingAt(),
-		ExperimentTitle: st.GetExperimentTitle(), VerdictLabel: "shown after class", Verdict: pb.Verdict_VERDICT_UNSPECIFIED,
-		Caution: st.GetCaution()}
-}
-
-func (st stationService) ListExperiments(ctx context.Context, req *pb.ListExperimentsRequest) (*pb.ListExperimentsResponse, error) {
-	return &pb.ListExperimentsResponse{Experiments: experimentsToPB()}, nil
-}
-
-// joinCodeAlphabet leaves out 0/O and 1/I/L, which are misread on a projector.
-const joinCodeAlphabet = "23456789ABCDEFGHJKMNPQRSTUVWXYZ"
-
-func newJoinCode() string {
-	b := make([]byte, 6)
-	rand.Read(b)
-	for i := range b {
-		b[i] = joinCodeAlphabet[int(b[i])%len(joinCodeAlphabet)]
-	}
-	return string(b)
-}
-
+// CreateSession opens a lab section with its title, tolerance and whether stations see their verdicts,
+// and makes its join code.
 func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSessionRequest) (*pb.CreateSessionResponse, error) {
 	title := strings.TrimSpace(req.GetTitle())
 	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) || strings.ContainsFunc(title, unicode.IsControl) {
@@ -200,6 +51,7 @@ func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSes
 	return nil, errors.New("server: no free join code after 5 draws")
 }
 
+// ListSessions lists every session on the server.
 func (in instructorService) ListSessions(ctx context.Context, req *pb.ListSessionsRequest) (*pb.ListSessionsResponse, error) {
 	ss, err := in.s.db.Sessions()
 	if err != nil {
@@ -212,6 +64,9 @@ func (in instructorService) ListSessions(ctx context.Context, req *pb.ListSessio
 	return out, nil
 }
 
+// SetBenches sets a session's benches: labels, places in the room, experiments and their constants. A
+// bench named by its id is changed in place and keeps its readings; every bad field is named at once
+// and nothing is written.
 func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRequest) (*pb.SetBenchesResponse, error) {
 	existing, err := in.s.db.Benches(req.GetSessionId())
 	if errors.Is(err, store.ErrNotFound) {
@@ -277,6 +132,8 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 	return out, nil
 }
 
+// WatchRoom streams a session's room: a snapshot of every bench first, then each change of a bench's
+// state and of the room's findings, numbered; a slow watcher skips to the newest state of a bench.
 func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.InstructorService_WatchRoomServer) error {
 	s := in.s
 	id := req.GetSessionId()
@@ -316,6 +173,8 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	}
 }
 
+// GetBenchDetail is everything known about one bench: its judged state, readings (corrections kept),
+// fit, plot and notes.
 func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBenchDetailRequest) (*pb.GetBenchDetailResponse, error) {
 	state, a, rs, err := in.s.benchState(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
@@ -341,6 +200,8 @@ func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBench
 	return &pb.GetBenchDetailResponse{Detail: d}, nil
 }
 
+// UpdateSession changes a session's title, tolerance or whether stations see their verdicts, and
+// judges its room again.
 func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSessionRequest) (*pb.UpdateSessionResponse, error) {
 	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
@@ -367,6 +228,7 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 	return &pb.UpdateSessionResponse{Session: sessionToPB(sess)}, nil
 }
 
+// SetGradingPolicy sets a session's grading policy from its JSON, checked field by field.
 func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGradingPolicyRequest) (*pb.SetGradingPolicyResponse, error) {
 	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
@@ -382,6 +244,8 @@ func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGra
 	return &pb.SetGradingPolicyResponse{Session: sessionToPB(sess)}, nil
 }
 
+// OverrideGrade sets a bench's grade by hand, with the reason and the previous points kept in the
+// audit log.
 func (in instructorService) OverrideGrade(ctx context.Context, req *pb.OverrideGradeRequest) (*pb.OverrideGradeResponse, error) {
 	ex, err := in.s.graded(req.GetSessionId())
 	if err != nil {
@@ -417,6 +281,8 @@ var exportFormats = map[pb.ExportFormat]export.Format{
 	pb.ExportFormat_EXPORT_FORMAT_HTML:          export.HTML,
 }
 
+// Export writes a session's graded results as the gradebook CSV, the readings CSV, JSON or the HTML
+// report.
 func (in instructorService) Export(ctx context.Context, req *pb.ExportRequest) (*pb.ExportResponse, error) {
 	f, ok := exportFormats[req.GetFormat()]
 	if !ok {
@@ -456,6 +322,7 @@ func (c *chunkWriter) Write(p []byte) (int, error) {
 	return len(p), nil
 }
 
+// Backup streams a consistent copy of the whole database file.
 func (in instructorService) Backup(req *pb.BackupRequest, stream rpcpb.InstructorService_BackupServer) error {
 	w := &chunkWriter{stream: stream, first: true}
 	bw := bufio.NewWriterSize(w, 256<<10)
@@ -478,6 +345,8 @@ func prefixFields(err error, prefix string) error {
 	return out
 }
 
+// CloseSession ends a session: its join code stops working and it takes no more readings; everything
+// stored stays.
 func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessionRequest) (*pb.CloseSessionResponse, error) {
 	sess, err := in.s.session(req.GetSessionId())
 	if err != nil {
@@ -491,6 +360,7 @@ func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessi
 	return &pb.CloseSessionResponse{Session: sessionToPB(sess)}, nil
 }
 
+// AddNote adds an instructor's timestamped note to a bench.
 func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest) (*pb.AddNoteResponse, error) {
 	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindNote, Text: strings.TrimSpace(req.GetText()),
 		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}
@@ -501,6 +371,7 @@ func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest)
 	return &pb.AddNoteResponse{Note: note}, nil
 }
 
+// AcknowledgeAlert records that an instructor saw a bench's unsafe alert, as a note by its author.
 func (in instructorService) AcknowledgeAlert(ctx context.Context, req *pb.AcknowledgeAlertRequest) (*pb.AcknowledgeAlertResponse, error) {
 	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindAcknowledged, Text: "unsafe alert acknowledged",
 		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}

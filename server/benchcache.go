@@ -1,0 +1,82 @@
+package server
+
+import (
+	"errors"
+	"sync"
+
+	"example.com/fluxroom/domain"
+	"example.com/fluxroom/store"
+)
+
+// bench loads a bench named by a request, as a field error when it is not
+// there.
+func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
+	if sessionID == 0 {
+		return domain.Bench{}, domain.Invalid("session_id", "is missing")
+	}
+	if benchID == 0 {
+		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
+	}
+	if b, ok := s.benches.get(sessionID, benchID); ok {
+		return b, nil
+	}
+	gen := s.benches.generation(sessionID)
+	b, err := s.db.Bench(sessionID, benchID)
+	if errors.Is(err, store.ErrNotFound) {
+		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+	}
+	if err != nil {
+		return domain.Bench{}, err
+	}
+	s.benches.put(sessionID, b, gen)
+	return b, nil
+}
+
+// benchCache holds benches read from the file. Every write of a session's
+// benches calls forget, which also bumps the session's generation, so a
+// read that raced with the write is not cached.
+type benchCache struct {
+	mu  sync.RWMutex
+	m   map[[2]uint64]domain.Bench
+	gen map[uint64]uint64
+}
+
+func (c *benchCache) get(sessionID, benchID uint64) (domain.Bench, bool) {
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	b, ok := c.m[[2]uint64{sessionID, benchID}]
+	return b, ok
+}
+
+func (c *benchCache) generation(sessionID uint64) uint64 {
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	return c.gen[sessionID]
+}
+
+func (c *benchCache) put(sessionID uint64, b domain.Bench, gen uint64) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.gen[sessionID] != gen {
+		return
+	}
+	if c.m == nil {
+		c.m = map[[2]uint64]domain.Bench{}
+	}
+	c.m[[2]uint64{sessionID, b.ID}] = b
+}
+
+// forget drops a session's cached benches; call it after writing them.
+func (c *benchCache) forget(sessionID uint64) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.gen == nil {
+		c.gen = map[uint64]uint64{}
+	}
+	c.gen[sessionID]++
+	for k := range c.m {
+		if k[0] == sessionID {
+			delete(c.m, k)
+		}
+	}
+}

@@ -1,0 +1,166 @@
+package server
+
+import (
+	"errors"
+	"slices"
+
+	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/store"
+)
+
+// benchState reads a bench and its readings and judges them.
+func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.Assessment, []domain.Reading, error) {
+	if sessionID == 0 {
+		return nil, domain.Assessment{}, nil, domain.Invalid("session_id", "is missing")
+	}
+	b, rs, err := s.db.BenchReadings(sessionID, benchID)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil, domain.Assessment{}, nil, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+	}
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
+	}
+	sess, err := s.db.Session(sessionID)
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
+	}
+	st, a, err := s.judge(sess, b, nil, rs, nil, nil)
+	if err != nil {
+		return nil, domain.Assessment{}, nil, err
+	}
+	return st, a, rs, nil
+}
+
+// session loads the session a request names, as a field error when there
+// is none.
+func (s *Server) session(id uint64) (domain.Session, error) {
+	sess, err := s.db.Session(id)
+	if errors.Is(err, store.ErrNotFound) {
+		return domain.Session{}, domain.Invalid("session_id", "no session %d", id)
+	}
+	return sess, err
+}
+
+// graded reads a whole session and grades it under its policy.
+func (s *Server) graded(id uint64) (export.Session, error) {
+	d, err := s.db.ReadSession(id)
+	if errors.Is(err, store.ErrNotFound) {
+		return export.Session{}, domain.Invalid("session_id", "no session %d", id)
+	}
+	if err != nil {
+		return export.Session{}, err
+	}
+	return export.Prepare(d)
+}
+
+// checkSupersedes makes sure a correction names an earlier reading of the
+// same bench.
+func (s *Server) checkSupersedes(sessionID, benchID uint64, readingID, supersedes string) error {
+	if err := domain.ValidateReadingID("supersedes", supersedes); err != nil {
+		return err
+	}
+	if supersedes == readingID {
+		return domain.Invalid("supersedes", "a reading cannot correct itself")
+	}
+	_, rs, err := s.db.BenchReadings(sessionID, benchID)
+	if err != nil {
+		return err
+	}
+	for _, r := range rs {
+		if r.ID == supersedes {
+			return nil
+		}
+	}
+	return domain.Invalid("supersedes", "bench %d has no reading %q to correct", benchID, supersedes)
+}
+
+// note stores an audit-log entry and republishes the bench, whose alert
+// state may have changed.
+func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
+	if _, err := s.bench(sessionID, n.BenchID); err != nil {
+		return nil, err
+	}
+	if err := domain.ValidateNote(n); err != nil {
+		return nil, err
+	}
+	if err := s.db.AppendNote(sessionID, n); err != nil {
+		return nil, err
+	}
+	if err := s.publishBench(sessionID, n.BenchID); err != nil {
+		return nil, err
+	}
+	return noteToPB(n), nil
+}
+
+// rejudgeRoom drops a session's cached room and judges every bench again,
+// after a change that affects them all (the tolerance profile).
+func (s *Server) rejudgeRoom(sessionID uint64) error {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	s.rooms.drop(sessionID)
+	mu.Unlock()
+	benches, err := s.db.Benches(sessionID)
+	if err != nil {
+		return err
+	}
+	for _, b := range benches {
+		if err := s.publishBench(sessionID, b.ID); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// publishBench reads a bench back from the file after a change other than a
+// new reading (its benches, notes, tolerance), judges it and sends its
+// state, and the room's findings when they change, to the room's watchers.
+func (s *Server) publishBench(sessionID, benchID uint64) error {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	defer mu.Unlock()
+	rs, err := s.loadRoom(sessionID)
+	if err != nil {
+		return err
+	}
+	b, readings, err := s.db.BenchReadings(sessionID, benchID)
+	if err != nil {
+		return err
+	}
+	rs.setBench(b)
+	rs.readings[benchID] = readings
+	if err := s.judgeCached(rs, benchID, nil); err != nil {
+		return err
+	}
+	now := s.now()
+	// Only this bench's flag changes here; checkStalls publishes the others'.
+	results := rs.resultList()
+	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
+	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
+	s.publishFindings(sessionID, rs, results)
+	return nil
+}
+
+// snapshot is the whole room now, from the room cache.
+func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
+	mu := s.hub.sessionLock(sess.ID)
+	mu.Lock()
+	defer mu.Unlock()
+	rs, err := s.loadRoom(sess.ID)
+	if err != nil {
+		return nil, err
+	}
+	now := s.now()
+	snap := &pb.RoomSnapshot{Session: sessionToPB(sess), Findings: findingsToPB(rs.findings)}
+	for _, st := range rs.states {
+		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId(), now))
+	}
+	slices.SortFunc(snap.Benches, func(a, b *pb.BenchState) int {
+		if d := a.GetBench().GetRow() - b.GetBench().GetRow(); d != 0 {
+			return int(d)
+		}
+		return int(a.GetBench().GetColumn() - b.GetBench().GetColumn())
+	})
+	return snap, nil
+}
