@@ -25,7 +25,23 @@ var (
 	ErrConflict = errors.New("store: conflict")
 	// ErrSchema means the file was written by a newer fluxroom.
 	ErrSchema = errors.New("store: unsupported schema version")
+	// ErrLocked means another process (a running server) holds the file
+	// and did not let go within Options.Timeout.
+	ErrLocked = errors.New("store: the file is in use by another process")
 )
+
+// openBolt opens the bbolt file, naming a lock held elsewhere ErrLocked so
+// that callers need not know bbolt.
+func openBolt(path string, opts *bbolt.Options) (*bbolt.DB, error) {
+	b, err := bbolt.Open(path, 0o600, opts)
+	if errors.Is(err, bbolt.ErrTimeout) {
+		return nil, fmt.Errorf("store: open %s: %w", path, ErrLocked)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("store: open %s: %w", path, err)
+	}
+	return b, nil
+}
 
 // DB is the fluxroom database: one bbolt file.
 type DB struct {
@@ -96,9 +112,9 @@ func Open(path string, opts Options) (*DB, error) {
 	// A remap of the file waits for every open read transaction and holds
 	// up the writer meanwhile: map more than a term's file from the start,
 	// so it does not happen in class. It is address space, not memory.
-	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout, InitialMmapSize: initialMmap})
+	b, err := openBolt(path, &bbolt.Options{Timeout: opts.Timeout, InitialMmapSize: initialMmap})
 	if err != nil {
-		return nil, fmt.Errorf("store: open %s: %w", path, err)
+		return nil, err
 	}
 	db := &DB{bolt: b, appends: make(chan appendReq, maxGroup)}
 	if err := b.Update(db.prepare); err != nil {
@@ -114,9 +130,9 @@ func openReadOnly(path string, opts Options) (*DB, error) {
 	if _, err := os.Stat(path); err != nil {
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	b, err := bbolt.Open(path, 0o600, &bbolt.Options{Timeout: opts.Timeout, ReadOnly: true})
+	b, err := openBolt(path, &bbolt.Options{Timeout: opts.Timeout, ReadOnly: true})
 	if err != nil {
-		return nil, fmt.Errorf("store: open %s: %w", path, err)
+		return nil, err
 	}
 	err = b.View(func(tx *bbolt.Tx) error {
 		meta := tx.Bucket(bucketMeta)

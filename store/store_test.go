@@ -188,8 +188,10 @@ func TestNewerSchemaRefusesToOpen(t *testing.T) {
 func TestLockedFileFailsFast(t *testing.T) {
 	db, path := openTemp(t)
 	defer db.Close()
-	if _, err := Open(path, Options{Timeout: 50 * time.Millisecond}); err == nil {
-		t.Error("second Open of a locked file succeeded")
+	for _, ro := range []bool{false, true} {
+		if _, err := Open(path, Options{Timeout: 50 * time.Millisecond, ReadOnly: ro}); !errors.Is(err, ErrLocked) {
+			t.Errorf("second Open (read-only %v) of a locked file: %v, want ErrLocked", ro, err)
+		}
 	}
 }
 

@@ -8,7 +8,6 @@ import (
 	"os"
 	"path/filepath"
 
-	"go.etcd.io/bbolt"
 	"google.golang.org/grpc"
 	"google.golang.org/grpc/credentials/insecure"
 
@@ -43,7 +42,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 	} else {
 		var db *store.DB
 		db, err = store.Open(*dbPath, store.Options{})
-		if errors.Is(err, bbolt.ErrTimeout) {
+		if errors.Is(err, store.ErrLocked) {
 			err = fmt.Errorf("%s is in use by a running server: use --server for a hot backup", *dbPath)
 		}
 		if err == nil {

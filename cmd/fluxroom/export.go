@@ -8,7 +8,6 @@ import (
 	"os"
 	"strings"
 
-	"go.etcd.io/bbolt"
 
 	"example.com/fluxroom/internal/export"
 	"example.com/fluxroom/store"
@@ -29,7 +28,7 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 		return err
 	}
 	db, err := store.Open(*dbPath, store.Options{})
-	if errors.Is(err, bbolt.ErrTimeout) {
+	if errors.Is(err, store.ErrLocked) {
 		return fmt.Errorf("%s is in use by a running fluxroom server: use the dashboard's export buttons or the Export RPC", *dbPath)
 	}
 	if err != nil {

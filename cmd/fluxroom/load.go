@@ -148,7 +148,7 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 		cfg.callers, echo, echoCPU.server*1e6, echoCPU.gen*1e6, echoOwn, echoOwnCPU.server*1e6, echoOwnCPU.gen*1e6)
 	fmt.Fprintf(w, "  the empty call (health Check) beside it: over 32 connections %.0f calls/s, server CPU %.0f µs/call; one connection each %.0f calls/s, %.0f µs/call\n",
 		shared.empty, shared.emptyCPU.server*1e6, own.empty, own.emptyCPU.server*1e6)
-	single, group, commits, err := bboltBaselines(dir, cfg.dur)
+	single, group, commits, err := store.BareBaselines(dir, cfg.dur)
 	if err != nil {
 		return fmt.Errorf("bbolt baseline: %w", err)
 	}

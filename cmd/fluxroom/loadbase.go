@@ -3,13 +3,11 @@ package main
 import (
 	"context"
 	"fmt"
-	"path/filepath"
 	"slices"
 	"sync"
 	"sync/atomic"
 	"time"
 
-	"go.etcd.io/bbolt"
 	"google.golang.org/grpc"
 	healthpb "google.golang.org/grpc/health/grpc_health_v1"
 
@@ -164,94 +162,6 @@ func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.C
 	wg.Wait()
 	calls := float64(max(1, n.Load()))
 	return float64(n.Load()), closedCPU{server: (c.cpu() - cpu0) / calls, gen: (selfCPU() - gen0) / calls}
-}
-
-// bboltBaselines appends 100-byte records to a bare bbolt file: one Update
-// each, then one writer that commits everything 512 goroutines queued while
-// the previous commit ran (the store's scheme, without the store).
-func bboltBaselines(dir string, dur time.Duration) (single, group float64, commits []time.Duration, err error) {
-	db, err := bbolt.Open(filepath.Join(dir, "baseline.db"), 0o600, nil)
-	if err != nil {
-		return 0, 0, nil, err
-	}
-	defer db.Close()
-	if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
-		return 0, 0, nil, err
-	}
-	val := make([]byte, 100)
-	put := func(tx *bbolt.Tx) error {
-		b := tx.Bucket([]byte("r"))
-		seq, _ := b.NextSequence()
-		return b.Put(u64key(seq), val)
-	}
-	end := time.Now().Add(dur / 2)
-	n := 0
-	for time.Now().Before(end) {
-		t0 := time.Now()
-		if err := db.Update(put); err != nil {
-			return 0, 0, nil, err
-		}
-		commits = append(commits, time.Since(t0))
-		n++
-	}
-	single = float64(n) / (dur / 2).Seconds()
-	slices.Sort(commits)
-
-	queue := make(chan chan error, 512)
-	go func() {
-		for first := range queue {
-			batch := []chan error{first}
-		drain:
-			for len(batch) < 512 {
-				select {
-				case d := <-queue:
-					batch = append(batch, d)
-				default:
-					break drain
-				}
-			}
-			err := db.Update(func(tx *bbolt.Tx) error {
-				for range batch {
-					if err := put(tx); err != nil {
-						return err
-					}
-				}
-				return nil
-			})
-			for _, d := range batch {
-				d <- err
-			}
-		}
-	}()
-	defer close(queue)
-	var m atomic.Int64
-	ctx, cancel := context.WithTimeout(context.Background(), dur/2)
-	defer cancel()
-	var wg sync.WaitGroup
-	for i := 0; i < 512; i++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			done := make(chan error, 1)
-			for ctx.Err() == nil {
-				queue <- done
-				if <-done == nil {
-					m.Add(1)
-				}
-			}
-		}()
-	}
-	wg.Wait()
-	return single, float64(m.Load()) / (dur / 2).Seconds(), commits, nil
-}
-
-func u64key(v uint64) []byte {
-	b := make([]byte, 8)
-	for i := 7; i >= 0; i-- {
-		b[i] = byte(v)
-		v >>= 8
-	}
-	return b
 }
 
 type closedResult struct {

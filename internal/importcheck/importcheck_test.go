@@ -3,6 +3,7 @@ package importcheck
 import (
 	"os"
 	"os/exec"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -100,5 +101,31 @@ func TestBrowserBuildLeavesOutJudging(t *testing.T) {
 	}
 	if host := files("", ""); !strings.Contains(host, " judges.go ") || strings.Contains(host, " judges_js.go ") {
 		t.Errorf("host build of domain has files %s; want judges.go and not judges_js.go", host)
+	}
+}
+
+// TestOnlyStoreImportsBbolt: the bbolt file is the store's alone; every
+// other package (tests too) goes through store's API and its errors.
+func TestOnlyStoreImportsBbolt(t *testing.T) {
+	cmd := exec.Command("go", "list", "-f", `{{.ImportPath}} {{join .Imports " "}} {{join .TestImports " "}} {{join .XTestImports " "}}`, "./...")
+	cmd.Dir = "../.."
+	out, err := cmd.Output()
+	if err != nil {
+		t.Fatalf("go list: %v", err)
+	}
+	seen := false
+	for _, line := range strings.Split(strings.TrimSpace(string(out)), "\n") {
+		f := strings.Fields(line)
+		if len(f) == 0 || !slices.Contains(f[1:], "go.etcd.io/bbolt") {
+			continue
+		}
+		if f[0] == module+"/store" {
+			seen = true
+			continue
+		}
+		t.Errorf("%s imports go.etcd.io/bbolt; only %s/store may", f[0], module)
+	}
+	if !seen {
+		t.Errorf("the store does not import bbolt: the check looks at the wrong thing")
 	}
 }
