@@ -8,7 +8,6 @@ import (
 	"os"
 	"strings"
 
-
 	"example.com/fluxroom/internal/export"
 	"example.com/fluxroom/store"
 )
