@@ -2,8 +2,6 @@ package main
 
 import (
 	"context"
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"fmt"
 	"io"
@@ -11,14 +9,15 @@ import (
 	"strings"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/readingscsv"
 )
 
 // analyzeReport is the stable JSON output of `fluxroom analyze --json`
 // (documented in README.md). Fields are only ever added.
 type analyzeReport struct {
-	Benches  []analyzeBench   `json:"benches"`
-	Findings []analyzeFinding `json:"room_findings"`
-	Errors   []csvError       `json:"errors"`
+	Benches  []analyzeBench      `json:"benches"`
+	Findings []analyzeFinding    `json:"room_findings"`
+	Errors   []readingscsv.Error `json:"errors"`
 }
 
 type analyzeValue struct {
@@ -63,22 +62,22 @@ type analyzeFinding struct {
 
 // analyze judges a readings CSV with the same engine as a live session.
 func analyze(r io.Reader) (analyzeReport, error) {
-	benches, errs, err := readCSV(r)
+	benches, errs, err := readingscsv.Read(r)
 	if err != nil {
 		return analyzeReport{}, err
 	}
 	rep := analyzeReport{Errors: errs, Benches: []analyzeBench{}, Findings: []analyzeFinding{}}
 	if rep.Errors == nil {
-		rep.Errors = []csvError{}
+		rep.Errors = []readingscsv.Error{}
 	}
 	var results []domain.BenchResult
 	labels := map[uint64]string{}
 	for i, b := range benches {
-		b.bench.ID = uint64(i + 1)
-		labels[b.bench.ID] = b.label
-		a := domain.Assess(b.bench, b.readings, domain.DefaultTolerance)
-		results = append(results, domain.ResultOf(b.bench, a, b.readings))
-		ab := analyzeBench{Bench: b.label, Experiment: b.bench.Experiment, Readings: a.ReadingCount, Z: a.Z,
+		b.Bench.ID = uint64(i + 1)
+		labels[b.Bench.ID] = b.Label
+		a := domain.Assess(b.Bench, b.Readings, domain.DefaultTolerance)
+		results = append(results, domain.ResultOf(b.Bench, a, b.Readings))
+		ab := analyzeBench{Bench: b.Label, Experiment: b.Bench.Experiment, Readings: a.ReadingCount, Z: a.Z,
 			PercentDiff: a.PercentDiff, Verdict: a.Verdict.Label(), Reason: a.Reason, Caution: a.Caution,
 			Diagnoses: []analyzeDiagnosis{}, Notes: append([]string{}, a.Notes...)}
 		if a.ResultUnit != "" {
@@ -158,14 +157,4 @@ func printReport(w io.Writer, rep analyzeReport) {
 	for _, f := range rep.Findings {
 		fmt.Fprintf(w, "room   %s: %s\n", f.Code, f.Message)
 	}
-}
-
-// rowKey is a row's stable identity: its bench and cells, hashed.
-func rowKey(label string, rec []string) string {
-	h := sha256.New()
-	io.WriteString(h, label)
-	for _, c := range rec {
-		io.WriteString(h, "\x1f"+strings.TrimSpace(c))
-	}
-	return hex.EncodeToString(h.Sum(nil))[:16]
 }

@@ -12,6 +12,7 @@ import (
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
+	"example.com/fluxroom/internal/readingscsv"
 	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
@@ -40,7 +41,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	benches, errs, err := readCSV(f)
+	benches, errs, err := readingscsv.Read(f)
 	f.Close()
 	if err != nil {
 		return fmt.Errorf("%s: %w", fs.Arg(0), err)
@@ -48,9 +49,9 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	for _, e := range errs {
 		fmt.Fprintf(m.Stderr, "%s: %s (not sent)\n", fs.Arg(0), e)
 	}
-	var rows *csvBench
+	var rows *readingscsv.Bench
 	for _, b := range benches {
-		if b.label == *bench || len(benches) == 1 && b.label == "bench" {
+		if b.Label == *bench || len(benches) == 1 && b.Label == "bench" {
 			rows = b
 		}
 	}
@@ -69,15 +70,15 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	if err != nil {
 		return fmt.Errorf("join bench %s: %w", *bench, err)
 	}
-	if join.Bench.Experiment != rows.bench.Experiment {
-		return fmt.Errorf("bench %s is set up for %s, but the file's rows are %s", *bench, join.Bench.Experiment, rows.bench.Experiment)
+	if join.Bench.Experiment != rows.Bench.Experiment {
+		return fmt.Errorf("bench %s is set up for %s, but the file's rows are %s", *bench, join.Bench.Experiment, rows.Bench.Experiment)
 	}
 	tctx := metadata.AppendToOutgoingContext(cctx, "authorization", "Bearer "+join.StationToken)
 	var stored, dup int
 	var last *pb.SubmitReadingResponse
-	for i, r := range rows.readings {
+	for i, r := range rows.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: "csv-" + rows.keys[i], Values: wire.QuantitiesToPB(r.Values)}
+			ReadingId: "csv-" + rows.Keys[i], Values: wire.QuantitiesToPB(r.Values)}
 		// Past the bench's rate limit the server says ResourceExhausted: wait
 		// and send the same reading again (its id makes that safe).
 		for {
@@ -92,7 +93,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 			}
 		}
 		if err != nil {
-			return fmt.Errorf("line %d: %w", rows.lines[i], err)
+			return fmt.Errorf("line %d: %w", rows.Lines[i], err)
 		}
 		if last.Duplicate {
 			dup++

@@ -111,7 +111,7 @@ func BenchmarkExportTerm(b *testing.B) {
 				}
 				ex, err := Prepare(d)
 				if err == nil {
-					err = WriteReadingsCSV(io.Discard, ex)
+					err = writeReadings(io.Discard, ex)
 				}
 				if !yield(ex, err) {
 					return

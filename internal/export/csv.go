@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -88,70 +87,4 @@ func gradebookRows(cw *csv.Writer, s Session, prefix []string) error {
 		}
 	}
 	return nil
-}
-
-// Metadata columns of the readings CSV; `fluxroom analyze` skips them and
-// leaves out rows marked superseded.
-const (
-	ColSequence   = "sequence"
-	ColReadingID  = "reading id"
-	ColReceivedAt = "received at"
-	ColSupersedes = "supersedes"
-	ColSuperseded = "superseded"
-)
-
-// WriteReadingsCSV writes every reading, superseded ones marked, in the
-// readings CSV format: bench, experiment, metadata, then one "name [unit]"
-// column per constant and value as typed.
-func WriteReadingsCSV(w io.Writer, s Session) error {
-	type col struct{ name, unit string }
-	seen := map[col]bool{}
-	for _, b := range s.Benches {
-		for k, q := range b.Constants {
-			seen[col{k, q.Unit}] = true
-		}
-		for _, r := range s.Readings[b.ID] {
-			for k, q := range r.Values {
-				seen[col{k, q.Unit}] = true
-			}
-		}
-	}
-	cols := make([]col, 0, len(seen))
-	for c := range seen {
-		cols = append(cols, c)
-	}
-	sort.Slice(cols, func(i, j int) bool {
-		if cols[i].name != cols[j].name {
-			return cols[i].name < cols[j].name
-		}
-		return cols[i].unit < cols[j].unit
-	})
-	header := []string{"bench", "experiment", ColSequence, ColReadingID, ColReceivedAt, ColSupersedes, ColSuperseded}
-	for _, c := range cols {
-		header = append(header, fmt.Sprintf("%s [%s]", c.name, c.unit))
-	}
-	cw := newCSV(w)
-	cw.Write(header)
-	for _, row := range s.Rows {
-		b := row.Bench
-		gone := domain.Superseded(row.Readings)
-		for _, r := range row.Readings {
-			rec := []string{b.Label, b.Experiment, strconv.FormatUint(r.Sequence, 10), r.ID, r.ReceivedAt.UTC().Format(time.RFC3339Nano),
-				r.Supersedes, map[bool]string{true: "yes", false: "no"}[gone[r.ID]]}
-			for _, c := range cols {
-				cell := ""
-				if q, ok := r.Values[c.name]; ok && q.Unit == c.unit {
-					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)
-				} else if q, ok := b.Constants[c.name]; ok && q.Unit == c.unit {
-					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)
-				}
-				rec = append(rec, cell)
-			}
-			if err := cw.Write(rec); err != nil {
-				return err
-			}
-		}
-	}
-	cw.Flush()
-	return cw.Error()
 }

@@ -10,10 +10,12 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"maps"
 	"strings"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/readingscsv"
 	"example.com/fluxroom/store"
 )
 
@@ -89,11 +91,22 @@ func Write(buf *bytes.Buffer, s Session, f Format) (filename, contentType string
 	case Gradebook:
 		return base + "-gradebook.csv", "text/csv; charset=utf-8", WriteGradebookCSV(buf, s)
 	case Readings:
-		return base + "-readings.csv", "text/csv; charset=utf-8", WriteReadingsCSV(buf, s)
+		return base + "-readings.csv", "text/csv; charset=utf-8", writeReadings(buf, s)
 	case JSON:
 		return base + ".json", "application/json", WriteJSON(buf, s)
 	case HTML:
 		return base + "-report.html", "text/html; charset=utf-8", WriteHTML(buf, s)
 	}
 	return "", "", domain.Invalid("format", "unknown format %q; use csv, readings, json or html", f)
+}
+
+// writeReadings is the readings export: the rows' readings, in room order,
+// in the readings CSV that fluxroom analyze reads back.
+func writeReadings(w io.Writer, s Session) error {
+	benches := make([]domain.Bench, len(s.Rows))
+	readings := make(map[uint64][]domain.Reading, len(s.Rows))
+	for i, row := range s.Rows {
+		benches[i], readings[row.Bench.ID] = row.Bench, row.Readings
+	}
+	return readingscsv.Write(w, benches, readings)
 }

@@ -1,7 +1,13 @@
-package main
+// Package readingscsv reads and writes the readings CSV, the one file format
+// for readings taken outside a session or exported from one (README.md,
+// "Readings CSV"): `fluxroom analyze` and `fluxroom submit` read it, the
+// readings export writes it, and a written file reads back.
+package readingscsv
 
 import (
+	"crypto/sha256"
 	"encoding/csv"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io"
@@ -10,7 +16,6 @@ import (
 	"strings"
 
 	"example.com/fluxroom/domain"
-	"example.com/fluxroom/internal/export"
 )
 
 // The readings CSV (documented in README.md, "Readings CSV"):
@@ -23,30 +28,30 @@ import (
 // must be the same on every row of the bench (empty cells take the default).
 // Lines starting with # are comments.
 
-// csvError is a bad cell or row, by 1-based line and column.
-type csvError struct {
+// Error is a bad cell or row, by 1-based line and column.
+type Error struct {
 	Line    int    `json:"line"`
 	Column  int    `json:"column"`
 	Header  string `json:"field"`
 	Message string `json:"message"`
 }
 
-func (e csvError) Error() string {
+func (e Error) Error() string {
 	if e.Column == 0 {
 		return fmt.Sprintf("line %d: %s", e.Line, e.Message)
 	}
 	return fmt.Sprintf("line %d, column %d (%s): %s", e.Line, e.Column, e.Header, e.Message)
 }
 
-// csvBench is one bench's constants and readings from a CSV file.
-type csvBench struct {
-	label    string
-	bench    domain.Bench
-	readings []domain.Reading
-	// lines are the source lines of the readings, and keys their stable
+// Bench is one bench's constants and readings from a CSV file.
+type Bench struct {
+	Label    string
+	Bench    domain.Bench
+	Readings []domain.Reading
+	// Lines are the source lines of the readings, and Keys their stable
 	// identity (for idempotent submission).
-	lines []int
-	keys  []string
+	Lines []int
+	Keys  []string
 	// constLine remembers where each constant was first set.
 	constLine map[string]int
 }
@@ -55,15 +60,15 @@ type csvColumn struct {
 	header, name, unit string
 }
 
-// readCSV parses a readings file. It returns every bench with its good rows
+// Read parses a readings file. It returns every bench with its good rows
 // and an error per bad cell; a bad row is left out whole.
-func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
+func Read(r io.Reader) ([]*Bench, []Error, error) {
 	cr := csv.NewReader(r)
 	cr.Comment = '#'
 	cr.FieldsPerRecord = -1
 	header, err := cr.Read()
 	if err != nil {
-		return nil, nil, fmt.Errorf("read header: %w", err)
+		return nil, nil, fmt.Errorf("readingscsv: read header: %w", err)
 	}
 	line, _ := cr.FieldPos(0)
 	cols := make([]csvColumn, len(header))
@@ -77,24 +82,24 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 		case "experiment":
 			expCol = i
 			continue
-		case export.ColSuperseded:
+		case ColSuperseded:
 			supersededCol = i
 			continue
-		case export.ColSequence, export.ColReadingID, export.ColReceivedAt, export.ColSupersedes, "group members":
+		case ColSequence, ColReadingID, ColReceivedAt, ColSupersedes, "group members":
 			continue // metadata of an exported file
 		}
 		name, unit, ok := strings.Cut(h, "[")
 		if !ok || !strings.HasSuffix(unit, "]") {
-			return nil, nil, csvError{Line: line, Column: i + 1, Header: h, Message: `a column is "bench", "experiment" or "name [unit]", for example "current [A]"`}
+			return nil, nil, Error{Line: line, Column: i + 1, Header: h, Message: `a column is "bench", "experiment" or "name [unit]", for example "current [A]"`}
 		}
 		cols[i] = csvColumn{header: h, name: strings.TrimSpace(name), unit: strings.TrimSpace(strings.TrimSuffix(unit, "]"))}
 	}
 	if expCol < 0 {
-		return nil, nil, csvError{Line: line, Message: `the header needs an "experiment" column`}
+		return nil, nil, Error{Line: line, Message: `the header needs an "experiment" column`}
 	}
-	byLabel := map[string]*csvBench{}
+	byLabel := map[string]*Bench{}
 	var order []string
-	var errs []csvError
+	var errs []Error
 	seen := map[string]int{}
 	for {
 		rec, err := cr.Read()
@@ -105,7 +110,7 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 		if err != nil {
 			var pe *csv.ParseError
 			if errors.As(err, &pe) {
-				errs = append(errs, csvError{Line: pe.Line, Column: pe.Column, Message: pe.Err.Error()})
+				errs = append(errs, Error{Line: pe.Line, Column: pe.Column, Message: pe.Err.Error()})
 				continue
 			}
 			return nil, nil, err
@@ -125,7 +130,7 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 		}
 		exp, ok := domain.LookupExperiment(cell(expCol))
 		if !ok {
-			errs = append(errs, csvError{Line: line, Column: expCol + 1, Header: "experiment",
+			errs = append(errs, Error{Line: line, Column: expCol + 1, Header: "experiment",
 				Message: fmt.Sprintf("unknown experiment %q; use one of %s", cell(expCol), strings.Join(domain.ExperimentIDs(), ", "))})
 			continue
 		}
@@ -138,15 +143,15 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 		}
 		b := byLabel[label]
 		if b == nil {
-			b = &csvBench{label: label, bench: domain.Bench{Label: label, Experiment: exp.ID, Constants: map[string]domain.Quantity{}},
+			b = &Bench{Label: label, Bench: domain.Bench{Label: label, Experiment: exp.ID, Constants: map[string]domain.Quantity{}},
 				constLine: map[string]int{}}
 			byLabel[label] = b
 			order = append(order, label)
 		}
-		var rowErrs []csvError
-		if b.bench.Experiment != exp.ID {
-			rowErrs = append(rowErrs, csvError{Line: line, Column: expCol + 1, Header: "experiment",
-				Message: fmt.Sprintf("bench %s is on %s in earlier rows", label, b.bench.Experiment)})
+		var rowErrs []Error
+		if b.Bench.Experiment != exp.ID {
+			rowErrs = append(rowErrs, Error{Line: line, Column: expCol + 1, Header: "experiment",
+				Message: fmt.Sprintf("bench %s is on %s in earlier rows", label, b.Bench.Experiment)})
 		}
 		values := map[string]domain.Quantity{}
 		consts := map[string]domain.Quantity{}
@@ -157,7 +162,7 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 			}
 			v, err := strconv.ParseFloat(text, 64)
 			if err != nil {
-				rowErrs = append(rowErrs, csvError{Line: line, Column: i + 1, Header: c.header, Message: fmt.Sprintf("not a number: %q", text)})
+				rowErrs = append(rowErrs, Error{Line: line, Column: i + 1, Header: c.header, Message: fmt.Sprintf("not a number: %q", text)})
 				continue
 			}
 			q := domain.Quantity{Value: v, Unit: c.unit}
@@ -170,8 +175,8 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 			// Columns of other experiments are left alone: a file may mix them.
 		}
 		for name, q := range consts {
-			if old, ok := b.bench.Constants[name]; ok && old != q {
-				rowErrs = append(rowErrs, csvError{Line: line, Column: columnOf(cols, name) + 1, Header: cols[columnOf(cols, name)].header,
+			if old, ok := b.Bench.Constants[name]; ok && old != q {
+				rowErrs = append(rowErrs, Error{Line: line, Column: columnOf(cols, name) + 1, Header: cols[columnOf(cols, name)].header,
 					Message: fmt.Sprintf("bench %s has %s = %g %s from line %d", label, name, old.Value, old.Unit, b.constLine[name])})
 			}
 		}
@@ -185,35 +190,35 @@ func readCSV(r io.Reader) ([]*csvBench, []csvError, error) {
 			continue
 		}
 		for name, q := range consts {
-			if _, ok := b.bench.Constants[name]; !ok {
-				b.bench.Constants[name] = q
+			if _, ok := b.Bench.Constants[name]; !ok {
+				b.Bench.Constants[name] = q
 				b.constLine[name] = line
 			}
 		}
 		key := rowKey(label, rec)
 		seen[key]++
-		b.readings = append(b.readings, domain.Reading{Values: values, Sequence: uint64(len(b.readings) + 1)})
-		b.lines = append(b.lines, line)
-		b.keys = append(b.keys, fmt.Sprintf("%s-%d", key, seen[key]))
+		b.Readings = append(b.Readings, domain.Reading{Values: values, Sequence: uint64(len(b.Readings) + 1)})
+		b.Lines = append(b.Lines, line)
+		b.Keys = append(b.Keys, fmt.Sprintf("%s-%d", key, seen[key]))
 	}
-	out := make([]*csvBench, 0, len(order))
+	out := make([]*Bench, 0, len(order))
 	for _, label := range order {
 		b := byLabel[label]
-		checked, err := domain.ValidateBench("bench "+label, b.bench)
+		checked, err := domain.ValidateBench("bench "+label, b.Bench)
 		if err != nil {
 			for _, v := range err.(*domain.ValidationError).Violations {
-				errs = append(errs, csvError{Line: firstLine(b), Message: v.Field + ": " + v.Reason})
+				errs = append(errs, Error{Line: firstLine(b), Message: v.Field + ": " + v.Reason})
 			}
 			continue
 		}
-		b.bench = checked
+		b.Bench = checked
 		out = append(out, b)
 	}
 	sort.SliceStable(errs, func(i, j int) bool { return errs[i].Line < errs[j].Line })
 	return out, errs, nil
 }
 
-func firstLine(b *csvBench) int {
+func firstLine(b *Bench) int {
 	min := 0
 	for _, l := range b.constLine {
 		if min == 0 || l < min {
@@ -234,14 +239,14 @@ func columnOf(cols []csvColumn, name string) int {
 
 // fieldErrors maps a reading's field violations (values["force"].unit) to
 // the CSV cells they came from.
-func fieldErrors(err error, line int, cols []csvColumn) []csvError {
+func fieldErrors(err error, line int, cols []csvColumn) []Error {
 	var ve *domain.ValidationError
 	if !errors.As(err, &ve) {
-		return []csvError{{Line: line, Message: err.Error()}}
+		return []Error{{Line: line, Message: err.Error()}}
 	}
-	var out []csvError
+	var out []Error
 	for _, v := range ve.Violations {
-		e := csvError{Line: line, Message: v.Reason}
+		e := Error{Line: line, Message: v.Reason}
 		for i, c := range cols {
 			if c.name != "" && strings.Contains(v.Field, `"`+c.name+`"`) {
 				e.Column, e.Header = i+1, c.header
@@ -254,4 +259,14 @@ func fieldErrors(err error, line int, cols []csvColumn) []csvError {
 		out = append(out, e)
 	}
 	return out
+}
+
+// rowKey is a row's stable identity: its bench and cells, hashed.
+func rowKey(label string, rec []string) string {
+	h := sha256.New()
+	io.WriteString(h, label)
+	for _, c := range rec {
+		io.WriteString(h, "\x1f"+strings.TrimSpace(c))
+	}
+	return hex.EncodeToString(h.Sum(nil))[:16]
 }
