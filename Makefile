@@ -20,11 +20,14 @@ build: wasm
 	$(GO) build -o $(BIN)/fluxroom ./cmd/fluxroom
 
 ## test: every test, including the headless-browser one and the import rules
-## (internal/importcheck). Installs Chromium first when it can (.ci/ensure-chromium).
+## (internal/importcheck), then the tests of the failpoints build (server/hooks.go).
+## Installs Chromium first when it can (.ci/ensure-chromium).
 test:
 	bash .ci/ensure-chromium
 	$(GO) vet ./...
+	$(GO) vet -tags failpoints ./server/ ./cmd/fluxroom/
 	$(GO) test -count=1 ./...
+	$(GO) test -count=1 -tags failpoints -run 'NothingAcknowledgedBeforeCommit' ./server/
 
 test-short:
 	$(GO) test -short ./...
@@ -35,7 +38,7 @@ BENCH_ARGS ?=
 bench:
 	$(GO) run ./cmd/fluxroom loadtest $(BENCH_ARGS)
 	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
-	$(GO) test -run='^$$' -bench=SubmitReading -benchmem ./server/
+	$(GO) test -tags failpoints -run='^$$' -bench=SubmitReading -benchmem ./server/
 	$(GO) test -run='^$$' -bench=ExportTerm -benchtime=1x ./internal/export/
 
 demo: build

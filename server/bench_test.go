@@ -20,16 +20,14 @@ import (
 // test's client in the same process. allocs/op counts both ends; the
 // server's share is read from a -memprofile. Callers send runs of 30
 // readings to a bench each, as a lab does, then take an unused bench, so
-// the judging measured is that of lab-length runs. The unjudged case
-// leaves the judging out, to show its share of a reading's cost.
+// the judging measured is that of lab-length runs.
+// BenchmarkSubmitReadingUnjudged (a failpoints build) leaves the judging out,
+// to show its share of a reading's cost:
 //
-//	go test -run '^$' -bench SubmitReading -benchmem ./server/
-func BenchmarkSubmitReading(b *testing.B) {
-	b.Run("judged", func(b *testing.B) { benchmarkSubmitReading(b, false) })
-	b.Run("unjudged", func(b *testing.B) { benchmarkSubmitReading(b, true) })
-}
+//	go test -tags failpoints -run '^$' -bench SubmitReading -benchmem ./server/
+func BenchmarkSubmitReading(b *testing.B) { benchmarkSubmitReading(b, nil) }
 
-func benchmarkSubmitReading(b *testing.B, skipJudging bool) {
+func benchmarkSubmitReading(b *testing.B, prepare func(*Server)) {
 	const (
 		runLength = 30
 		perRoom   = 30
@@ -37,8 +35,7 @@ func benchmarkSubmitReading(b *testing.B, skipJudging bool) {
 	)
 	// No station is held back: the rate limit is measured in the load
 	// program's fairness phase, not here.
-	r := startRigWith(b, Config{StationRate: 1e9, StationBurst: 1 << 30})
-	r.srv.skipJudging = skipJudging
+	r := startRigPrepared(b, Config{StationRate: 1e9, StationBurst: 1 << 30}, prepare)
 	ctx := context.Background()
 	benches := b.N/runLength + 1
 	var calls []context.Context // one per bench, carrying its station token

@@ -1,3 +1,5 @@
+//go:build failpoints
+
 package server
 
 import (
@@ -11,7 +13,8 @@ import (
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
-// TestNothingAcknowledgedBeforeCommit fails a submission at each stage: a
+// TestNothingAcknowledgedBeforeCommit (a failpoints build: make test runs it)
+// fails a submission at each stage: a
 // failure before the commit stores nothing; one after it stores the reading
 // but does not acknowledge it, and the station's retry with the same id is
 // then acknowledged as a duplicate, never stored twice.
@@ -19,12 +22,14 @@ func TestNothingAcknowledgedBeforeCommit(t *testing.T) {
 	for _, stage := range []string{"received", "committed", "replying"} {
 		t.Run(stage, func(t *testing.T) {
 			armed := true
-			r := startRigWith(t, Config{FailPoint: func(s string) error {
-				if armed && s == stage {
-					return errors.New("injected failure at " + s)
-				}
-				return nil
-			}})
+			r := startRigPrepared(t, Config{}, func(srv *Server) {
+				srv.SetHooks(Hooks{FailPoint: func(s string) error {
+					if armed && s == stage {
+						return errors.New("injected failure at " + s)
+					}
+					return nil
+				}})
+			})
 			ctx := context.Background()
 			sess, benches := setupRoom(t, r)
 			_, err := submit(ctx, r, sess.SessionId, benches[0].BenchId, "fp-1", 1, 0.48)

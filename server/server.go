@@ -64,15 +64,6 @@ type Config struct {
 	// MaxMessageBytes bounds one request; default 64 KiB, far above any
 	// reading.
 	MaxMessageBytes int
-	// FailPoint, when set, is called at each stage of a submission
-	// ("received", "committed", "replying"); an error it returns fails the
-	// call there. Tests use it to show that nothing is acknowledged before
-	// it is committed.
-	FailPoint func(stage string) error
-	// AckBeforeCommit makes SubmitReading reply before its reading is
-	// written. It exists only as the negative control of the durability
-	// test, which must show that it loses readings; never use it.
-	AckBeforeCommit bool
 }
 
 // Server serves the fluxroom API on one listener.
@@ -91,14 +82,12 @@ type Server struct {
 	grpc    *grpc.Server
 	// stallAfter, stallCheck and roomIdle: see Config.
 	stallAfter, stallCheck, roomIdle time.Duration
-	failPoint                        func(string) error
-	ackBeforeCommit                  bool
 	http                             *http.Server
 	health                           *health.Server
 
-	// skipJudging leaves committed readings unjudged: set only by
-	// BenchmarkSubmitReading, to show what judging costs a reading.
-	skipJudging bool
+	// hooks are the test switches of a build with -tags failpoints
+	// (hooks.go); an empty struct otherwise (hooks_off.go).
+	hooks hooks
 
 	// judges holds each session's roomJudge. The judges and the ticker
 	// run through goBackground, so Shutdown can wait for them.
@@ -157,7 +146,6 @@ func New(cfg Config) (*Server, error) {
 	// Ten minutes without a reading is long in a lab where a point takes
 	// one or two // common practice.
 	s.stallAfter, s.stallCheck = cfg.StallAfter, cfg.StallCheck
-	s.failPoint, s.ackBeforeCommit = cfg.FailPoint, cfg.AckBeforeCommit
 	if s.stallAfter == 0 {
 		s.stallAfter = 10 * time.Minute
 	}
@@ -385,14 +373,6 @@ func (s *Server) checkStore() {
 	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName} {
 		s.health.SetServingStatus(name, st)
 	}
-}
-
-// fail runs the fail point of a submission stage.
-func (s *Server) fail(stage string) error {
-	if s.failPoint == nil {
-		return nil
-	}
-	return s.failPoint(stage)
 }
 
 // ShownKey is the instructor key New made because none was stored or given;

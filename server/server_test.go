@@ -57,6 +57,13 @@ func startRig(t testing.TB) *rig {
 // startRigWith is startRig with the given clock and room settings.
 func startRigWith(t testing.TB, cfg Config) *rig {
 	t.Helper()
+	return startRigPrepared(t, cfg, nil)
+}
+
+// startRigPrepared is startRigWith that calls prepare, when set, on the
+// server before it serves (a failpoints build's tests install hooks there).
+func startRigPrepared(t testing.TB, cfg Config, prepare func(*Server)) *rig {
+	t.Helper()
 	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
 	if err != nil {
 		t.Fatal(err)
@@ -71,6 +78,9 @@ func startRigWith(t testing.TB, cfg Config) *rig {
 	srv, err := New(cfg)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if prepare != nil {
+		prepare(srv)
 	}
 	l, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {

@@ -5,7 +5,6 @@ import (
 	"crypto/rand"
 	"errors"
 	"strings"
-	"time"
 
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
@@ -95,12 +94,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	if err := st.s.fail("received"); err != nil {
 		return nil, err
 	}
-	if st.s.ackBeforeCommit {
-		// The negative control: acknowledge now, write later.
-		go func() {
-			time.Sleep(50 * time.Millisecond)
-			st.s.db.AppendReading(req.GetSessionId(), req.GetBenchId(), r)
-		}()
+	if st.s.ackEarly(req.GetSessionId(), req.GetBenchId(), r) {
 		return &pb.SubmitReadingResponse{Reading: readingToPB(r)}, nil
 	}
 	// AppendReading returns once bbolt has committed the transaction, which
@@ -116,7 +110,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		st.s.metrics.duplicates.Add(1)
 	} else {
 		st.s.metrics.readings.Add(1)
-		if !st.s.skipJudging {
+		if !st.s.skipJudging() {
 			st.s.judged(req.GetSessionId(), req.GetBenchId(), stored)
 		}
 	}

@@ -8,6 +8,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"strings"
 	"sync"
 	"syscall"
 	"testing"
@@ -22,30 +23,34 @@ import (
 	"example.com/fluxroom/store"
 )
 
-var (
-	binOnce sync.Once
-	binPath string
-	binErr  error
-)
+// builds holds the real program built once per test run for each set of
+// build tags: the release build, and the failpoints build with the test
+// switches.
+var builds sync.Map // tags → func() (string, error)
 
-// fluxroomBinary builds the real program once per test run.
-func fluxroomBinary(t *testing.T) string {
+// fluxroomBinary builds the real program once per test run, as released.
+func fluxroomBinary(t *testing.T) string { return buildFluxroom(t, "") }
+
+// buildFluxroom builds the real program once per test run with the given
+// build tags ("failpoints" for the test switches).
+func buildFluxroom(t *testing.T, tags string) string {
 	t.Helper()
-	binOnce.Do(func() {
+	build, _ := builds.LoadOrStore(tags, sync.OnceValues(func() (string, error) {
 		dir, err := os.MkdirTemp("", "fluxroom-bin-")
 		if err != nil {
-			binErr = err
-			return
+			return "", err
 		}
-		binPath = filepath.Join(dir, "fluxroom")
-		if out, err := exec.Command("go", "build", "-o", binPath, ".").CombinedOutput(); err != nil {
-			binErr = fmt.Errorf("go build: %v\n%s", err, out)
+		bin := filepath.Join(dir, "fluxroom")
+		if out, err := exec.Command("go", "build", "-tags", tags, "-o", bin, ".").CombinedOutput(); err != nil {
+			return "", fmt.Errorf("go build -tags %q: %v\n%s", tags, err, out)
 		}
-	})
-	if binErr != nil {
-		t.Fatal(binErr)
+		return bin, nil
+	}))
+	bin, err := build.(func() (string, error))()
+	if err != nil {
+		t.Fatal(err)
 	}
-	return binPath
+	return bin
 }
 
 func freePort(t *testing.T) string {
@@ -63,8 +68,7 @@ type killResult struct {
 	cycles, acked, found, lost, duplicates int
 }
 
-func killCycles(t *testing.T, cycles int, extra ...string) killResult {
-	bin := fluxroomBinary(t)
+func killCycles(t *testing.T, bin string, cycles int, extra ...string) killResult {
 	dir := t.TempDir()
 	dbPath := filepath.Join(dir, "fluxroom.db")
 	addr := freePort(t)
@@ -250,7 +254,7 @@ func TestSurvivesSIGKILL(t *testing.T) {
 	if testing.Short() {
 		t.Skip("kill cycles skipped in -short mode")
 	}
-	res := killCycles(t, 20)
+	res := killCycles(t, fluxroomBinary(t), 20)
 	t.Logf("SIGKILL cycles %d: readings acknowledged %d, found %d, lost %d, stored twice %d", res.cycles, res.acked, res.found, res.acked-res.found, res.duplicates)
 	if res.found != res.acked || res.duplicates != 0 || res.acked == 0 {
 		t.Errorf("acknowledged %d, found %d, duplicates %d", res.acked, res.found, res.duplicates)
@@ -258,14 +262,41 @@ func TestSurvivesSIGKILL(t *testing.T) {
 }
 
 // TestSIGKILLNegativeControl gives the kill test teeth: the same load with
-// a server that acknowledges before it writes must lose readings.
+// a server that acknowledges before it writes must lose readings. That
+// server is the failpoints build; the release build has no such switch
+// (TestReleaseBuildHasNoTestSwitches).
 func TestSIGKILLNegativeControl(t *testing.T) {
 	if testing.Short() {
 		t.Skip("kill cycles skipped in -short mode")
 	}
-	res := killCycles(t, 5, "--test-ack-before-commit")
+	res := killCycles(t, buildFluxroom(t, "failpoints"), 5, "--test-ack-before-commit")
 	t.Logf("negative control, %d cycles: acknowledged %d, found %d, lost %d", res.cycles, res.acked, res.found, res.acked-res.found)
 	if res.found == res.acked {
 		t.Errorf("acknowledging before the commit lost nothing (%d acknowledged): the kill test cannot tell", res.acked)
+	}
+}
+
+// TestReleaseBuildHasNoTestSwitches: the program as released knows no test
+// switch, and its server package compiles none in.
+func TestReleaseBuildHasNoTestSwitches(t *testing.T) {
+	out, _ := exec.Command(fluxroomBinary(t), "serve", "--test-ack-before-commit").CombinedOutput()
+	if !strings.Contains(string(out), "flag provided but not defined: -test-ack-before-commit") {
+		t.Errorf("release serve --test-ack-before-commit said %q; want the flag unknown", out)
+	}
+	help, _ := exec.Command(fluxroomBinary(t), "serve", "--help").CombinedOutput()
+	if strings.Contains(string(help), "test-ack") {
+		t.Errorf("release serve --help lists a test switch:\n%s", help)
+	}
+	for _, tc := range []struct {
+		tags, want, not string
+	}{{"", "hooks_off.go", "hooks.go"}, {"failpoints", "hooks.go", "hooks_off.go"}} {
+		files, err := exec.Command("go", "list", "-tags", tc.tags, "-f", "{{join .GoFiles \" \"}}", "example.com/fluxroom/server").Output()
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := " " + strings.TrimSpace(string(files)) + " "
+		if !strings.Contains(got, " "+tc.want+" ") || strings.Contains(got, " "+tc.not+" ") {
+			t.Errorf("server with tags %q compiles %s; want %s and not %s", tc.tags, got, tc.want, tc.not)
+		}
 	}
 }

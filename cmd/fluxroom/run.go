@@ -175,10 +175,12 @@ type running struct {
 type serverOptions struct {
 	instructorKey   string
 	tlsCert, tlsKey string
-	ackBeforeCommit bool
-	stationRate     float64
-	stationBurst    int
-	roomIdle        time.Duration
+	// prepare, when set, is called on the server before it serves: a
+	// failpoints build installs its test hooks there (testFlags).
+	prepare      func(*server.Server)
+	stationRate  float64
+	stationBurst int
+	roomIdle     time.Duration
 }
 
 // start opens the database and serves on addr until ctx ends or stop runs.
@@ -196,10 +198,13 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
 	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey,
-		AckBeforeCommit: opts.ackBeforeCommit, StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle})
+		StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle})
 	if err != nil {
 		db.Close()
 		return nil, err
+	}
+	if opts.prepare != nil {
+		opts.prepare(srv)
 	}
 	l, err := net.Listen("tcp", addr)
 	if err != nil {
@@ -314,7 +319,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	memLimit := fs.String("memory-limit", defaultMemoryLimit, "soft limit on the server's memory, such as 400MiB or 2GiB, or none: the collector works harder near it (default none, or GOMEMLIMIT)")
 	gcPercent := fs.Int("gc-percent", defaultGCPercent, "the collector's GOGC: heap growth between collections, in percent of the live heap (default 100, or GOGC); higher trades memory for CPU")
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the server to this file until it stops (performance work)")
-	ackEarly := fs.Bool("test-ack-before-commit", false, "negative control of the durability test: acknowledges readings before writing them, and loses some; never use")
+	testHooks := testFlags(fs)
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -353,10 +358,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 		return err
 	}
 	defer stopProfile()
-	if *ackEarly {
-		log.Warn("--test-ack-before-commit: readings are acknowledged before they are written and WILL be lost")
-	}
-	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, ackBeforeCommit: *ackEarly,
+	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, prepare: testHooks(log),
 		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey, roomIdle: *roomIdle})
 	if err != nil {
 		return err
