@@ -35,8 +35,9 @@ test-short:
 ## bench: the scale load program (quick sweep, about a minute; BENCH_ARGS=--full for the full one,
 ## a few minutes), then the Go benchmarks.
 BENCH_ARGS ?=
-bench:
-	$(GO) run ./cmd/fluxroom loadtest $(BENCH_ARGS)
+bench: build
+	$(GO) build -o $(BIN)/fluxroom-load ./cmd/fluxroom-load
+	$(BIN)/fluxroom-load --fluxroom $(BIN)/fluxroom $(BENCH_ARGS)
 	$(GO) test -run='^$$' -bench=. -benchmem ./domain/ ./store/
 	$(GO) test -tags failpoints -run='^$$' -bench=SubmitReading -benchmem ./server/
 	$(GO) test -run='^$$' -bench=ExportTerm -benchtime=1x ./internal/export/

@@ -15,12 +15,12 @@ import (
 	"os"
 	"path/filepath"
 	"runtime/debug"
-	"runtime/pprof"
 	"strconv"
 	"strings"
 
 	"time"
 
+	"example.com/fluxroom/internal/cpuprofile"
 	"example.com/fluxroom/server"
 	"example.com/fluxroom/store"
 	"example.com/fluxroom/wasmclient"
@@ -71,7 +71,6 @@ Commands:
   catalogue list every diagnosis code with its cause and suggested action
   backup  copy the database while serving: fluxroom backup --server HOST:PORT --instructor-key KEY --out FILE (or --db FILE)
   restore put a checked backup in place (server stopped): fluxroom restore --from FILE --db FILE
-  loadtest the scale benchmark of make bench (see README, Performance)
   version print the version
   help    show this text
 
@@ -103,10 +102,6 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.backupCmd(ctx, args[1:])
 	case "restore":
 		return m.restoreCmd(ctx, args[1:])
-	case "loadtest":
-		return m.loadCmd(ctx, args[1:])
-	case "loadtest-echo":
-		return m.echoServe(ctx, args[1:])
 	case "version":
 		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":
@@ -234,23 +229,6 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 	return r, nil
 }
 
-// startCPUProfile writes a CPU profile of this process to path (none when
-// path is empty) until stop is called.
-func startCPUProfile(path string) (stop func(), err error) {
-	if path == "" {
-		return func() {}, nil
-	}
-	f, err := os.Create(path)
-	if err != nil {
-		return nil, fmt.Errorf("--cpuprofile: %w", err)
-	}
-	if err := pprof.StartCPUProfile(f); err != nil {
-		f.Close()
-		return nil, fmt.Errorf("--cpuprofile: %w", err)
-	}
-	return func() { pprof.StopCPUProfile(); f.Close() }, nil
-}
-
 // parseBytes reads a size as GOMEMLIMIT writes it: a number with B, KiB,
 // MiB, GiB or TiB.
 func parseBytes(s string) (int64, error) {
@@ -353,7 +331,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if _, fromEnv := os.LookupEnv("GOMEMLIMIT"); !fromEnv || *memLimit != defaultMemoryLimit {
 		debug.SetMemoryLimit(limit)
 	}
-	stopProfile, err := startCPUProfile(*cpuProfile)
+	stopProfile, err := cpuprofile.Start(*cpuProfile)
 	if err != nil {
 		return err
 	}

@@ -28,9 +28,18 @@ import (
 // the server's CPU and memory are read from the kernel apart from the load
 // generator's, on the same cores.
 
-// childExecutable is the fluxroom binary the load program starts: itself,
-// except in tests, where the running binary is the test.
-var childExecutable = os.Executable
+// echoExecutable is the program the echo baseline's server runs: this one,
+// except in tests, where the running program is the test.
+var echoExecutable = os.Executable
+
+// startEcho starts the echo baseline's server (echoServe) as a child.
+func startEcho() (*child, time.Duration, error) {
+	exe, err := echoExecutable()
+	if err != nil {
+		return nil, 0, err
+	}
+	return startChild(exe, echoChild)
+}
 
 // child is a server process started by the load program.
 type child struct {
@@ -38,14 +47,10 @@ type child struct {
 	addr string
 }
 
-// startChild runs this executable with args plus --addr on a free loopback
-// port, and returns once the gRPC health service answers SERVING, with the
-// time that took from the exec.
-func startChild(args ...string) (*child, time.Duration, error) {
-	exe, err := childExecutable()
-	if err != nil {
-		return nil, 0, err
-	}
+// startChild runs exe with args plus --addr on a free loopback port, and
+// returns once the gRPC health service answers SERVING, with the time that
+// took from the exec.
+func startChild(exe string, args ...string) (*child, time.Duration, error) {
 	l, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		return nil, 0, err
@@ -258,6 +263,10 @@ func cpuModel() string {
 	return "unknown CPU"
 }
 
+// serveGCPercent is fluxroom serve's default --gc-percent, Go's own
+// (cmd/fluxroom/run.go), which the echo's server runs with too.
+const serveGCPercent = 100
+
 // echoMethod is the baseline's echo: it returns the reading it is sent,
 // decoded and encoded again, so the baseline moves the same bytes through
 // the same protobuf map code as a SubmitReading, and nothing else.
@@ -278,15 +287,16 @@ var echoService = grpc.ServiceDesc{
 
 // echoServe is the baseline server: bare grpc-go, grpc.Server.Serve with
 // default options, the echo and the health service (an empty call), and
-// the collector set as serve sets it. Hidden command "loadtest-echo".
-func (m *Main) echoServe(ctx context.Context, args []string) error {
-	fs := m.newFlags("loadtest-echo")
+// the collector set as fluxroom serve sets it by default. This program
+// runs it when started as `fluxroom-load echo-child`.
+func echoServe(ctx context.Context, args []string) error {
+	fs := newFlags(echoChild, os.Stderr)
 	addr := fs.String("addr", "127.0.0.1:0", "host:port to listen on")
 	if err := parse(fs, args); err != nil {
 		return err
 	}
 	if _, fromEnv := os.LookupEnv("GOGC"); !fromEnv {
-		debug.SetGCPercent(defaultGCPercent)
+		debug.SetGCPercent(serveGCPercent)
 	}
 	l, err := net.Listen("tcp", *addr)
 	if err != nil {

@@ -29,7 +29,7 @@ type echoRates struct {
 // echoing readings like those the closed loop submits, then the empty call.
 func echoBaseline(callers, conns int, dur time.Duration) (echoRates, error) {
 	var res echoRates
-	c, _, err := startChild("loadtest-echo")
+	c, _, err := startEcho()
 	if err != nil {
 		return res, err
 	}
@@ -74,7 +74,7 @@ type openEcho struct {
 // the rates in turn, each for dur, over conns connections dialled and used
 // once before the clock starts.
 func echoOpenLoop(conns int, rates []float64, dur time.Duration) ([]openEcho, error) {
-	c, _, err := startChild("loadtest-echo")
+	c, _, err := startEcho()
 	if err != nil {
 		return nil, err
 	}
@@ -213,7 +213,7 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	if cfg.profile != "" {
 		args = append(args, "--cpuprofile", cfg.profile+"-closed.prof")
 	}
-	r, _, err := newLoadRoom(dir, cfg.callers, false, args...)
+	r, _, err := newLoadRoom(cfg.fluxroom, dir, cfg.callers, false, args...)
 	if err != nil {
 		return res, err
 	}

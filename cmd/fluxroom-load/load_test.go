@@ -5,6 +5,8 @@ import (
 	"context"
 	"errors"
 	"os"
+	"os/exec"
+	"path/filepath"
 	"strings"
 	"testing"
 
@@ -13,17 +15,30 @@ import (
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
-// The load program runs end to end on a small sweep: every server starts as
-// a child, every phase measures something, and the targets are checked.
+// build compiles a package of the module into dir and returns the binary.
+func build(t *testing.T, dir, pkg string) string {
+	t.Helper()
+	bin := filepath.Join(dir, filepath.Base(pkg))
+	if out, err := exec.Command("go", "build", "-o", bin, pkg).CombinedOutput(); err != nil {
+		t.Fatalf("go build %s: %v\n%s", pkg, err, out)
+	}
+	return bin
+}
+
+// The load program runs end to end on a small sweep against the real
+// fluxroom program: every server starts as a child, every phase measures
+// something, and the targets are checked.
 func TestLoadtestRuns(t *testing.T) {
 	if testing.Short() {
 		t.Skip("starts several servers")
 	}
-	bin := fluxroomBinary(t)
-	childExecutable = func() (string, error) { return bin, nil }
-	defer func() { childExecutable = os.Executable }()
+	dir := t.TempDir()
+	fluxroom := build(t, dir, "example.com/fluxroom/cmd/fluxroom")
+	self := build(t, dir, "example.com/fluxroom/cmd/fluxroom-load")
+	echoExecutable = func() (string, error) { return self, nil }
+	defer func() { echoExecutable = os.Executable }()
 	var out bytes.Buffer
-	err := NewMain(&out, &out).Run(context.Background(), []string{"loadtest", "--stations", "40", "--watchers", "2",
+	err := run(context.Background(), &out, &out, []string{"--fluxroom", fluxroom, "--stations", "40", "--watchers", "2",
 		"--light", "200", "--heavy", "300", "--duration", "400ms", "--callers", "64"})
 	if err != nil {
 		t.Fatalf("%v\n%s", err, out.String())
@@ -38,48 +53,6 @@ func TestLoadtestRuns(t *testing.T) {
 	}
 	if strings.Contains(out.String(), "NaN") {
 		t.Errorf("a figure is NaN:\n%s", out.String())
-	}
-}
-
-func TestParseBytes(t *testing.T) {
-	for _, tc := range []struct {
-		in   string
-		want int64
-		ok   bool
-	}{
-		{"300MiB", 300 << 20, true}, {"2GiB", 2 << 30, true}, {"1.5GiB", 3 << 29, true}, {"512 KiB", 512 << 10, true},
-		{"300", 0, false}, {"MiB", 0, false}, {"-1MiB", 0, false}, {"lots GiB", 0, false},
-	} {
-		got, err := parseBytes(tc.in)
-		if (err == nil) != tc.ok || got != tc.want {
-			t.Errorf("parseBytes(%q) = %d, %v; want %d, ok %v", tc.in, got, err, tc.want, tc.ok)
-		}
-	}
-}
-
-// serve refuses a bad memory setting before it opens anything.
-func TestServeRejectsBadMemoryFlags(t *testing.T) {
-	for _, tc := range []struct {
-		name string
-		args []string
-		flag string
-	}{
-		{"limit without a unit", []string{"--memory-limit", "300"}, "--memory-limit"},
-		{"negative limit", []string{"--memory-limit", "-1GiB"}, "--memory-limit"},
-		{"zero gc percent", []string{"--gc-percent", "0"}, "--gc-percent"},
-	} {
-		t.Run(tc.name, func(t *testing.T) {
-			db := t.TempDir() + "/fluxroom.db"
-			var out bytes.Buffer
-			err := NewMain(&out, &out).Run(context.Background(), append([]string{"serve", "--db", db, "--addr", "127.0.0.1:0"}, tc.args...))
-			var ue usageError
-			if !errors.As(err, &ue) || !strings.Contains(err.Error(), tc.flag) {
-				t.Fatalf("serve %v: %v; want a usage error naming %s", tc.args, err, tc.flag)
-			}
-			if _, serr := os.Stat(db); !errors.Is(serr, os.ErrNotExist) {
-				t.Errorf("serve %v made %s before refusing", tc.args, db)
-			}
-		})
 	}
 }
 
@@ -120,5 +93,28 @@ func TestBenchEventReadsWhatProtobufReads(t *testing.T) {
 	}
 	if _, _, _, err := benchEvent([]byte{0x1a, 0x05, 0x01}); err == nil {
 		t.Error("a truncated event parsed")
+	}
+}
+
+// TestProductHasNoLoadProgram: the fluxroom program ships the product; its
+// load program and echo server are this command's.
+func TestProductHasNoLoadProgram(t *testing.T) {
+	fluxroom := build(t, t.TempDir(), "example.com/fluxroom/cmd/fluxroom")
+	for _, cmd := range []string{"loadtest", "loadtest-echo"} {
+		out, err := exec.Command(fluxroom, cmd).CombinedOutput()
+		if err == nil || !strings.Contains(string(out), "unknown command") {
+			t.Errorf("fluxroom %s: %v %q; want an unknown command", cmd, err, out)
+		}
+	}
+}
+
+// TestRefusesAMissingProgram: without the program to measure, the load
+// program says what to do instead of failing in its first phase.
+func TestRefusesAMissingProgram(t *testing.T) {
+	var out bytes.Buffer
+	err := run(context.Background(), &out, &out, []string{"--fluxroom", filepath.Join(t.TempDir(), "none")})
+	var ue usageError
+	if !errors.As(err, &ue) || !strings.Contains(err.Error(), "make build") {
+		t.Errorf("err = %v, want a usage error that says to run make build", err)
 	}
 }

@@ -68,6 +68,7 @@ func (s *loadStation) reading() *pb.SubmitReadingRequest {
 // loadRoom is a server with its sessions and joined stations.
 type loadRoom struct {
 	c        *child
+	fluxroom string // the program the server runs
 	db       string
 	admin    *grpc.ClientConn
 	in       rpcpb.InstructorServiceClient
@@ -86,16 +87,16 @@ func (r *loadRoom) close() {
 	}
 }
 
-// newLoadRoom starts a server on a fresh file and joins n stations to a
-// first section. With own, every station dials its own connection and
-// makes one call on it.
-func newLoadRoom(dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
+// newLoadRoom starts a server of the fluxroom program on a fresh file and
+// joins n stations to a first section. With own, every station dials its
+// own connection and makes one call on it.
+func newLoadRoom(fluxroom, dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
 	db := filepath.Join(dir, fmt.Sprintf("load-%d.db", time.Now().UnixNano()))
-	c, startup, err := startChild(append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
+	c, startup, err := startChild(fluxroom, append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
 	if err != nil {
 		return nil, 0, err
 	}
-	r := &loadRoom{c: c, db: db}
+	r := &loadRoom{c: c, fluxroom: fluxroom, db: db}
 	if r.admin, err = grpc.NewClient(c.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(loadKey))); err != nil {
 		c.kill()
 		return nil, 0, err

@@ -11,11 +11,14 @@ import (
 	"strings"
 	"time"
 
+	"example.com/fluxroom/internal/cpuprofile"
 	"example.com/fluxroom/store"
 )
 
 // loadConfig is one run of the scale benchmark.
 type loadConfig struct {
+	// fluxroom is the program whose servers are measured.
+	fluxroom           string
 	stations, watchers []int
 	light, heavy       float64
 	// perStation caps each station's pace: a data logger's, far above a
@@ -39,12 +42,13 @@ const (
 	loadGenGCPercent = 400
 )
 
-// loadCmd is the scale benchmark behind `make bench`: real servers as child
+// run is the scale benchmark behind `make bench`: real servers as child
 // processes on loopback with temporary bbolt files, stations on their own
 // connections submitting open loop, watchers on the room streams, and the
 // baselines its figures are divided by, measured in the same run.
-func (m *Main) loadCmd(ctx context.Context, args []string) error {
-	fs := m.newFlags("loadtest")
+func run(ctx context.Context, stdout, stderr io.Writer, args []string) error {
+	fs := newFlags("fluxroom-load", stderr)
+	fluxroom := fs.String("fluxroom", "bin/fluxroom", "the fluxroom program to measure (make build writes bin/fluxroom)")
 	full := fs.Bool("full", false, "the full sweep: M = 30, 512, 5000 stations, W = 1, 100 watchers, 5 s phases")
 	stations := fs.String("stations", "", "comma-separated station counts to sweep (default 100,512; 30,512,5000 with --full)")
 	watchers := fs.String("watchers", "1,100", "comma-separated watcher counts to sweep")
@@ -66,12 +70,12 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 	if _, fromEnv := os.LookupEnv("GOGC"); !fromEnv {
 		debug.SetGCPercent(loadGenGCPercent)
 	}
-	stopProfile, err := startCPUProfile(*genProfile)
+	stopProfile, err := cpuprofile.Start(*genProfile)
 	if err != nil {
 		return err
 	}
 	defer stopProfile()
-	cfg := loadConfig{watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
+	cfg := loadConfig{fluxroom: *fluxroom, watchers: ints(*watchers), light: *light, heavy: *heavy, perStation: *perStation,
 		dur: *dur, callers: *callers, flooders: *flooders, profile: *profile, memLimit: *memLimit, gcPercent: *gcPercent}
 	switch {
 	case *stations != "":
@@ -88,9 +92,12 @@ func (m *Main) loadCmd(ctx context.Context, args []string) error {
 		}
 	}
 	if len(cfg.stations) == 0 || len(cfg.watchers) == 0 || cfg.light <= 0 || cfg.heavy <= 0 || cfg.callers <= 0 {
-		return usageError{"loadtest: --stations, --watchers, --light, --heavy and --callers must be positive"}
+		return usageError{"--stations, --watchers, --light, --heavy and --callers must be positive"}
 	}
-	return runLoadtest(m.Stdout, cfg)
+	if _, err := os.Stat(cfg.fluxroom); err != nil {
+		return usageError{fmt.Sprintf("--fluxroom %s: %v (run make build first)", cfg.fluxroom, err)}
+	}
+	return runLoadtest(stdout, cfg)
 }
 
 func ints(s string) []int {
@@ -224,7 +231,7 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	if cfg.profile != "" {
 		args = append(args, "--cpuprofile", fmt.Sprintf("%s-%d-%d.prof", cfg.profile, stations, watchers))
 	}
-	r, startup, err := newLoadRoom(dir, stations, false, args...)
+	r, startup, err := newLoadRoom(cfg.fluxroom, dir, stations, false, args...)
 	if err != nil {
 		return p, err
 	}
@@ -285,7 +292,7 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	}
 	// Restart on the filled file: how long a crashed or upgraded server
 	// keeps the room waiting.
-	c, restart, err := startChild("serve", "--db", r.db, "--log-level", "error", "--instructor-key", loadKey)
+	c, restart, err := startChild(r.fluxroom, "serve", "--db", r.db, "--log-level", "error", "--instructor-key", loadKey)
 	if err != nil {
 		return p, fmt.Errorf("restart: %w", err)
 	}
