@@ -24,16 +24,16 @@ func BenchmarkAssessAfterReading(b *testing.B) {
 			b.Run(fmt.Sprintf("%s/%d", exp, n), func(b *testing.B) {
 				b.ReportAllocs()
 				for i := 0; i < b.N; i++ {
-					Assess(g.Bench, rs, DefaultTolerance)
+					Assess(g.Bench, rs, DefaultTolerance())
 				}
 			})
 			b.Run(fmt.Sprintf("%s/%d/memo", exp, n), func(b *testing.B) {
 				var m Memo
-				a := AssessMemo(g.Bench, rs[:n-1], DefaultTolerance, &m)
+				a := AssessMemo(g.Bench, rs[:n-1], DefaultTolerance(), &m)
 				ResultOfMemo(g.Bench, a, rs[:n-1], &m)
 				b.ReportAllocs()
 				for i := 0; i < b.N; i++ {
-					a := AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+					a := AssessMemo(g.Bench, rs, DefaultTolerance(), &m)
 					ResultOfMemo(g.Bench, a, rs, &m)
 				}
 			})
@@ -48,7 +48,7 @@ func BenchmarkRoomFindings(b *testing.B) {
 	for i := 0; i < 30; i++ {
 		g, _ := Simulate("coil_force", "", rand.New(rand.NewPCG(uint64(i), 2)), time.Time{})
 		g.Bench.ID = uint64(i + 1)
-		a := Assess(g.Bench, g.Readings, DefaultTolerance)
+		a := Assess(g.Bench, g.Readings, DefaultTolerance())
 		results = append(results, ResultOf(g.Bench, a, g.Readings))
 	}
 	b.ReportAllocs()

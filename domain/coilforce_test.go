@@ -38,7 +38,7 @@ func forceReadings(scale, offset, sd float64, seed uint64) []Reading {
 }
 
 func TestCoilForceWorkedExample(t *testing.T) {
-	a := Assess(forceBench(), forceReadings(1, 0, 0, 1), DefaultTolerance)
+	a := Assess(forceBench(), forceReadings(1, 0, 0, 1), DefaultTolerance())
 	// [derived] PHYSICS.md §2(a): N·B·L = 100 × 0.120 T × 0.040 m = 0.480 N/A.
 	if relErr(a.Predicted.Value, 0.480) > 1e-12 {
 		t.Errorf("predicted slope = %g N/A, want 0.480", a.Predicted.Value)
@@ -75,7 +75,7 @@ func TestCoilForceVerdicts(t *testing.T) {
 			if tc.readings > 0 {
 				rs = rs[:tc.readings]
 			}
-			a := Assess(forceBench(), rs, DefaultTolerance)
+			a := Assess(forceBench(), rs, DefaultTolerance())
 			if a.Verdict != tc.want {
 				t.Errorf("verdict = %s, want %s (%s)", a.Verdict.Label(), tc.want.Label(), a.Reason)
 			}
@@ -95,7 +95,7 @@ func TestCoilForceAllAtOneCurrent(t *testing.T) {
 	for i := range rs {
 		rs[i].Values["current"] = Quantity{Value: 2, Unit: "A"}
 	}
-	if a := Assess(forceBench(), rs, DefaultTolerance); a.Verdict != NeedData {
+	if a := Assess(forceBench(), rs, DefaultTolerance()); a.Verdict != NeedData {
 		t.Errorf("verdict = %s, want need data", a.Verdict.Label())
 	}
 }
@@ -199,7 +199,7 @@ func TestFormatMeasurement(t *testing.T) {
 func TestPlotOfEveryExperiment(t *testing.T) {
 	for _, exp := range SimulatedExperiments() {
 		g := simulate(t, exp, "", 11)
-		a := Assess(g.Bench, g.Readings, DefaultTolerance)
+		a := Assess(g.Bench, g.Readings, DefaultTolerance())
 		if a.Plot == nil || len(a.Plot.Points) != len(g.Readings) {
 			t.Errorf("%s: plot %+v, want %d points", exp, a.Plot, len(g.Readings))
 			continue

@@ -63,7 +63,7 @@ func TestGoldenDiagnoses(t *testing.T) {
 						t.Fatal(err)
 					}
 				}
-				a := Assess(b, g.Readings, DefaultTolerance)
+				a := Assess(b, g.Readings, DefaultTolerance())
 				if !topOK(a, code) {
 					t.Errorf("verdict %s, diagnoses %v; want %s on top (%s)", a.Verdict.Label(), codesOf(a), code, a.Reason)
 				}
@@ -91,7 +91,7 @@ func TestCleanGroupsAreConsistent(t *testing.T) {
 				if n < e.MinReadings || n > len(g.Readings) {
 					continue
 				}
-				a := Assess(g.Bench, g.Readings[:n], DefaultTolerance)
+				a := Assess(g.Bench, g.Readings[:n], DefaultTolerance())
 				judged++
 				switch a.Verdict {
 				case Consistent:
@@ -126,7 +126,7 @@ func TestCatalogueAccuracy(t *testing.T) {
 			var t1, t3 int
 			for seed := uint64(0); seed < runs; seed++ {
 				g := simulate(t, exp, code, 5000+seed)
-				a := Assess(g.Bench, g.Readings, DefaultTolerance)
+				a := Assess(g.Bench, g.Readings, DefaultTolerance())
 				cs := codesOf(a)
 				if topOK(a, code) {
 					t1++
@@ -143,7 +143,7 @@ func TestCatalogueAccuracy(t *testing.T) {
 		}
 		for seed := uint64(0); seed < runs; seed++ {
 			g := simulate(t, exp, "", 9000+seed)
-			a := Assess(g.Bench, g.Readings, DefaultTolerance)
+			a := Assess(g.Bench, g.Readings, DefaultTolerance())
 			clean++
 			if a.Verdict != Consistent || len(a.Diagnoses) > 0 && a.Diagnoses[0].Code != CodeTooGood {
 				falseAlarm++

@@ -53,7 +53,7 @@ func FuzzAssess(f *testing.F) {
 				rs = append(rs, Reading{Values: values})
 			}
 		}
-		a := Assess(b, rs, DefaultTolerance)
+		a := Assess(b, rs, DefaultTolerance())
 		if a.Verdict == VerdictUnspecified {
 			t.Fatalf("Assess gave no verdict")
 		}

@@ -55,19 +55,22 @@ type QualityRule struct {
 	DeductPerDiagnosis float64 `json:"deduct_fraction_per_diagnosis"`
 }
 
-// DefaultPolicy is ten points per experiment: 2 completeness, 4 accuracy, 2
-// precision, 2 data quality, one point off per unsafe reading. The bands
+// DefaultPolicy returns ten points per experiment: 2 completeness, 4
+// accuracy, 2 precision, 2 data quality, one point off per unsafe reading;
+// a new copy each call, so no caller can change another's. The bands
 // follow the 5 % / 10 % practice of introductory labs // common practice.
-var DefaultPolicy = Policy{
-	Name:   "fluxroom default",
-	Points: PolicyPoints{Completeness: 2, Accuracy: 4, Precision: 2, Quality: 2},
-	RequiredReadings: map[string]int{
-		"coil_force": 8, "e_over_m": 6, "straight_wire": 6, "solenoid": 5, "flat_coil": 5,
-	},
-	Accuracy:        AccuracyRule{FullWithinZ: 2, FullPercent: 5, HalfPercent: 10, ZeroPercent: 20},
-	Precision:       PrecisionRule{FullPercent: 5, ZeroPercent: 15},
-	Quality:         QualityRule{DeductPerDiagnosis: 0.5},
-	UnsafeDeduction: 1,
+func DefaultPolicy() Policy {
+	return Policy{
+		Name:   "fluxroom default",
+		Points: PolicyPoints{Completeness: 2, Accuracy: 4, Precision: 2, Quality: 2},
+		RequiredReadings: map[string]int{
+			"coil_force": 8, "e_over_m": 6, "straight_wire": 6, "solenoid": 5, "flat_coil": 5,
+		},
+		Accuracy:        AccuracyRule{FullWithinZ: 2, FullPercent: 5, HalfPercent: 10, ZeroPercent: 20},
+		Precision:       PrecisionRule{FullPercent: 5, ZeroPercent: 15},
+		Quality:         QualityRule{DeductPerDiagnosis: 0.5},
+		UnsafeDeduction: 1,
+	}
 }
 
 // ValidatePolicy checks a policy and names every bad field by its JSON path.

@@ -7,7 +7,7 @@ import (
 )
 
 func TestValidatePolicy(t *testing.T) {
-	if err := ValidatePolicy(DefaultPolicy); err != nil {
+	if err := ValidatePolicy(DefaultPolicy()); err != nil {
 		t.Fatalf("the default policy is invalid: %v", err)
 	}
 	for _, tc := range []struct {
@@ -24,7 +24,7 @@ func TestValidatePolicy(t *testing.T) {
 		{"deduction above 1", func(p *Policy) { p.Quality.DeductPerDiagnosis = 2 }, "data_quality.deduct_fraction_per_diagnosis"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			p := DefaultPolicy
+			p := DefaultPolicy()
 			p.RequiredReadings = map[string]int{"coil_force": 8}
 			tc.edit(&p)
 			checkField(t, ValidatePolicy(p), tc.wantField)
@@ -43,7 +43,7 @@ func TestGradeOf(t *testing.T) {
 		wantTotal float64
 		tol       float64
 	}{
-		// 11 readings of a clean run: every part full [derived from DefaultPolicy].
+		// 11 readings of a clean run: every part full [derived from DefaultPolicy()].
 		{"clean complete run", clean, 11, 10, 0},
 		// 4 of 8 readings: half the completeness points.
 		{"half a run", clean, 4, 9, 0.6},
@@ -53,8 +53,8 @@ func TestGradeOf(t *testing.T) {
 		{"segment doubled", half, 11, 5, 0.01},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			a := Assess(tc.g.Bench, tc.g.Readings[:tc.keep], DefaultTolerance)
-			g := GradeOf("coil_force", a, 0, nil, DefaultPolicy)
+			a := Assess(tc.g.Bench, tc.g.Readings[:tc.keep], DefaultTolerance())
+			g := GradeOf("coil_force", a, 0, nil, DefaultPolicy())
 			if math.Abs(g.Final-tc.wantTotal) > tc.tol {
 				t.Errorf("grade %.2f (parts %.2f %.2f %.2f %.2f), want %.2f ± %.2f", g.Final, g.Completeness, g.Accuracy, g.Precision, g.Quality, tc.wantTotal, tc.tol)
 			}
@@ -64,13 +64,13 @@ func TestGradeOf(t *testing.T) {
 		})
 	}
 	// Unsafe readings are deducted; an override wins and keeps its audit.
-	a := Assess(clean.Bench, clean.Readings, DefaultTolerance)
-	g := GradeOf("coil_force", a, 2, nil, DefaultPolicy)
+	a := Assess(clean.Bench, clean.Readings, DefaultTolerance())
+	g := GradeOf("coil_force", a, 2, nil, DefaultPolicy())
 	if g.Final != 8 {
 		t.Errorf("two unsafe readings: %g, want 8", g.Final)
 	}
 	o := Override{Points: 9.5, Reason: "coil swapped by staff mid-run", Author: "instructor", At: time.Now(), Previous: 8}
-	g = GradeOf("coil_force", a, 2, []Override{o}, DefaultPolicy)
+	g = GradeOf("coil_force", a, 2, []Override{o}, DefaultPolicy())
 	if g.Final != 9.5 || g.Computed != 8 || g.Override == nil || g.Override.Reason != o.Reason {
 		t.Errorf("override: final %g computed %g override %+v", g.Final, g.Computed, g.Override)
 	}
@@ -93,5 +93,21 @@ func TestRoundToUncertainty(t *testing.T) {
 		if vs != tc.vs || us != tc.us {
 			t.Errorf("RoundToUncertainty(%g, %g) = %s, %s; want %s, %s", tc.v, tc.u, vs, us, tc.vs, tc.us)
 		}
+	}
+}
+
+// TestDefaultsAreCopies: a caller that changes the defaults it was given
+// changes nobody else's.
+func TestDefaultsAreCopies(t *testing.T) {
+	p := DefaultPolicy()
+	p.RequiredReadings["coil_force"] = 99
+	p.Points.Accuracy = 0
+	if q := DefaultPolicy(); q.RequiredReadings["coil_force"] != 8 || q.Points.Accuracy != 4 {
+		t.Errorf("DefaultPolicy after a caller changed its copy: %+v", q)
+	}
+	tol := DefaultTolerance()
+	tol.ZOff = 100
+	if DefaultTolerance().ZOff != 3 {
+		t.Errorf("DefaultTolerance after a caller changed its copy: %+v", DefaultTolerance())
 	}
 }

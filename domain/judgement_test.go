@@ -77,7 +77,7 @@ func assessSim(t *testing.T, exp, mistake string, seed uint64) (SimGroup, Assess
 			t.Fatal(err)
 		}
 	}
-	return g, Assess(b, g.Readings, DefaultTolerance)
+	return g, Assess(b, g.Readings, DefaultTolerance())
 }
 
 func budgetItem(a Assessment, prefix string) (BudgetItem, bool) {
@@ -101,8 +101,8 @@ func TestScatterBeyondInstrumentsStaysOff(t *testing.T) {
 				_, a := assessSim(t, exp, CodeScatterBeyond, seed)
 				// Judged on what the instruments allow, never milder than
 				// on the inflated uncertainty, and never consistent.
-				_, _, inflated := combine(a.Measured, a.Predicted, DefaultTolerance)
-				if a.Verdict == Consistent || a.Verdict < inflated || a.Verdict != DefaultTolerance.verdict(a.Z, a.PercentDiff) {
+				_, _, inflated := combine(a.Measured, a.Predicted, DefaultTolerance())
+				if a.Verdict == Consistent || a.Verdict < inflated || a.Verdict != DefaultTolerance().verdict(a.Z, a.PercentDiff) {
 					t.Errorf("verdict %s (on the inflated uncertainty %s), z %.1f (%s)", a.Verdict.Label(), inflated.Label(), a.Z, a.Reason)
 				}
 				if !topOK(a, CodeScatterBeyond) {
@@ -134,7 +134,7 @@ func TestInflatedUncertaintyWouldHaveHiddenIt(t *testing.T) {
 				continue
 			}
 			far++
-			if _, _, v := combine(a.Measured, a.Predicted, DefaultTolerance); v != Off {
+			if _, _, v := combine(a.Measured, a.Predicted, DefaultTolerance()); v != Off {
 				hidden++
 			}
 		}
@@ -197,7 +197,7 @@ func TestOneSlippedReadingIsNamed(t *testing.T) {
 				q := rs[at].Values[tc.value]
 				q.Value *= tc.factor
 				rs[at].Values[tc.value] = q
-				a := Assess(b, rs, DefaultTolerance)
+				a := Assess(b, rs, DefaultTolerance())
 				if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != CodeDecimalSlipPoint {
 					t.Fatalf("diagnoses %v, want %s first (%s)", codesOf(a), CodeDecimalSlipPoint, a.Reason)
 				}
@@ -220,7 +220,7 @@ func TestOneSlippedReadingIsNamed(t *testing.T) {
 		}
 	}
 	t.Run("clean run names no reading", func(t *testing.T) {
-		a := Assess(b, emRun(0, true), DefaultTolerance)
+		a := Assess(b, emRun(0, true), DefaultTolerance())
 		if a.Verdict != Consistent || len(a.Diagnoses) != 0 {
 			t.Errorf("verdict %s, diagnoses %v; want consistent and none", a.Verdict.Label(), codesOf(a))
 		}
@@ -280,7 +280,7 @@ func TestMassAsForce(t *testing.T) {
 		{"a decade slip", 0.1, CodeDecadeSlip, CodeMassAsForce},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			a := Assess(b, run(tc.scale), DefaultTolerance)
+			a := Assess(b, run(tc.scale), DefaultTolerance())
 			if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != tc.first {
 				t.Fatalf("diagnoses %v, want %s first (%s)", codesOf(a), tc.first, a.Reason)
 			}
@@ -306,7 +306,7 @@ func slicesContains(s []string, v string) bool {
 // finding.
 func TestBackgroundAlreadyAveraged(t *testing.T) {
 	b := emBench(t)
-	both := Assess(b, emRun(40e-6, true), DefaultTolerance)
+	both := Assess(b, emRun(40e-6, true), DefaultTolerance())
 	if both.Verdict != Consistent || len(both.Diagnoses) != 0 {
 		t.Errorf("both ways: verdict %s, diagnoses %v; want consistent, none (%s)", both.Verdict.Label(), codesOf(both), both.Reason)
 	}
@@ -319,7 +319,7 @@ func TestBackgroundAlreadyAveraged(t *testing.T) {
 	if !strings.Contains(note, "µT along the axis") || !strings.Contains(note, "averages out") {
 		t.Errorf("notes %q: want the measured background, averaged out", both.Notes)
 	}
-	one := Assess(b, emRun(40e-6, false), DefaultTolerance)
+	one := Assess(b, emRun(40e-6, false), DefaultTolerance())
 	if !topOK(one, CodeBackgroundAxial) || one.Verdict == Consistent {
 		t.Errorf("one way: verdict %s, diagnoses %v; want %s (%s)", one.Verdict.Label(), codesOf(one), CodeBackgroundAxial, one.Reason)
 	}
@@ -360,7 +360,7 @@ func TestSafetyAtTheLimit(t *testing.T) {
 		{"−5.004 A reversed is at the limit too", 0.01, -5.004, false, []string{"At the limit", "5.004 A"}, ""},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			a := Assess(bench(tc.res), run(tc.last), DefaultTolerance)
+			a := Assess(bench(tc.res), run(tc.last), DefaultTolerance())
 			if got := a.Verdict == Unsafe; got != tc.unsafe {
 				t.Errorf("unsafe = %v, want %v (%s)", got, tc.unsafe, a.Reason)
 			}
@@ -381,7 +381,7 @@ func TestSafetyAtTheLimit(t *testing.T) {
 		b := emBench(t)
 		rs := emRun(0, true)
 		rs[0].Values["heater_voltage"] = qty(6.31, "V")
-		if a := Assess(b, rs, DefaultTolerance); a.Verdict != Unsafe || !strings.Contains(a.Reason, "6.31 V") {
+		if a := Assess(b, rs, DefaultTolerance()); a.Verdict != Unsafe || !strings.Contains(a.Reason, "6.31 V") {
 			t.Errorf("verdict %s (%s), want unsafe at 6.31 V", a.Verdict.Label(), a.Reason)
 		}
 	})
@@ -488,7 +488,7 @@ func TestSlippedPointIsNotAFactor(t *testing.T) {
 		rs = append(rs, Reading{ID: fmt.Sprintf("c1-%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
 			"current": qty(I, "A"), "force": qty(F, "N")}})
 	}
-	a := Assess(b, rs, DefaultTolerance)
+	a := Assess(b, rs, DefaultTolerance())
 	if cs := codesOf(a); len(cs) == 0 || cs[0] != CodeDecimalSlipPoint || slicesContains(cs, CodeLengthDoubled) {
 		t.Errorf("diagnoses %v, want %s alone (%s)", cs, CodeDecimalSlipPoint, a.Reason)
 	}

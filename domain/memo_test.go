@@ -32,8 +32,8 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 			var rs []Reading
 			check := func(step string) {
 				t.Helper()
-				want := Assess(g.Bench, rs, DefaultTolerance)
-				got := AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+				want := Assess(g.Bench, rs, DefaultTolerance())
+				got := AssessMemo(g.Bench, rs, DefaultTolerance(), &m)
 				// The room's judging leaves out the plot; everything
 				// else is the same.
 				if got.Plot != nil {
@@ -86,10 +86,10 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 				fixed[spec.Name] = Quantity{Value: was.Value * 0.8, Unit: was.Unit, Uncertainty: was.Uncertainty}
 				other := g.Bench
 				other.Constants = fixed
-				if reflect.DeepEqual(Assess(other, rs, DefaultTolerance), Assess(g.Bench, rs, DefaultTolerance)) {
+				if reflect.DeepEqual(Assess(other, rs, DefaultTolerance()), Assess(g.Bench, rs, DefaultTolerance())) {
 					continue
 				}
-				AssessMemo(g.Bench, rs, DefaultTolerance, &m)
+				AssessMemo(g.Bench, rs, DefaultTolerance(), &m)
 				g.Bench = other
 				check("after bench constant " + spec.Name + " changed")
 				constantsChanged++
@@ -102,9 +102,9 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 			if exp == "coil_force" {
 				other.Experiment = "solenoid"
 			}
-			want := Assess(other, rs, DefaultTolerance)
+			want := Assess(other, rs, DefaultTolerance())
 			want.Plot = nil
-			if got := AssessMemo(other, rs, DefaultTolerance, &m); !reflect.DeepEqual(got, want) {
+			if got := AssessMemo(other, rs, DefaultTolerance(), &m); !reflect.DeepEqual(got, want) {
 				t.Fatalf("%s/%s judged as %s: the memo kept the old experiment's work", exp, mistake, other.Experiment)
 			}
 		}

@@ -86,7 +86,7 @@ func TestEOverMWorkedTable(t *testing.T) {
 		rs = append(rs, Reading{Values: map[string]Quantity{"anode_voltage": qty(row.V, "V"), "coil_current": qty(row.I, "A"),
 			"beam_diameter": qty(row.d, "cm")}})
 	}
-	a := Assess(b, rs, DefaultTolerance)
+	a := Assess(b, rs, DefaultTolerance())
 	if e := relErr(a.Measured.Value, ElectronChargeToMass); e > 0.005 {
 		t.Errorf("e/m = %.4g, want %.4g within 0.5 %% (%s)", a.Measured.Value, ElectronChargeToMass, a.Reason)
 	}
@@ -95,7 +95,7 @@ func TestEOverMWorkedTable(t *testing.T) {
 	}
 	// For a single run the diameter reading dominates the budget
 	// (±1 mm on 70 mm, doubled) // common practice (PHYSICS.md §2(b)).
-	one := Assess(b, rs[:1], DefaultTolerance)
+	one := Assess(b, rs[:1], DefaultTolerance())
 	if len(one.Budget) == 0 || one.Budget[0].Input != "beam diameter d" {
 		t.Errorf("single-run budget = %+v, want the beam diameter first", one.Budget)
 	}
@@ -124,7 +124,7 @@ func TestSafety(t *testing.T) {
 				m[k] = v
 			}
 			tc.edit(m)
-			a := Assess(b, []Reading{{Values: m}}, DefaultTolerance)
+			a := Assess(b, []Reading{{Values: m}}, DefaultTolerance())
 			if got := a.Verdict == Unsafe; got != tc.unsafe {
 				t.Errorf("unsafe = %v, want %v (%s)", got, tc.unsafe, a.Reason)
 			}
@@ -185,7 +185,7 @@ func TestEOverMLinearForms(t *testing.T) {
 	for _, I := range []float64{1.2, 1.8, 2.0} {
 		add(200, I)
 	}
-	a := Assess(b, rs, DefaultTolerance)
+	a := Assess(b, rs, DefaultTolerance())
 	var forms int
 	for _, n := range a.Notes {
 		if contains(n, "r² against V at 1.50 A (4 points): e/m (1.758820") || contains(n, "1/r against I at 200 V (4 points): e/m (1.758820") {

@@ -41,13 +41,13 @@ func TestRoomFindings(t *testing.T) {
 
 func TestIdenticalReadings(t *testing.T) {
 	g := simulate(t, "coil_force", "", 3)
-	a := Assess(g.Bench, g.Readings, DefaultTolerance)
+	a := Assess(g.Bench, g.Readings, DefaultTolerance())
 	b1, b2, b3 := g.Bench, g.Bench, g.Bench
 	b1.ID, b2.ID, b3.ID = 1, 2, 3
 	b1.Label, b2.Label, b3.Label = "A1", "A2", "A3"
 	other := simulate(t, "coil_force", "", 4)
 	fs := RoomFindings([]BenchResult{ResultOf(b1, a, g.Readings), ResultOf(b2, a, g.Readings),
-		ResultOf(b3, Assess(other.Bench, other.Readings, DefaultTolerance), other.Readings)})
+		ResultOf(b3, Assess(other.Bench, other.Readings, DefaultTolerance()), other.Readings)})
 	if len(fs) != 1 || fs[0].Code != CodeIdenticalReadings || len(fs[0].BenchIDs) != 2 {
 		t.Fatalf("findings = %+v, want identical readings at A1 and A2", fs)
 	}

@@ -57,10 +57,12 @@ type Tolerance struct {
 	AcceptablePercent float64
 }
 
-// DefaultTolerance is the profile used when a course sets none: agreement
+// DefaultTolerance returns the profile used when a course sets none: agreement
 // within 2 combined standard uncertainties, and the 5 % / 10 % bands many
 // introductory courses use // common practice (PHYSICS.md §2).
-var DefaultTolerance = Tolerance{ZConsistent: 2, ZOff: 3, GoodPercent: 5, AcceptablePercent: 10}
+func DefaultTolerance() Tolerance {
+	return Tolerance{ZConsistent: 2, ZOff: 3, GoodPercent: 5, AcceptablePercent: 10}
+}
 
 func (t Tolerance) verdict(z, pct float64) Verdict {
 	az, ap := math.Abs(z), math.Abs(pct)

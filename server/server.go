@@ -34,7 +34,7 @@ type Config struct {
 	// Now is the clock; nil means time.Now.
 	Now func() time.Time
 	// Tolerance turns discrepancies into verdicts; zero means
-	// domain.DefaultTolerance.
+	// domain.DefaultTolerance().
 	Tolerance domain.Tolerance
 	// Web serves the dashboard for every path that is not an RPC; nil
 	// serves 404s.
@@ -141,7 +141,7 @@ func New(cfg Config) (*Server, error) {
 		s.now = time.Now
 	}
 	if s.tol == (domain.Tolerance{}) {
-		s.tol = domain.DefaultTolerance
+		s.tol = domain.DefaultTolerance()
 	}
 	// Ten minutes without a reading is long in a lab where a point takes
 	// one or two // common practice.

@@ -75,7 +75,7 @@ func analyze(r io.Reader) (analyzeReport, error) {
 	for i, b := range benches {
 		b.Bench.ID = uint64(i + 1)
 		labels[b.Bench.ID] = b.Label
-		a := domain.Assess(b.Bench, b.Readings, domain.DefaultTolerance)
+		a := domain.Assess(b.Bench, b.Readings, domain.DefaultTolerance())
 		results = append(results, domain.ResultOf(b.Bench, a, b.Readings))
 		ab := analyzeBench{Bench: b.Label, Experiment: b.Bench.Experiment, Readings: a.ReadingCount, Z: a.Z,
 			PercentDiff: a.PercentDiff, Verdict: a.Verdict.Label(), Reason: a.Reason, Caution: a.Caution,

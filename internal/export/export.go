@@ -11,7 +11,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"maps"
 	"strings"
 
 	"example.com/fluxroom/domain"
@@ -23,8 +22,7 @@ import (
 // policy"). Fields left out keep their defaults; unknown fields and bad
 // values are errors naming the field.
 func ParsePolicy(b []byte) (domain.Policy, error) {
-	p := domain.DefaultPolicy
-	p.RequiredReadings = maps.Clone(domain.DefaultPolicy.RequiredReadings)
+	p := domain.DefaultPolicy() // a fresh copy: decoding into it changes no other
 	if len(bytes.TrimSpace(b)) == 0 {
 		return p, nil
 	}

@@ -187,7 +187,7 @@ func TestRegradeKeepsOverrides(t *testing.T) {
 			}
 		}
 	}
-	if s.Policy.Name != "strict" || s.Policy.Points != domain.DefaultPolicy.Points {
+	if s.Policy.Name != "strict" || s.Policy.Points != domain.DefaultPolicy().Points {
 		t.Errorf("policy = %+v: fields left out must keep their defaults", s.Policy)
 	}
 }
