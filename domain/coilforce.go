@@ -4,6 +4,8 @@ import (
 	"errors"
 	"fmt"
 	"math"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // CoilForce is the force on the one horizontal segment of a current-carrying
@@ -102,8 +104,8 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 		x[i] = r.v("current")
 		y[i] = r.v("force")
 	}
-	fit, err := FitLine(x, y)
-	if errors.Is(err, ErrNoSpread) {
+	line, err := fit.Linear(x, y)
+	if errors.Is(err, fit.ErrNoSpread) {
 		return Assessment{Verdict: NeedData, Reason: "every reading is at the same current: take readings across the range"}, nil
 	}
 	if err != nil {
@@ -114,15 +116,15 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	// instruments' resolutions set a floor under both standard errors.
 	uF := resolutionU(c["force_resolution"].Value)
 	uI := resolutionU(c["current_resolution"].Value)
-	uy := math.Hypot(uF, fit.Slope*uI)
+	uy := math.Hypot(uF, line.Slope*uI)
 	// What the instruments allow one reading to scatter: resolution,
 	// repeatability and the current reading's share.
 	uAllowed := math.Hypot(uy, c["force_repeatability"].Value)
-	slope, intercept := floorLine(fit, x, uy)
-	fit.SlopeSE, fit.InterceptSE = slope.Uncertainty, intercept.Uncertainty
+	slope, intercept := floorLine(line, x, uy)
+	line.SlopeSE, line.InterceptSE = slope.Uncertainty, intercept.Uncertainty
 	var sc scatter
 	if len(x) > 2 {
-		sc = scatter{chi2: fit.ResidualSD * fit.ResidualSD * float64(len(x)-2) / (uAllowed * uAllowed), nu: len(x) - 2}
+		sc = scatter{chi2: line.ResidualSD * line.ResidualSD * float64(len(x)-2) / (uAllowed * uAllowed), nu: len(x) - 2}
 	}
 
 	N, B, L := c["turns"], c["gap_field"], c["segment_length"]
@@ -130,7 +132,7 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	// N is exact; (u/NBL)² = (u_B/B)² + (u_L/L)² [pub: JCGM 100:2008 (GUM) §5.1.6].
 	predicted := Measurement{Value: pred, Uncertainty: pred * math.Hypot(B.RelUncertainty(), L.RelUncertainty())}
 
-	z, pct, v, extra := judgeScatter(slope, predicted, math.Max(uAllowed, uy)/math.Sqrt(fit.Sxx), sc, tol)
+	z, pct, v, extra := judgeScatter(slope, predicted, math.Max(uAllowed, uy)/math.Sqrt(line.Sxx), sc, tol)
 	fitItem := BudgetItem{Input: "slope fit", RelU: slope.RelUncertainty()}
 	items := []BudgetItem{fitItem,
 		{Input: "gap field B", RelU: B.RelUncertainty()},
@@ -141,7 +143,7 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	}
 	a := Assessment{
 		Verdict: v, Measured: slope, Predicted: predicted, ResultUnit: "N/A", ResultName: "slope",
-		Z: z, PercentDiff: pct, Fit: &fit, FitX: "current", FitY: "force", Budget: budget(items...), scatter: sc,
+		Z: z, PercentDiff: pct, Fit: &line, FitX: "current", FitY: "force", Budget: budget(items...), scatter: sc,
 	}
 	a.Reason = fmt.Sprintf("slope %s vs %s predicted (%+.1f %%, z = %+.1f)",
 		FormatMeasurement(slope.Value, slope.Uncertainty, "N/A"),
@@ -150,9 +152,9 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	if plot {
 		pts := make([]PlotPoint, len(rs))
 		for i := range rs {
-			pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, fit.ResidualSD), ReadingID: rs[i].id}
+			pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, line.ResidualSD), ReadingID: rs[i].id}
 		}
-		p := linePlot("current I (A)", "force F (N)", pts, fit.Intercept, fit.Slope, pred, tol.GoodPercent)
+		p := linePlot("current I (A)", "force F (N)", pts, line.Intercept, line.Slope, pred, tol.GoodPercent)
 		a.Plot = &p
 	}
 
@@ -160,11 +162,11 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 	// One reading apart from the rest is named first; the causes that
 	// concern the whole run are then looked for without it, so that one
 	// slipped point is not read as a factor in every reading.
-	cx, cy, cslope, cintercept, cfit := x, y, slope, intercept, fit
-	if o, ok := lineOutlier(x, y, fit, uAllowed); ok {
+	cx, cy, cslope, cintercept, cfit := x, y, slope, intercept, line
+	if o, ok := lineOutlier(x, y, line, uAllowed); ok {
 		fs.addLinePoint(rs, y, o, "force", "N")
 		cx, cy = without(x, o.i), without(y, o.i)
-		if g, err := FitLine(cx, cy); err == nil {
+		if g, err := fit.Linear(cx, cy); err == nil {
 			cfit = g
 			cslope, cintercept = floorLine(g, cx, uy)
 		}
@@ -185,7 +187,7 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 			FormatMeasurement(cintercept.Value, cintercept.Uncertainty, "N"), rho), 0.95, true)
 	}
 	if len(cx) >= 5 {
-		if q, err := FitPoly(cx, cy, 2); err == nil && q.SE[2] > 0 {
+		if q, err := fit.Polynomial(cx, cy, 2); err == nil && q.SE[2] > 0 {
 			if t := q.Coef[2] / q.SE[2]; math.Abs(t) > tShape(len(cx)-3) && q.ResidualSD < 0.5*cfit.ResidualSD {
 				fs.add(CodeNonlinear, fmt.Sprintf("a curvature term of %.3g N/A² is %.0f standard errors from zero", q.Coef[2], math.Abs(t)), 0.8, true)
 			}
@@ -229,8 +231,8 @@ func (fs *findings) matchMassAsForce(rho, uRel float64, what string) {
 // floorLine is a fit's slope and intercept with their standard errors never
 // below what one reading's uncertainty uy gives: with few readings the
 // residual scatter can be small by chance.
-func floorLine(f Fit, x []float64, uy float64) (slope, intercept Measurement) {
-	mx := mean(x)
+func floorLine(f fit.Line, x []float64, uy float64) (slope, intercept Measurement) {
+	mx := fit.Mean(x)
 	n := float64(len(x))
 	slope = Measurement{Value: f.Slope, Uncertainty: math.Max(f.SlopeSE, uy/math.Sqrt(f.Sxx))}
 	intercept = Measurement{Value: f.Intercept, Uncertainty: math.Max(f.InterceptSE, uy*math.Sqrt(1/n+mx*mx/f.Sxx))}

@@ -3,6 +3,8 @@ package domain
 import (
 	"fmt"
 	"math"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // EOverM measures the electron's charge-to-mass ratio from a beam bent into a
@@ -372,7 +374,7 @@ func linearForms(rs []siReading, k float64) []string {
 			rad := r.v("beam_diameter") / 2
 			y[i] = rad * rad
 		}
-		f, err := FitOrigin(x, y)
+		f, err := fit.Origin(x, y)
 		if err != nil || f.Slope <= 0 {
 			continue
 		}
@@ -390,7 +392,7 @@ func linearForms(rs []siReading, k float64) []string {
 			x[i] = r.v("coil_current")
 			y[i] = 2 / r.v("beam_diameter")
 		}
-		f, err := FitLine(x, y)
+		f, err := fit.Linear(x, y)
 		if err != nil || f.Slope <= 0 {
 			continue
 		}
@@ -526,7 +528,7 @@ func oneWayBackground(fs *findings, rs []siReading, em, kI []float64, off bool) 
 		x[i] = 1 / kI[i]
 		y[i] = math.Sqrt(em[i])
 	}
-	f, err := FitLine(x, y)
+	f, err := fit.Linear(x, y)
 	if err != nil || !(f.Intercept > 0) {
 		return
 	}

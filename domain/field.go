@@ -3,6 +3,8 @@ package domain
 import (
 	"fmt"
 	"math"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // The field experiments (long straight wire, solenoid, flat coil) share one
@@ -55,7 +57,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 		x[i], y[i] = p.theory, p.measured
 		u[i] = math.Hypot(p.u, math.Abs(p.measured)*p.theoryRelU)
 	}
-	rho, se, chi2nu, err := FitRatio(x, y, u)
+	rho, se, chi2nu, err := fit.Ratio(x, y, u)
 	if err != nil {
 		return Assessment{Verdict: NeedData, Reason: "no reading has a theory value yet: check currents and positions"}, nil, fieldRun{}, false
 	}
@@ -107,7 +109,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 				r.seq, ratios[o.i], o.want, o.factor, math.Abs(o.z)), 0.75)
 		}
 		cx, cy, cu, cratios, crelU = without(x, o.i), without(y, o.i), without(u, o.i), without(ratios, o.i), without(relU, o.i)
-		if r, se, _, err := FitRatio(cx, cy, cu); err == nil {
+		if r, se, _, err := fit.Ratio(cx, cy, cu); err == nil {
 			run = fieldRun{pts: without(pts, o.i), rho: Measurement{Value: r, Uncertainty: se}}
 		}
 	}
@@ -130,7 +132,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 			order[i] = float64(i)
 			uRatio[i] = crelU[i] * math.Abs(cratios[i])
 		}
-		g, err := FitLine(order, cratios)
+		g, err := fit.Linear(order, cratios)
 		if t, crit, ok := weightedTrend(order, cratios, uRatio); ok && err == nil && math.Abs(t) > crit &&
 			math.Abs(g.Slope)*float64(n-1) > 0.05*math.Abs(median(cratios)) {
 			fs.add(CodeDrift, fmt.Sprintf("B/B_theory trends with reading order (t = %+.1f)", t), 0.6, true)
@@ -163,7 +165,7 @@ func probeNotAligned(fs *findings, rho float64, ratios []float64, xs []float64) 
 	if rho < 0.5 || rho > 0.97 {
 		return
 	}
-	if len(ratios) >= 3 && math.Abs(TrendT(xs, ratios)) > 3 {
+	if len(ratios) >= 3 && math.Abs(fit.TrendT(xs, ratios)) > 3 {
 		return // a trend with distance points elsewhere
 	}
 	theta := math.Acos(rho) * 180 / math.Pi

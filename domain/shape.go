@@ -4,6 +4,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // addLinePoint adds the finding about one reading apart from the line the
@@ -31,7 +33,7 @@ func without[T any](s []T, i int) []T {
 // standard uncertainty of one y value from the instruments' resolution
 // alone, uy from everything the instruments allow (resolution,
 // repeatability, the x reading's share).
-func lineShape(fs *findings, x, y []float64, f Fit, uRes, uy float64, yUnit string) {
+func lineShape(fs *findings, x, y []float64, f fit.Line, uRes, uy float64, yUnit string) {
 	n := len(x)
 	if n >= 6 {
 		res := make([]float64, n)
@@ -62,12 +64,12 @@ func lineShape(fs *findings, x, y []float64, f Fit, uRes, uy float64, yUnit stri
 // scatter, never below uy, what the instruments allow; the threshold is
 // two-sided normal at falseAlarm/n, as loneOutlier's. The factor is yᵢ over
 // its prediction, and sigma its standard uncertainty in logarithms.
-func lineOutlier(x, y []float64, f Fit, uy float64) (o outlier, ok bool) {
+func lineOutlier(x, y []float64, f fit.Line, uy float64) (o outlier, ok bool) {
 	n := len(x)
 	if n < 4 || f.Sxx == 0 || f.ThroughOrigin {
 		return o, false
 	}
-	mx := mean(x)
+	mx := fit.Mean(x)
 	var ssr float64
 	e := make([]float64, n)
 	for i := range x {

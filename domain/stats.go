@@ -3,6 +3,8 @@ package domain
 import (
 	"errors"
 	"math"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // The tests on a run's shape (an intercept, a curvature, a trend, one
@@ -142,7 +144,7 @@ func weightedModel(cols [][]float64, y, u []float64) (coef, se []float64, thresh
 		}
 		sy[i] = y[i] / u[i]
 	}
-	coef, se, err = FitModel(sc, sy)
+	coef, se, err = fit.Model(sc, sy)
 	if err != nil {
 		return nil, nil, 0, err
 	}

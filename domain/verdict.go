@@ -7,6 +7,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // Verdict is the state of a bench's result. Values are append-only.
@@ -116,7 +118,7 @@ type Assessment struct {
 	// forms fitted on their own.
 	Notes []string
 	// Fit is the line fitted to the readings, when there is one.
-	Fit *Fit
+	Fit *fit.Line
 	// FitX and FitY name the fitted values; their units are SI.
 	FitX, FitY      string
 	ReadingCount    int

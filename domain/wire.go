@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+
+	"example.com/fluxroom/domain/fit"
 )
 
 // StraightWire is the field of a long straight wire, B = μ0·I/(2π·r), with
@@ -129,7 +131,7 @@ func reversalSign(fs *findings, pts []fieldPoint, rho float64) {
 		b, br := p.reading.v("field"), p.reading.v("field_reversed")
 		x[i], y[i], u[i] = p.theory, (b+br)/2, p.u
 	}
-	alt, _, _, err := FitRatio(x, y, u)
+	alt, _, _, err := fit.Ratio(x, y, u)
 	if err != nil {
 		return
 	}
@@ -166,7 +168,7 @@ func wireShape(fs *findings, pts []fieldPoint, c map[string]Measurement, noRever
 	for i, p := range pts {
 		u[i] = p.u
 	}
-	rho, _, _, _ := FitRatio(x, y, u)
+	rho, _, _, _ := fit.Ratio(x, y, u)
 	rss := func(pred func(i int) float64) float64 {
 		var s float64
 		for i := range y {
@@ -176,13 +178,13 @@ func wireShape(fs *findings, pts []fieldPoint, c map[string]Measurement, noRever
 		return s
 	}
 	rss0 := rss(func(i int) float64 { return rho * x[i] })
-	bgFit, err1 := FitLine(x, y)
+	bgFit, err1 := fit.Linear(x, y)
 	rssBG := math.Inf(1)
 	if err1 == nil {
 		rssBG = rss(func(i int) float64 { return bgFit.Intercept + bgFit.Slope*x[i] })
 	}
 	// I/B = (2π/(ρ·μ0))·(r + δ) for r ≪ ℓ.
-	tipFit, err2 := FitLine(r, ib)
+	tipFit, err2 := fit.Linear(r, ib)
 	rssTip := math.Inf(1)
 	var delta float64
 	if err2 == nil && tipFit.Slope > 0 {

@@ -1,4 +1,4 @@
-package domain
+package fit
 
 import (
 	"bufio"
@@ -24,7 +24,7 @@ type strd struct {
 // [pub: NIST ITL Statistical Reference Datasets, Linear Regression].
 func readStRD(t *testing.T, name string) strd {
 	t.Helper()
-	f, err := os.Open(filepath.Join("..", "testdata", "nist-strd", name))
+	f, err := os.Open(filepath.Join("testdata", "nist-strd", name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -83,12 +83,12 @@ func TestFitAgainstNIST(t *testing.T) {
 	} {
 		t.Run(tc.file, func(t *testing.T) {
 			d := readStRD(t, tc.file)
-			var f Fit
+			var f Line
 			var err error
 			if tc.origin {
-				f, err = FitOrigin(d.x, d.y)
+				f, err = Origin(d.x, d.y)
 			} else {
-				f, err = FitLine(d.x, d.y)
+				f, err = Linear(d.x, d.y)
 			}
 			if err != nil {
 				t.Fatal(err)
@@ -111,17 +111,17 @@ func TestFitAgainstNIST(t *testing.T) {
 	}
 }
 
-// TestFitMatchesGonum cross-checks FitLine with gonum/stat.LinearRegression
+// TestFitMatchesGonum cross-checks Linear with gonum/stat.LinearRegression
 // [pub: gonum v0.17.0], which reports no standard errors.
 func TestFitMatchesGonum(t *testing.T) {
 	d := readStRD(t, "Norris.dat")
-	f, err := FitLine(d.x, d.y)
+	f, err := Linear(d.x, d.y)
 	if err != nil {
 		t.Fatal(err)
 	}
 	a, b := stat.LinearRegression(d.x, d.y, nil, false)
 	if relErr(f.Slope, b) > 1e-12 || relErr(f.Intercept, a) > 1e-10 {
-		t.Errorf("FitLine = (%.15g, %.15g), gonum = (%.15g, %.15g)", f.Intercept, f.Slope, a, b)
+		t.Errorf("Linear = (%.15g, %.15g), gonum = (%.15g, %.15g)", f.Intercept, f.Slope, a, b)
 	}
 	if r2 := stat.RSquared(d.x, d.y, nil, a, b); relErr(f.RSquared, r2) > 1e-12 {
 		t.Errorf("R² = %.15g, gonum %.15g", f.RSquared, r2)
@@ -138,8 +138,8 @@ func TestFitErrors(t *testing.T) {
 		{"length mismatch", []float64{1, 2}, []float64{1}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			if _, err := FitLine(tc.x, tc.y); err == nil {
-				t.Error("FitLine: got no error")
+			if _, err := Linear(tc.x, tc.y); err == nil {
+				t.Error("Linear: got no error")
 			}
 		})
 	}
@@ -150,7 +150,7 @@ func TestFitErrors(t *testing.T) {
 // that the curvature term is found significant.
 func TestFitPolyPontius(t *testing.T) {
 	d := readStRD(t, "Pontius.dat")
-	p, err := FitPoly(d.x, d.y, 2)
+	p, err := Polynomial(d.x, d.y, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -173,32 +173,32 @@ func TestFitPolyPontius(t *testing.T) {
 	}
 	// The straight line through Norris has no significant curvature.
 	n := readStRD(t, "Norris.dat")
-	q, err := FitPoly(n.x, n.y, 2)
+	q, err := Polynomial(n.x, n.y, 2)
 	if err != nil {
 		t.Fatal(err)
 	}
 	if tq := math.Abs(q.Coef[2] / q.SE[2]); tq > 3 {
 		t.Errorf("Norris curvature t = %.1f, want < 3", tq)
 	}
-	// FitPoly of degree 1 agrees with FitLine on Norris to 1e-9.
-	l, err := FitPoly(n.x, n.y, 1)
+	// Polynomial of degree 1 agrees with Linear on Norris to 1e-9.
+	l, err := Polynomial(n.x, n.y, 1)
 	if err != nil {
 		t.Fatal(err)
 	}
 	if relErr(l.Coef[1], n.estimate["B1"]) > 1e-9 || relErr(l.SE[1], n.sd["B1"]) > 1e-9 {
-		t.Errorf("FitPoly(1) on Norris = %v ± %v", l.Coef, l.SE)
+		t.Errorf("Polynomial(1) on Norris = %v ± %v", l.Coef, l.SE)
 	}
 }
 
 func TestFitRatio(t *testing.T) {
-	// NoInt1 through FitRatio with equal weights gives the certified slope
+	// NoInt1 through Ratio with equal weights gives the certified slope
 	// [pub: NIST ITL StRD NoInt1].
 	d := readStRD(t, "NoInt1.dat")
 	u := make([]float64, len(d.x))
 	for i := range u {
 		u[i] = 1
 	}
-	rho, _, _, err := FitRatio(d.x, d.y, u)
+	rho, _, _, err := Ratio(d.x, d.y, u)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -206,7 +206,7 @@ func TestFitRatio(t *testing.T) {
 		t.Errorf("ρ = %.15g, certified %.15g", rho, d.estimate["B1"])
 	}
 	// Weights: a point with a huge uncertainty barely counts [derived].
-	rho, _, _, _ = FitRatio([]float64{1, 2, 3}, []float64{1, 2, 30}, []float64{0.01, 0.01, 1e6})
+	rho, _, _, _ = Ratio([]float64{1, 2, 3}, []float64{1, 2, 30}, []float64{0.01, 0.01, 1e6})
 	if math.Abs(rho-1) > 1e-6 {
 		t.Errorf("weighted ρ = %g, want 1", rho)
 	}

@@ -1,13 +1,18 @@
-package domain
+// Package fit is least squares for fluxroom's judging: straight lines with
+// and without an intercept, polynomials, a weighted ratio through the
+// origin and small linear models, each with its standard errors. It is
+// checked against the NIST StRD reference datasets in testdata/nist-strd
+// (Norris, Pontius, NoInt1, NoInt2) and against gonum.
+package fit
 
 import (
 	"errors"
 	"math"
 )
 
-// Fit is a least-squares straight line y = Intercept + Slope·x with the
+// Line is a least-squares straight line y = Intercept + Slope·x with the
 // standard errors of its parameters.
-type Fit struct {
+type Line struct {
 	Slope, Intercept     float64
 	SlopeSE, InterceptSE float64
 	// ResidualSD is the residual standard deviation sqrt(SSR/(n-p)).
@@ -26,21 +31,21 @@ type Fit struct {
 
 // Errors of the fitting functions.
 var (
-	ErrTooFewPoints = errors.New("domain: too few points for a fit")
-	ErrNoSpread     = errors.New("domain: all x values are the same")
+	ErrTooFewPoints = errors.New("fit: too few points for a fit")
+	ErrNoSpread     = errors.New("fit: all x values are the same")
 )
 
-// FitLine fits y = a + b·x by ordinary least squares. Sums are taken about the
+// Linear fits y = a + b·x by ordinary least squares. Sums are taken about the
 // means so that data with a large offset (NIST StRD Norris) keep full precision.
-func FitLine(x, y []float64) (Fit, error) {
+func Linear(x, y []float64) (Line, error) {
 	n := len(x)
 	if n != len(y) {
-		return Fit{}, errors.New("domain: x and y differ in length")
+		return Line{}, errors.New("fit: x and y differ in length")
 	}
 	if n < 2 {
-		return Fit{}, ErrTooFewPoints
+		return Line{}, ErrTooFewPoints
 	}
-	mx, my := mean(x), mean(y)
+	mx, my := Mean(x), Mean(y)
 	var sxx, sxy, syy float64
 	for i := range x {
 		dx, dy := x[i]-mx, y[i]-my
@@ -49,7 +54,7 @@ func FitLine(x, y []float64) (Fit, error) {
 		syy += dy * dy
 	}
 	if sxx == 0 {
-		return Fit{}, ErrNoSpread
+		return Line{}, ErrNoSpread
 	}
 	b := sxy / sxx
 	a := my - b*mx
@@ -58,7 +63,7 @@ func FitLine(x, y []float64) (Fit, error) {
 		r := y[i] - (a + b*x[i])
 		ssr += r * r
 	}
-	f := Fit{Slope: b, Intercept: a, N: n, Sxx: sxx}
+	f := Line{Slope: b, Intercept: a, N: n, Sxx: sxx}
 	if n > 2 {
 		s2 := ssr / float64(n-2)
 		f.ResidualSD = math.Sqrt(s2)
@@ -71,14 +76,14 @@ func FitLine(x, y []float64) (Fit, error) {
 	return f, nil
 }
 
-// FitOrigin fits y = b·x through the origin by ordinary least squares.
-func FitOrigin(x, y []float64) (Fit, error) {
+// Origin fits y = b·x through the origin by ordinary least squares.
+func Origin(x, y []float64) (Line, error) {
 	n := len(x)
 	if n != len(y) {
-		return Fit{}, errors.New("domain: x and y differ in length")
+		return Line{}, errors.New("fit: x and y differ in length")
 	}
 	if n < 1 {
-		return Fit{}, ErrTooFewPoints
+		return Line{}, ErrTooFewPoints
 	}
 	var sxx, sxy, syy float64
 	for i := range x {
@@ -87,7 +92,7 @@ func FitOrigin(x, y []float64) (Fit, error) {
 		syy += y[i] * y[i]
 	}
 	if sxx == 0 {
-		return Fit{}, ErrNoSpread
+		return Line{}, ErrNoSpread
 	}
 	b := sxy / sxx
 	var ssr float64
@@ -95,7 +100,7 @@ func FitOrigin(x, y []float64) (Fit, error) {
 		r := y[i] - b*x[i]
 		ssr += r * r
 	}
-	f := Fit{Slope: b, N: n, Sxx: sxx, ThroughOrigin: true}
+	f := Line{Slope: b, N: n, Sxx: sxx, ThroughOrigin: true}
 	if n > 1 {
 		s2 := ssr / float64(n-1)
 		f.ResidualSD = math.Sqrt(s2)
@@ -107,7 +112,8 @@ func FitOrigin(x, y []float64) (Fit, error) {
 	return f, nil
 }
 
-func mean(v []float64) float64 {
+// Mean is the arithmetic mean of v.
+func Mean(v []float64) float64 {
 	var s float64
 	for _, x := range v {
 		s += x
@@ -123,13 +129,13 @@ type Poly struct {
 	N          int
 }
 
-// FitPoly fits a polynomial of the given degree by Householder QR on
+// Polynomial fits a polynomial of the given degree by Householder QR on
 // columns of x scaled to [-1, 1], which keeps NIST StRD Pontius (x up to 3e6,
 // x² up to 1e13) accurate to about 1e-10.
-func FitPoly(x, y []float64, degree int) (Poly, error) {
+func Polynomial(x, y []float64, degree int) (Poly, error) {
 	n, p := len(x), degree+1
 	if n != len(y) {
-		return Poly{}, errors.New("domain: x and y differ in length")
+		return Poly{}, errors.New("fit: x and y differ in length")
 	}
 	if n <= p {
 		return Poly{}, ErrTooFewPoints
@@ -239,7 +245,7 @@ func FitPoly(x, y []float64, degree int) (Poly, error) {
 		out.Coef[j] = c[j] / f
 		out.SE[j] = math.Sqrt(s2*v) / f
 	}
-	my := mean(y)
+	my := Mean(y)
 	var sst float64
 	for _, v := range y {
 		sst += (v - my) * (v - my)
@@ -250,13 +256,13 @@ func FitPoly(x, y []float64, degree int) (Poly, error) {
 	return out, nil
 }
 
-// FitRatio fits y = ρ·x through the origin with weights 1/u², the form every
+// Ratio fits y = ρ·x through the origin with weights 1/u², the form every
 // field experiment takes (measured field against the theory value). When the
 // scatter exceeds what the uncertainties allow (χ²/ν > 1), the standard error
 // is scaled up by √(χ²/ν); it is never scaled down.
-func FitRatio(x, y, u []float64) (rho, se, chi2nu float64, err error) {
+func Ratio(x, y, u []float64) (rho, se, chi2nu float64, err error) {
 	if len(x) != len(y) || len(x) != len(u) {
-		return 0, 0, 0, errors.New("domain: x, y and u differ in length")
+		return 0, 0, 0, errors.New("fit: x, y and u differ in length")
 	}
 	if len(x) == 0 {
 		return 0, 0, 0, ErrTooFewPoints
@@ -264,7 +270,7 @@ func FitRatio(x, y, u []float64) (rho, se, chi2nu float64, err error) {
 	var sxx, sxy float64
 	for i := range x {
 		if !(u[i] > 0) {
-			return 0, 0, 0, errors.New("domain: every point needs an uncertainty > 0")
+			return 0, 0, 0, errors.New("fit: every point needs an uncertainty > 0")
 		}
 		w := 1 / (u[i] * u[i])
 		sxx += w * x[i] * x[i]
@@ -292,17 +298,17 @@ func FitRatio(x, y, u []float64) (rho, se, chi2nu float64, err error) {
 // TrendT is the t statistic of the slope of y against x: how many standard
 // errors the trend is from zero. Zero when it cannot be computed.
 func TrendT(x, y []float64) float64 {
-	f, err := FitLine(x, y)
+	f, err := Linear(x, y)
 	if err != nil || f.SlopeSE == 0 {
 		return 0
 	}
 	return f.Slope / f.SlopeSE
 }
 
-// FitModel fits y = Σ coef[j]·cols[j] by least squares (normal equations
+// Model fits y = Σ coef[j]·cols[j] by least squares (normal equations
 // with partial pivoting: enough for the two or three well-separated columns
 // the shape checks use) and returns the coefficients and standard errors.
-func FitModel(cols [][]float64, y []float64) (coef, se []float64, err error) {
+func Model(cols [][]float64, y []float64) (coef, se []float64, err error) {
 	p, n := len(cols), len(y)
 	if n <= p {
 		return nil, nil, ErrTooFewPoints
