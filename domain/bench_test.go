@@ -1,10 +1,13 @@
-package domain
+package domain_test
 
 import (
 	"fmt"
 	"math/rand/v2"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 )
 
 // BenchmarkAssessAfterReading is the hot path of every submission: judge a
@@ -12,9 +15,9 @@ import (
 // from scratch and, as the server does, with the bench's Memo holding the
 // earlier readings' work.
 func BenchmarkAssessAfterReading(b *testing.B) {
-	for _, exp := range SimulatedExperiments() {
+	for _, exp := range sim.Experiments() {
 		for _, n := range []int{10, 30, 100} {
-			g, _ := Simulate(exp, "", rand.New(rand.NewPCG(1, 2)), time.Time{})
+			g, _ := sim.Simulate(exp, "", rand.New(rand.NewPCG(1, 2)), time.Time{})
 			var rs []Reading
 			for len(rs) < n {
 				r := g.Readings[len(rs)%len(g.Readings)]
@@ -46,7 +49,7 @@ func BenchmarkAssessAfterReading(b *testing.B) {
 func BenchmarkRoomFindings(b *testing.B) {
 	var results []BenchResult
 	for i := 0; i < 30; i++ {
-		g, _ := Simulate("coil_force", "", rand.New(rand.NewPCG(uint64(i), 2)), time.Time{})
+		g, _ := sim.Simulate("coil_force", "", rand.New(rand.NewPCG(uint64(i), 2)), time.Time{})
 		g.Bench.ID = uint64(i + 1)
 		a := Assess(g.Bench, g.Readings, DefaultTolerance())
 		results = append(results, ResultOf(g.Bench, a, g.Readings))

@@ -1,4 +1,4 @@
-package domain
+package domain_test
 
 import (
 	"errors"
@@ -7,6 +7,9 @@ import (
 	"math/rand/v2"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 )
 
 // forceBench is the worked example of PHYSICS.md §2(a) [derived]:
@@ -197,7 +200,7 @@ func TestFormatMeasurement(t *testing.T) {
 }
 
 func TestPlotOfEveryExperiment(t *testing.T) {
-	for _, exp := range SimulatedExperiments() {
+	for _, exp := range sim.Experiments() {
 		g := simulate(t, exp, "", 11)
 		a := Assess(g.Bench, g.Readings, DefaultTolerance())
 		if a.Plot == nil || len(a.Plot.Points) != len(g.Readings) {

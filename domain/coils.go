@@ -85,16 +85,17 @@ var (
 		Action: "R is half the coil's diameter"})
 )
 
-// solenoidField is B on the axis of a solenoid of N turns, length L, radius
-// R, at z from its centre.
-func solenoidField(N, L, R, I, z float64) float64 {
+// SolenoidField is B (T) on the axis of a solenoid of N turns, length L and
+// radius R (m) carrying I (A), at z (m) from its centre.
+func SolenoidField(N, L, R, I, z float64) float64 {
 	n := N / L
 	a, b := z+L/2, z-L/2
 	return Mu0 * n * I / 2 * (a/math.Hypot(a, R) - b/math.Hypot(b, R))
 }
 
-// coilField is B on the axis of a flat coil of N turns and radius R, at z.
-func coilField(N, R, I, z float64) float64 {
+// CoilField is B (T) on the axis of a flat coil of N turns and radius R (m)
+// carrying I (A), at z (m) from its centre.
+func CoilField(N, R, I, z float64) float64 {
 	return Mu0 * N * I * R * R / (2 * math.Pow(R*R+z*z, 1.5))
 }
 
@@ -113,7 +114,7 @@ func coilPoints(c map[string]Measurement, rs []siReading, theory func(I, z float
 
 func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	N, L, R := c["turns"].Value, c["length"], c["radius"]
-	pts := coilPoints(c, rs, func(I, z float64) float64 { return solenoidField(N, L.Value, R.Value, I, z) })
+	pts := coilPoints(c, rs, func(I, z float64) float64 { return SolenoidField(N, L.Value, R.Value, I, z) })
 	// Near the centre B ∝ 1/L to first order; R enters only the small
 	// end correction, so L dominates the model's uncertainty.
 	a, fs, run, ok := assessFieldPoints(pts, L.RelUncertainty(), tol, "solenoid", "mT", plot)
@@ -122,7 +123,7 @@ func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 	}
 	rho := run.rho.Value
 	if a.Verdict != Consistent {
-		end := solenoidField(N, L.Value, R.Value, 1, L.Value/2) / solenoidField(N, L.Value, R.Value, 1, 0)
+		end := SolenoidField(N, L.Value, R.Value, 1, L.Value/2) / SolenoidField(N, L.Value, R.Value, 1, 0)
 		tol := math.Max(2*run.rho.RelUncertainty(), 0.03)
 		if d := math.Abs(math.Log(rho / end)); rho > 0 && d <= tol {
 			fs.add(CodeProbeAtEnd, fmt.Sprintf("B/B_theory = %.3f, and B(end)/B(centre) = %.3f for this solenoid", rho, end), 1-0.4*d/tol, true)
@@ -151,7 +152,7 @@ func assessSolenoid(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 
 func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance, plot bool) (Assessment, findings) {
 	N, R := c["turns"].Value, c["radius"]
-	pts := coilPoints(c, rs, func(I, z float64) float64 { return coilField(N, R.Value, I, z) })
+	pts := coilPoints(c, rs, func(I, z float64) float64 { return CoilField(N, R.Value, I, z) })
 	a, fs, run, ok := assessFieldPoints(pts, R.RelUncertainty(), tol, "flat coil", "mT", plot)
 	if !ok {
 		return a, fs
@@ -165,7 +166,7 @@ func assessFlatCoil(c map[string]Measurement, rs []siReading, tol Tolerance, plo
 			if p.reading.has("position") {
 				z = p.reading.v("position")
 			}
-			f = append(f, coilField(N, R.Value/2, p.reading.v("current"), z)/p.theory)
+			f = append(f, CoilField(N, R.Value/2, p.reading.v("current"), z)/p.theory)
 		}
 		want := median(f)
 		tol := math.Max(2*run.rho.RelUncertainty(), 0.03)

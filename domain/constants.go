@@ -16,6 +16,6 @@ const (
 	StandardGravity = 9.80665
 )
 
-// helmholtzFactor is (4/5)^{3/2}: B at the centre of a Helmholtz pair is
-// helmholtzFactor·μ0·N·I/R [pub: any intro E&M text; PHYSICS.md §2(b)].
-const helmholtzFactor = 0.7155417527999327
+// HelmholtzFactor is (4/5)^{3/2}: B at the centre of a Helmholtz pair is
+// HelmholtzFactor·μ0·N·I/R [pub: any intro E&M text; PHYSICS.md §2(b)].
+const HelmholtzFactor = 0.7155417527999327

@@ -1,10 +1,13 @@
-package domain
+package domain_test
 
 import (
 	"fmt"
 	"math/rand/v2"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 )
 
 var simT0 = time.Date(2026, 3, 5, 13, 30, 0, 0, time.UTC)
@@ -38,9 +41,9 @@ func topOK(a Assessment, want string) bool {
 	return false
 }
 
-func simulate(t testing.TB, exp, mistake string, seed uint64) SimGroup {
+func simulate(t testing.TB, exp, mistake string, seed uint64) sim.Group {
 	t.Helper()
-	g, err := Simulate(exp, mistake, rand.New(rand.NewPCG(seed, 7)), simT0)
+	g, err := sim.Simulate(exp, mistake, rand.New(rand.NewPCG(seed, 7)), simT0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -50,8 +53,8 @@ func simulate(t testing.TB, exp, mistake string, seed uint64) SimGroup {
 // TestGoldenDiagnoses injects each simulated mistake, one at a time, and
 // requires its code to be top-ranked or tied with the top one.
 func TestGoldenDiagnoses(t *testing.T) {
-	for _, exp := range SimulatedExperiments() {
-		for _, code := range SimulatedMistakes(exp) {
+	for _, exp := range sim.Experiments() {
+		for _, code := range sim.Mistakes(exp) {
 			t.Run(exp+"/"+code, func(t *testing.T) {
 				g := simulate(t, exp, code, 1)
 				b, err := ValidateBench("bench", g.Bench)
@@ -81,7 +84,7 @@ func TestGoldenDiagnoses(t *testing.T) {
 //	go test -run TestCleanGroupsAreConsistent -v ./domain/
 func TestCleanGroupsAreConsistent(t *testing.T) {
 	const runs = 300
-	for _, exp := range SimulatedExperiments() {
+	for _, exp := range sim.Experiments() {
 		e, _ := LookupExperiment(exp)
 		var judged, check, off int
 		var bad []string
@@ -121,8 +124,8 @@ func TestCleanGroupsAreConsistent(t *testing.T) {
 func TestCatalogueAccuracy(t *testing.T) {
 	const runs = 40
 	var top1, top3, total, clean, falseAlarm int
-	for _, exp := range SimulatedExperiments() {
-		for _, code := range SimulatedMistakes(exp) {
+	for _, exp := range sim.Experiments() {
+		for _, code := range sim.Mistakes(exp) {
 			var t1, t3 int
 			for seed := uint64(0); seed < runs; seed++ {
 				g := simulate(t, exp, code, 5000+seed)

@@ -133,7 +133,7 @@ func coilConstant(c map[string]Measurement) Measurement {
 		return k
 	}
 	N, R := c["coil_turns"].Value, c["coil_radius"]
-	k := helmholtzFactor * Mu0 * N / R.Value
+	k := HelmholtzFactor * Mu0 * N / R.Value
 	// N is exact; μ0 is known to 2e-10; u_k/k = u_R/R.
 	return Measurement{Value: k, Uncertainty: k * R.RelUncertainty()}
 }

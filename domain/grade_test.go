@@ -1,9 +1,12 @@
-package domain
+package domain_test
 
 import (
 	"math"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 )
 
 func TestValidatePolicy(t *testing.T) {
@@ -38,7 +41,7 @@ func TestGradeOf(t *testing.T) {
 	half := simulate(t, "coil_force", CodeLengthDoubled, 21)
 	for _, tc := range []struct {
 		name      string
-		g         SimGroup
+		g         sim.Group
 		keep      int
 		wantTotal float64
 		tol       float64

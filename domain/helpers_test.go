@@ -9,3 +9,8 @@ func relErr(got, want float64) float64 {
 	}
 	return math.Abs(got-want) / math.Abs(want)
 }
+
+func qty(v float64, unit string) Quantity { return Quantity{Value: v, Unit: unit} }
+
+// round rounds x to a multiple of step, as a digital display does.
+func round(x, step float64) float64 { return math.Round(x/step) * step }

@@ -1,4 +1,4 @@
-package domain
+package domain_test
 
 import (
 	"fmt"
@@ -7,6 +7,9 @@ import (
 	"reflect"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 
 	"github.com/google/go-cmp/cmp"
 )
@@ -22,9 +25,9 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 			t.Error("no simulated group had a bench constant that changes its assessment: the constants step checked nothing")
 		}
 	}()
-	for _, exp := range SimulatedExperiments() {
-		for _, mistake := range append([]string{""}, SimulatedMistakes(exp)...) {
-			g, err := Simulate(exp, mistake, rand.New(rand.NewPCG(3, 4)), t0)
+	for _, exp := range sim.Experiments() {
+		for _, mistake := range append([]string{""}, sim.Mistakes(exp)...) {
+			g, err := sim.Simulate(exp, mistake, rand.New(rand.NewPCG(3, 4)), t0)
 			if err != nil {
 				t.Fatal(err)
 			}

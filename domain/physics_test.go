@@ -26,8 +26,8 @@ func TestConstants(t *testing.T) {
 	if e := relErr(float64(constant.MagneticConstant), Mu0); e > 1e-9 {
 		t.Errorf("μ0: gonum (CODATA 2018) %.12g, table (2022) %.12g, rel diff %.2g", float64(constant.MagneticConstant), Mu0, e)
 	}
-	if e := relErr(helmholtzFactor, math.Pow(0.8, 1.5)); e > 1e-15 {
-		t.Errorf("(4/5)^{3/2} = %.16g, want %.16g", helmholtzFactor, math.Pow(0.8, 1.5))
+	if e := relErr(HelmholtzFactor, math.Pow(0.8, 1.5)); e > 1e-15 {
+		t.Errorf("(4/5)^{3/2} = %.16g, want %.16g", HelmholtzFactor, math.Pow(0.8, 1.5))
 	}
 }
 
@@ -38,8 +38,8 @@ func TestWorkedExamples(t *testing.T) {
 		relTol       float64
 	}{
 		// PHYSICS.md §2(b) [derived]: a pair of 130 turns, 15.0 cm radius.
-		{"Helmholtz k, N=130 R=15 cm (T/A)", "derived", helmholtzFactor * Mu0 * 130 / 0.150, 7.793e-4, 1e-3},
-		{"B at 1.5 A (T)", "derived", helmholtzFactor * Mu0 * 130 / 0.150 * 1.5, 1.169e-3, 1e-3},
+		{"Helmholtz k, N=130 R=15 cm (T/A)", "derived", HelmholtzFactor * Mu0 * 130 / 0.150, 7.793e-4, 1e-3},
+		{"B at 1.5 A (T)", "derived", HelmholtzFactor * Mu0 * 130 / 0.150 * 1.5, 1.169e-3, 1e-3},
 		{"r at 150 V, 1.5 A (m)", "derived", orbitRadius(150, 1.5), 0.0353, 2e-3},
 		{"r at 150 V, 1.0 A (m)", "derived", orbitRadius(150, 1.0), 0.0530, 2e-3},
 		{"r at 200 V, 1.5 A (m)", "derived", orbitRadius(200, 1.5), 0.0408, 2e-3},
@@ -47,18 +47,18 @@ func TestWorkedExamples(t *testing.T) {
 		{"v at 150 V (m/s)", "derived", math.Sqrt(2 * ElectronChargeToMass * 150), 7.26e6, 1e-3},
 		// PHYSICS.md §2(c) [pub: OpenStax College Physics §22.9]:
 		// 1.0e-4 T at 5.0 cm needs 25 A.
-		{"wire: B at 5.0 cm, 25 A (T)", "pub", wireField(25, 0.05, math.Inf(1)), 1.0e-4, 1e-3},
+		{"wire: B at 5.0 cm, 25 A (T)", "pub", WireField(25, 0.05, math.Inf(1)), 1.0e-4, 1e-3},
 		// B[G] = 0.2·I[A]/r[cm] // common practice.
-		{"wire: handy rule, 10 A at 2 cm (G)", "cp", wireField(10, 0.02, math.Inf(1)) * 1e4, 0.2 * 10 / 2, 1e-3},
+		{"wire: handy rule, 10 A at 2 cm (G)", "cp", WireField(10, 0.02, math.Inf(1)) * 1e4, 0.2 * 10 / 2, 1e-3},
 		// PHYSICS.md §2(d) [derived]: N=500, L=0.15 m, R=0.02 m, 1 A.
 		{"solenoid: ideal (T)", "derived", Mu0 * 500 / 0.15, 4.189e-3, 1e-3},
-		{"solenoid: centre (T)", "derived", solenoidField(500, 0.15, 0.02, 1, 0), 4.047e-3, 1e-3},
-		{"solenoid: end (T)", "derived", solenoidField(500, 0.15, 0.02, 1, 0.075), 2.076e-3, 1e-3},
+		{"solenoid: centre (T)", "derived", SolenoidField(500, 0.15, 0.02, 1, 0), 4.047e-3, 1e-3},
+		{"solenoid: end (T)", "derived", SolenoidField(500, 0.15, 0.02, 1, 0.075), 2.076e-3, 1e-3},
 		// [pub: OpenStax College Physics §22.9]: 2000 loops, 2.00 m, 1600 A.
 		{"solenoid: OpenStax (T)", "pub", Mu0 * 2000 / 2.00 * 1600, 2.01, 3e-3},
 		// PHYSICS.md §2(e) [derived]: N=200, R=0.105 m, 1 A.
-		{"flat coil: centre (T)", "derived", coilField(200, 0.105, 1, 0), 1.197e-3, 1e-3},
-		{"flat coil: B(R)/B0", "derived", coilField(200, 0.105, 1, 0.105) / coilField(200, 0.105, 1, 0), 0.3536, 1e-3},
+		{"flat coil: centre (T)", "derived", CoilField(200, 0.105, 1, 0), 1.197e-3, 1e-3},
+		{"flat coil: B(R)/B0", "derived", CoilField(200, 0.105, 1, 0.105) / CoilField(200, 0.105, 1, 0), 0.3536, 1e-3},
 		// PHYSICS.md §2(a) [derived]: calibration with 0.5 kg.
 		{"0.5 kg × gₙ (N)", "derived", 0.5 * StandardGravity, 4.903, 1e-3},
 	} {
@@ -70,7 +70,7 @@ func TestWorkedExamples(t *testing.T) {
 
 // orbitRadius is r = √(2V·m/e)/B for the N=130, R=15 cm pair.
 func orbitRadius(V, I float64) float64 {
-	return math.Sqrt(2*V/ElectronChargeToMass) / (helmholtzFactor * Mu0 * 130 / 0.150 * I)
+	return math.Sqrt(2*V/ElectronChargeToMass) / (HelmholtzFactor * Mu0 * 130 / 0.150 * I)
 }
 
 // TestEOverMWorkedTable feeds the derived table of PHYSICS.md §2(b) as

@@ -1,8 +1,11 @@
-package domain
+package domain_test
 
 import (
+	"strings"
 	"testing"
 	"time"
+
+	. "example.com/fluxroom/domain"
 )
 
 func TestRoomFindings(t *testing.T) {
@@ -32,7 +35,7 @@ func TestRoomFindings(t *testing.T) {
 			if len(fs) != 1 || fs[0].Code != tc.wantCode || len(fs[0].BenchIDs) != tc.wantN {
 				t.Fatalf("findings = %+v, want one %s over %d benches", fs, tc.wantCode, tc.wantN)
 			}
-			if !contains(fs[0].Message, CodeKSingleLoop) {
+			if !strings.Contains(fs[0].Message, CodeKSingleLoop) {
 				t.Errorf("message %q does not point at the single-loop k (×2.048)", fs[0].Message)
 			}
 		})

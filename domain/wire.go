@@ -87,7 +87,7 @@ func assessStraightWire(c map[string]Measurement, rs []siReading, tol Tolerance,
 				sameSign++
 			}
 		}
-		p.theory = wireField(I, rr, ell)
+		p.theory = WireField(I, rr, ell)
 		// d ln B/d ln r ≈ −1 for r ≪ ℓ.
 		p.theoryRelU = ur / rr
 		pts = append(pts, p)
@@ -140,8 +140,9 @@ func reversalSign(fs *findings, pts []fieldPoint, rho float64) {
 	}
 }
 
-// wireField is B at distance r from the middle of a wire of length ell.
-func wireField(I, r, ell float64) float64 {
+// WireField is B (T) at distance r (m) from the middle of a straight wire of
+// length ell (m) carrying I (A).
+func WireField(I, r, ell float64) float64 {
 	return Mu0 * I / (2 * math.Pi * r) * ell / math.Sqrt(ell*ell+4*r*r)
 }
 

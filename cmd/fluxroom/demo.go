@@ -21,6 +21,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 	"example.com/fluxroom/internal/bearer"
 	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -34,7 +35,7 @@ const demoTitle = "Kestrel Vale Polytechnic · PHY 142 magnetism lab · room B-2
 type demoBench struct {
 	label    string
 	row, col int32
-	group    domain.SimGroup
+	group    sim.Group
 	// mistake says, in words, what was seeded ("" for a clean group).
 	mistake string
 }
@@ -63,7 +64,7 @@ func demoClass(seed uint64) ([]demoBench, error) {
 		for col := int32(0); col < int32(len(demoExperiments)); col++ {
 			label := fmt.Sprintf("%c%d", 'A'+row, col+1)
 			code := demoMistakes[label]
-			g, err := domain.Simulate(demoExperiments[col], code, rand.New(rand.NewPCG(seed, uint64(row*10+col))), t0)
+			g, err := sim.Simulate(demoExperiments[col], code, rand.New(rand.NewPCG(seed, uint64(row*10+col))), t0)
 			if err != nil {
 				return nil, err
 			}

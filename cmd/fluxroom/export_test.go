@@ -13,6 +13,7 @@ import (
 	"time"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 	"example.com/fluxroom/internal/export"
 	"example.com/fluxroom/store"
 )
@@ -28,9 +29,9 @@ func TestExportRoundTrip(t *testing.T) {
 	}
 	s, _ := db.CreateSession(domain.Session{Title: "round trip", JoinCode: "RTRTRT", CreatedAt: time.Date(2026, 3, 5, 9, 0, 0, 0, time.UTC)})
 	i := 0
-	for _, exp := range domain.SimulatedExperiments() {
-		for _, mistake := range []string{"", domain.SimulatedMistakes(exp)[0]} {
-			g, _ := domain.Simulate(exp, mistake, rand.New(rand.NewPCG(5, uint64(i))), time.Date(2026, 3, 5, 9, 0, 0, 0, time.UTC))
+	for _, exp := range sim.Experiments() {
+		for _, mistake := range []string{"", sim.Mistakes(exp)[0]} {
+			g, _ := sim.Simulate(exp, mistake, rand.New(rand.NewPCG(5, uint64(i))), time.Date(2026, 3, 5, 9, 0, 0, 0, time.UTC))
 			g.Bench.Label, g.Bench.Row, g.Bench.Column = string(rune('A'+i/5))+string(rune('1'+i%5)), i/5, i%5
 			bs, err := db.PutBenches(s.ID, []domain.Bench{g.Bench})
 			if err != nil {

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 	"example.com/fluxroom/store"
 )
 
@@ -31,14 +32,14 @@ func termDB(b *testing.B) *store.DB {
 		b.Fatal(err)
 	}
 	b.Cleanup(func() { db.Close() })
-	exps := domain.SimulatedExperiments()
+	exps := sim.Experiments()
 	t0 := time.Date(2026, 1, 12, 9, 0, 0, 0, time.UTC)
 	for s := 0; s < termSessions; s++ {
 		d := store.SessionData{Session: domain.Session{Title: fmt.Sprintf("PHY 142 week %d", s), JoinCode: fmt.Sprintf("T%05d", s), CreatedAt: t0},
 			Readings: map[uint64][]domain.Reading{}}
 		for i := 0; i < termBenches; i++ {
 			exp := exps[i%len(exps)]
-			g, _ := domain.Simulate(exp, "", rand.New(rand.NewPCG(uint64(s), uint64(i))), t0)
+			g, _ := sim.Simulate(exp, "", rand.New(rand.NewPCG(uint64(s), uint64(i))), t0)
 			bench := g.Bench
 			bench.ID, bench.Label, bench.Row, bench.Column = uint64(i+1), fmt.Sprintf("S%02d-%d", i/5, i%5), i/10, i%10
 			d.Benches = append(d.Benches, bench)

@@ -14,6 +14,7 @@ import (
 	"github.com/google/go-cmp/cmp"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 	"example.com/fluxroom/store"
 )
 
@@ -44,7 +45,7 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 		{"B2", "straight_wire", "", "Ada, Bo, Cy"},
 	}
 	for i, g := range groups {
-		sim, err := domain.Simulate(g.exp, g.mistake, rand.New(rand.NewPCG(31, uint64(i))), t0)
+		sim, err := sim.Simulate(g.exp, g.mistake, rand.New(rand.NewPCG(31, uint64(i))), t0)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -9,6 +9,7 @@ import (
 	"github.com/google/go-cmp/cmp"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/domain/sim"
 )
 
 // TestWriteThenRead: a session's readings written in the readings CSV read
@@ -19,7 +20,7 @@ func TestWriteThenRead(t *testing.T) {
 	var benches []domain.Bench
 	readings := map[uint64][]domain.Reading{}
 	for i, exp := range []string{"coil_force", "e_over_m", "straight_wire"} {
-		g, err := domain.Simulate(exp, "", rand.New(rand.NewPCG(uint64(i), 7)), t0)
+		g, err := sim.Simulate(exp, "", rand.New(rand.NewPCG(uint64(i), 7)), t0)
 		if err != nil {
 			t.Fatal(err)
 		}
