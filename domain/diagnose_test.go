@@ -56,17 +56,7 @@ func TestGoldenDiagnoses(t *testing.T) {
 	for _, exp := range sim.Experiments() {
 		for _, code := range sim.Mistakes(exp) {
 			t.Run(exp+"/"+code, func(t *testing.T) {
-				g := simulate(t, exp, code, 1)
-				b, err := ValidateBench("bench", g.Bench)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for i, r := range g.Readings {
-					if err := ValidateReading(fmt.Sprintf("readings[%d]", i), b, r.Values); err != nil {
-						t.Fatal(err)
-					}
-				}
-				a := Assess(b, g.Readings, DefaultTolerance())
+				_, a := assessSim(t, exp, code, 1)
 				if !topOK(a, code) {
 					t.Errorf("verdict %s, diagnoses %v; want %s on top (%s)", a.Verdict.Label(), codesOf(a), code, a.Reason)
 				}

@@ -270,18 +270,11 @@ func largeOrbits(rs []siReading, radius, em, uem []float64) (z, threshold float6
 	if n < 5 {
 		return 0, 0, false
 	}
-	one, r2, dir := make([]float64, n), make([]float64, n), make([]float64, n)
-	var pos, neg int
-	for i, r := range rs {
+	one, r2 := make([]float64, n), make([]float64, n)
+	for i := range rs {
 		one[i], r2[i] = 1, radius[i]*radius[i]
-		if r.v("coil_current") >= 0 {
-			dir[i] = 1
-			pos++
-		} else {
-			dir[i] = -1
-			neg++
-		}
 	}
+	dir, pos, neg := directions(rs)
 	cols := [][]float64{one, r2}
 	if pos >= 2 && neg >= 2 && n >= 6 {
 		cols = append(cols, dir)
@@ -432,20 +425,12 @@ func timeAndDirection(fs *findings, rs []siReading, em, uem []float64, k float64
 	}
 	one := make([]float64, n)
 	order := make([]float64, n)
-	dir := make([]float64, n)
 	var kI []float64
-	var pos, neg int
 	for i, r := range rs {
 		one[i], order[i] = 1, float64(i)
-		if r.v("coil_current") >= 0 {
-			dir[i] = 1
-			pos++
-		} else {
-			dir[i] = -1
-			neg++
-		}
 		kI = append(kI, k*math.Abs(r.v("coil_current")))
 	}
+	dir, pos, neg := directions(rs)
 	cols := [][]float64{one, order}
 	if pos >= 2 && neg >= 2 {
 		cols = append(cols, dir)
@@ -484,6 +469,22 @@ func timeAndDirection(fs *findings, rs []siReading, em, uem []float64, k float64
 	}
 	fs.add(CodeBackgroundAxial, evidence, 0.9, true)
 	return ""
+}
+
+// directions is each reading's current direction, +1 or −1 (a current of
+// zero counts as +1), and how many go each way.
+func directions(rs []siReading) (dir []float64, pos, neg int) {
+	dir = make([]float64, len(rs))
+	for i, r := range rs {
+		if r.v("coil_current") >= 0 {
+			dir[i] = 1
+			pos++
+		} else {
+			dir[i] = -1
+			neg++
+		}
+	}
+	return dir, pos, neg
 }
 
 // bothWays reports whether every reading has a partner with the current
