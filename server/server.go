@@ -104,6 +104,10 @@ type Server struct {
 
 	mu   sync.Mutex
 	mux  cmux.CMux
+	// conns are the plaintext listener's connections, closed at Shutdown:
+	// one that never says what it is (an idle gRPC channel sends no
+	// headers) would keep cmux's matcher, and so Serve, waiting for ever.
+	conns *connSet
 	done chan struct{}
 	// shutdownOnce makes Shutdown safe to call again; shutdownErr is what
 	// the first call returned.
@@ -241,7 +245,8 @@ func New(cfg Config) (*Server, error) {
 // is about twice as fast as its ServeHTTP path; everything else goes to the
 // HTTP server (gRPC-Web, the dashboard).
 func (s *Server) Serve(l net.Listener) error {
-	m := cmux.New(l)
+	cs := &connSet{Listener: l, open: map[net.Conn]struct{}{}}
+	m := cmux.New(cs)
 	// grpc-go clients wait for the server's SETTINGS before they send
 	// headers, so the matcher answers with one. That would break a
 	// browser's HTTP/2 connection (its server sends SETTINGS again), which
@@ -253,7 +258,7 @@ func (s *Server) Serve(l net.Listener) error {
 	)
 	httpL := m.Match(cmux.Any())
 	s.mu.Lock()
-	s.mux = m
+	s.mux, s.conns = m, cs
 	s.mu.Unlock()
 	errc := make(chan error, 2)
 	go func() { errc <- s.grpc.Serve(grpcL) }()
@@ -358,6 +363,7 @@ func (s *Server) shutdown(ctx context.Context) error {
 	s.mu.Lock()
 	if s.mux != nil {
 		s.mux.Close()
+		s.conns.closeAll()
 	}
 	s.mu.Unlock()
 	return err
@@ -383,4 +389,57 @@ func (s *Server) ShownKey() string { return s.shown }
 // that act for a station, such as the demo.
 func (s *Server) StationToken(sessionID, benchID uint64) string {
 	return s.auth.stationToken(sessionID, benchID)
+}
+
+// connSet is a listener that remembers its open connections, so Shutdown
+// can close the ones cmux is still matching once the servers behind it
+// have stopped.
+type connSet struct {
+	net.Listener
+	mu   sync.Mutex
+	open map[net.Conn]struct{}
+}
+
+func (cs *connSet) Accept() (net.Conn, error) {
+	c, err := cs.Listener.Accept()
+	if err != nil {
+		return nil, err
+	}
+	cs.mu.Lock()
+	defer cs.mu.Unlock()
+	if cs.open == nil { // closed: Shutdown has run
+		c.Close()
+		return nil, net.ErrClosed
+	}
+	tc := &trackedConn{Conn: c, set: cs}
+	cs.open[tc] = struct{}{}
+	return tc, nil
+}
+
+// closeAll closes every connection still open and every one accepted
+// after it.
+func (cs *connSet) closeAll() {
+	cs.mu.Lock()
+	open := cs.open
+	cs.open = nil
+	cs.mu.Unlock()
+	for c := range open {
+		c.(*trackedConn).Conn.Close()
+	}
+}
+
+// trackedConn leaves its set when it is closed.
+type trackedConn struct {
+	net.Conn
+	set  *connSet
+	once sync.Once
+}
+
+func (c *trackedConn) Close() error {
+	c.once.Do(func() {
+		c.set.mu.Lock()
+		delete(c.set.open, c)
+		c.set.mu.Unlock()
+	})
+	return c.Conn.Close()
 }

@@ -516,3 +516,52 @@ func TestShutdownTwice(t *testing.T) {
 		t.Errorf("Shutdown after Shutdown: %v", err)
 	}
 }
+
+// TestShutdownWithIdleConnections: connections that never say what they
+// are (a TCP connection that sends nothing, a gRPC client that opened its
+// HTTP/2 connection but makes no call) must not keep Serve from returning
+// after Shutdown; they are closed with the server.
+func TestShutdownWithIdleConnections(t *testing.T) {
+	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), InstructorKey: testKey})
+	if err != nil {
+		t.Fatal(err)
+	}
+	l, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	served := make(chan error, 1)
+	go func() { served <- srv.Serve(l) }()
+	silent, err := net.Dial("tcp", l.Addr().String())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer silent.Close()
+	// An HTTP/2 client preface and SETTINGS, then nothing: what an idle
+	// gRPC channel sends.
+	preface, err := net.Dial("tcp", l.Addr().String())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer preface.Close()
+	preface.Write([]byte("PRI * HTTP/2.0\r\n\r\nSM\r\n\r\n\x00\x00\x00\x04\x00\x00\x00\x00\x00"))
+	time.Sleep(100 * time.Millisecond) // let the server accept both
+	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Second)
+	defer cancel()
+	if err := srv.Shutdown(ctx); err != nil {
+		t.Errorf("Shutdown: %v", err)
+	}
+	select {
+	case err := <-served:
+		if err != nil {
+			t.Errorf("Serve: %v", err)
+		}
+	case <-time.After(5 * time.Second):
+		t.Fatal("Serve did not return within 5 s of Shutdown with idle connections open")
+	}
+}

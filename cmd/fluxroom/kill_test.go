@@ -217,7 +217,17 @@ func killCycles(t *testing.T, bin string, cycles int, extra ...string) killResul
 		sconn.Close()
 	}
 	cmd.Process.Signal(syscall.SIGTERM)
-	cmd.Wait()
+	stopped := make(chan struct{})
+	go func() { cmd.Wait(); close(stopped) }()
+	select {
+	case <-stopped:
+	case <-time.After(30 * time.Second):
+		// A server that does not stop: its goroutines' stacks (SIGQUIT)
+		// say where it waits.
+		cmd.Process.Signal(syscall.SIGQUIT)
+		<-stopped
+		t.Fatal("the server did not stop within 30 s of SIGTERM; its goroutines are above")
+	}
 	db, err := store.Open(dbPath, store.Options{})
 	if err != nil {
 		t.Fatal(err)
