@@ -8,10 +8,10 @@ import (
 	"example.com/fluxroom/domain/fit"
 )
 
-// CoilForce is the force on the one horizontal segment of a current-carrying
+// coilForce is the force on the one horizontal segment of a current-carrying
 // coil that sits in a magnet's gap: F = N·B·L·I. Students read the force at
 // several currents; the slope of F against I is compared with N·B·L.
-var CoilForce = &Experiment{
+var coilForce = &Experiment{
 	ID:          "coil_force",
 	Title:       "force on a coil in a magnet gap",
 	MinReadings: 3,
@@ -56,7 +56,7 @@ var CoilForce = &Experiment{
 	},
 }
 
-func init() { register(CoilForce) }
+func init() { register(coilForce) }
 
 // Diagnosis codes of the force experiment. Append-only.
 var (

@@ -5,10 +5,10 @@ import (
 	"math"
 )
 
-// Solenoid is the field on the axis of a finite solenoid:
+// solenoid is the field on the axis of a finite solenoid:
 // B(z) = (μ0nI/2)[(z+L/2)/√((z+L/2)²+R²) − (z−L/2)/√((z−L/2)²+R²)]
 // [pub: any intro E&M text; PHYSICS.md §2(d)].
-var Solenoid = &Experiment{
+var solenoid = &Experiment{
 	ID:          "solenoid",
 	Title:       "field of a solenoid",
 	MinReadings: 3,
@@ -34,9 +34,9 @@ var Solenoid = &Experiment{
 	},
 }
 
-// FlatCoil is the field on the axis of a flat circular coil:
+// flatCoil is the field on the axis of a flat circular coil:
 // B(z) = μ0NIR²/(2(R²+z²)^{3/2}) [pub: any intro E&M text; PHYSICS.md §2(e)].
-var FlatCoil = &Experiment{
+var flatCoil = &Experiment{
 	ID:          "flat_coil",
 	Title:       "field of a flat circular coil",
 	MinReadings: 3,
@@ -59,8 +59,8 @@ var FlatCoil = &Experiment{
 }
 
 func init() {
-	register(Solenoid)
-	register(FlatCoil)
+	register(solenoid)
+	register(flatCoil)
 }
 
 // Diagnosis codes of the solenoid and flat-coil experiments. Append-only.

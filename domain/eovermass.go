@@ -7,11 +7,11 @@ import (
 	"example.com/fluxroom/domain/fit"
 )
 
-// EOverM measures the electron's charge-to-mass ratio from a beam bent into a
+// eOverM measures the electron's charge-to-mass ratio from a beam bent into a
 // circle by a Helmholtz coil pair: eV = ½mv², evB = mv²/r, so
 // e/m = 2V/(B²r²) with B = k·I [pub: any intro E&M text; PHYSICS.md §2(b)].
 // Students read the beam's diameter; the tool halves it.
-var EOverM = &Experiment{
+var eOverM = &Experiment{
 	ID:          "e_over_m",
 	Title:       "charge-to-mass ratio of the electron",
 	MinReadings: 1,
@@ -63,7 +63,7 @@ var EOverM = &Experiment{
 	},
 }
 
-func init() { register(EOverM) }
+func init() { register(eOverM) }
 
 // Diagnosis codes of the e/m experiment. Append-only.
 var (

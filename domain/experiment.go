@@ -120,7 +120,9 @@ func register(e *Experiment) {
 	experiments[e.ID] = e
 }
 
-// LookupExperiment returns the experiment with the given id.
+// LookupExperiment returns the experiment with the given id. The
+// experiment is the registry's own, shared by every caller: read it, never
+// change it.
 func LookupExperiment(id string) (*Experiment, bool) {
 	e, ok := experiments[id]
 	return e, ok

@@ -10,9 +10,9 @@ package domain
 
 // judges are the experiments' judgings, by experiment id.
 var judges = map[string]judge{
-	CoilForce.ID:    assessCoilForce,
-	EOverM.ID:       assessChargeToMass,
-	StraightWire.ID: assessStraightWire,
-	Solenoid.ID:     assessSolenoid,
-	FlatCoil.ID:     assessFlatCoil,
+	coilForce.ID:    assessCoilForce,
+	eOverM.ID:       assessChargeToMass,
+	straightWire.ID: assessStraightWire,
+	solenoid.ID:     assessSolenoid,
+	flatCoil.ID:     assessFlatCoil,
 }

@@ -9,10 +9,10 @@ import (
 	"example.com/fluxroom/domain/fit"
 )
 
-// StraightWire is the field of a long straight wire, B = μ0·I/(2π·r), with
+// straightWire is the field of a long straight wire, B = μ0·I/(2π·r), with
 // the finite-length factor ℓ/√(ℓ²+4r²) at the wire's middle
 // [pub: any intro E&M text; PHYSICS.md §2(c)].
-var StraightWire = &Experiment{
+var straightWire = &Experiment{
 	ID:          "straight_wire",
 	Title:       "field of a long straight wire",
 	MinReadings: 3,
@@ -48,7 +48,7 @@ var StraightWire = &Experiment{
 	},
 }
 
-func init() { register(StraightWire) }
+func init() { register(straightWire) }
 
 // Diagnosis codes of the straight-wire experiment. Append-only.
 var (
