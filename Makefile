@@ -17,7 +17,7 @@ wasm:
 	cp "$$($(GO) env GOROOT)/lib/wasm/wasm_exec.js" $(WEB)/wasm_exec.js
 
 build: wasm
-	$(GO) build -o $(BIN)/fluxroom ./cmd/fluxroom
+	$(GO) build -buildvcs=auto -o $(BIN)/fluxroom ./cmd/fluxroom
 
 ## test: every test, including the headless-browser one and the import rules
 ## (internal/importcheck), then the tests of the failpoints build (server/hooks.go).

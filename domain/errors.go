@@ -25,7 +25,9 @@ func (e *ValidationError) Error() string {
 	for i, v := range e.Violations {
 		parts[i] = v.Field + ": " + v.Reason
 	}
-	return "domain: invalid input: " + strings.Join(parts, "; ")
+	// The fields and reasons alone: this text reaches people (the CLI
+	// prints it), who need no package name in front of it.
+	return strings.Join(parts, "; ")
 }
 
 // Invalid returns a ValidationError with one violation.

@@ -102,13 +102,13 @@ type Server struct {
 	ridPrefix string
 	ridNext   atomic.Uint64
 
-	mu   sync.Mutex
-	mux  cmux.CMux
+	mu  sync.Mutex
+	mux cmux.CMux
 	// conns are the plaintext listener's connections, closed at Shutdown:
 	// one that never says what it is (an idle gRPC channel sends no
 	// headers) would keep cmux's matcher, and so Serve, waiting for ever.
 	conns *connSet
-	done chan struct{}
+	done  chan struct{}
 	// shutdownOnce makes Shutdown safe to call again; shutdownErr is what
 	// the first call returned.
 	shutdownOnce sync.Once

@@ -209,8 +209,10 @@ func TestJoinSubmitWatch(t *testing.T) {
 		t.Errorf("last event = %v, want bench %d with reason %q", got, join.Bench.BenchId, last.Reason)
 	}
 
-	// A retry of the same reading id stores nothing new.
-	again, err := submit(ctx, r, sess.SessionId, join.Bench.BenchId, "re", 9, 9)
+	// A retry of the same reading (its id and values) stores nothing new;
+	// other values under the id are refused (TestReusedReadingIDWithOtherValues).
+	I := 4.0 // as the loop above computed it, in float64 arithmetic
+	again, err := submit(ctx, r, sess.SessionId, join.Bench.BenchId, "re", I, 0.48*I+0.8+0.002*float64(4%2))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -243,12 +245,16 @@ func TestJoinSubmitWatch(t *testing.T) {
 // fieldOf returns the fields named by an InvalidArgument status.
 func fieldsOf(t *testing.T, err error) []string {
 	t.Helper()
-	st := status.Convert(err)
-	if st.Code() != codes.InvalidArgument {
-		t.Fatalf("code = %v (%v), want InvalidArgument", st.Code(), err)
+	if code := status.Code(err); code != codes.InvalidArgument {
+		t.Fatalf("code = %v (%v), want InvalidArgument", code, err)
 	}
+	return detailFields(err)
+}
+
+// detailFields are the fields a status's BadRequest details name.
+func detailFields(err error) []string {
 	var fields []string
-	for _, d := range st.Details() {
+	for _, d := range status.Convert(err).Details() {
 		if br, ok := d.(*errdetails.BadRequest); ok {
 			for _, v := range br.FieldViolations {
 				fields = append(fields, v.Field)
@@ -563,5 +569,33 @@ func TestShutdownWithIdleConnections(t *testing.T) {
 		}
 	case <-time.After(5 * time.Second):
 		t.Fatal("Serve did not return within 5 s of Shutdown with idle connections open")
+	}
+}
+
+// TestReusedReadingIDWithOtherValues: a retry (same id, same values) is a
+// duplicate that stores nothing; the same id with other values is refused
+// with AlreadyExists on reading_id, and the stored reading stays as it was.
+func TestReusedReadingIDWithOtherValues(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	sid, bid := sess.SessionId, benches[0].BenchId
+	if _, err := submit(ctx, r, sid, bid, "same-id", 1, 0.48); err != nil {
+		t.Fatal(err)
+	}
+	res, err := submit(ctx, r, sid, bid, "same-id", 1, 0.48)
+	if err != nil || !res.Duplicate {
+		t.Fatalf("retry: %v, %+v; want a duplicate", err, res)
+	}
+	_, err = submit(ctx, r, sid, bid, "same-id", 2, 0.96)
+	if status.Code(err) != codes.AlreadyExists || !contains(detailFields(err), "reading_id") {
+		t.Fatalf("other values under the same id: %v; want AlreadyExists on reading_id", err)
+	}
+	_, rs, err := r.db.BenchReadings(sid, bid)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(rs) != 1 || rs[0].Values["current"].Value != 1 {
+		t.Errorf("stored after the refusal: %+v; want the first reading alone, unchanged", rs)
 	}
 }

@@ -4,8 +4,12 @@ import (
 	"context"
 	"crypto/rand"
 	"errors"
+	"fmt"
+	"maps"
+	"slices"
 	"strings"
 
+	"google.golang.org/genproto/googleapis/rpc/errdetails"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
@@ -107,6 +111,12 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		return nil, err
 	}
 	if dup {
+		if !maps.Equal(stored.Values, r.Values) || stored.Supersedes != r.Supersedes {
+			// The id is the station's promise that this is the same
+			// reading: other values under it are a second reading that
+			// would be lost, or a first one silently replaced.
+			return nil, alreadyStored(req.GetReadingId(), stored)
+		}
 		st.s.metrics.duplicates.Add(1)
 	} else {
 		st.s.metrics.readings.Add(1)
@@ -167,4 +177,21 @@ func newJoinCode() string {
 		b[i] = joinCodeAlphabet[int(b[i])%len(joinCodeAlphabet)]
 	}
 	return string(b)
+}
+
+// alreadyStored is the answer to a reading id reused with other values:
+// AlreadyExists, naming the field and the values stored under it.
+func alreadyStored(id string, stored domain.Reading) error {
+	var vals []string
+	for _, name := range slices.Sorted(maps.Keys(stored.Values)) {
+		q := stored.Values[name]
+		vals = append(vals, fmt.Sprintf("%s %g %s", name, q.Value, q.Unit))
+	}
+	reason := fmt.Sprintf("reading id %q is already stored (reading #%d: %s) with other values; a new reading needs a new id, and a correction names the reading it corrects in supersedes",
+		id, stored.Sequence, strings.Join(vals, ", "))
+	st := status.New(codes.AlreadyExists, "reading_id: "+reason)
+	if d, err := st.WithDetails(&errdetails.BadRequest{FieldViolations: []*errdetails.BadRequest_FieldViolation{{Field: "reading_id", Description: reason}}}); err == nil {
+		st = d
+	}
+	return st.Err()
 }

@@ -41,7 +41,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 		n, err = backupFromServer(ctx, *addr, *key, f)
 	} else {
 		var db *store.DB
-		db, err = store.Open(*dbPath, store.Options{})
+		db, err = openExisting(*dbPath)
 		if errors.Is(err, store.ErrLocked) {
 			err = fmt.Errorf("%s is in use by a running server: use --server for a hot backup", *dbPath)
 		}
@@ -154,4 +154,16 @@ func (m *Main) restoreCmd(ctx context.Context, args []string) error {
 	}
 	fmt.Fprintf(m.Stdout, "restore: %s now holds %s\n", *dbPath, *from)
 	return nil
+}
+
+// openExisting opens a database file that must already be there: export
+// and backup read one, and never make an empty file where a path was
+// mistyped.
+func openExisting(path string) (*store.DB, error) {
+	if _, err := os.Stat(path); errors.Is(err, os.ErrNotExist) {
+		return nil, fmt.Errorf("--db %s: no such file; nothing was created (give the file a server uses, or --server for a running one)", path)
+	} else if err != nil {
+		return nil, fmt.Errorf("--db %s: %w", path, err)
+	}
+	return store.Open(path, store.Options{})
 }

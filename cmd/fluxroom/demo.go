@@ -272,30 +272,37 @@ func printRoom(ctx context.Context, w io.Writer, in rpcpb.InstructorServiceClien
 	}()
 	tick := time.NewTicker(every)
 	defer tick.Stop()
-	print := func(now time.Time) {
+	shown := map[uint64]string{} // what each bench's last printed line said
+	print := func(now time.Time, all bool) {
 		mu.Lock()
 		defer mu.Unlock()
-		fmt.Fprint(w, roomSummary(now, states))
+		if all {
+			clear(shown)
+		}
+		fmt.Fprint(w, roomSummary(now, states, shown))
 	}
 	for {
 		select {
 		case <-ctx.Done():
-			print(time.Now())
+			print(time.Now(), true)
 			return nil
 		case err := <-recvErr:
 			if ctx.Err() != nil || errors.Is(err, io.EOF) {
-				print(time.Now())
+				print(time.Now(), true)
 				return nil
 			}
 			return fmt.Errorf("room stream: %w", err)
 		case now := <-tick.C:
-			print(now)
+			print(now, false)
 		}
 	}
 }
 
-// roomSummary is one line per bench, in room order.
-func roomSummary(now time.Time, states map[uint64]*pb.BenchState) string {
+// roomSummary is one line per bench whose state changed since shown (its
+// verdict, readings or reason), in room order; shown is updated. Nothing at
+// all when no bench changed, so the terminal shows what happens, not the
+// same room again every few seconds.
+func roomSummary(now time.Time, states map[uint64]*pb.BenchState, shown map[uint64]string) string {
 	list := make([]*pb.BenchState, 0, len(states))
 	for _, s := range states {
 		list = append(list, s)
@@ -308,8 +315,17 @@ func roomSummary(now time.Time, states map[uint64]*pb.BenchState) string {
 		return a.Column < b.Column
 	})
 	var sb strings.Builder
-	fmt.Fprintf(&sb, "\n— room at %s —\n", now.Format("15:04:05"))
+	changed := 0
 	for _, s := range list {
+		key := fmt.Sprintf("%s|%d|%s", s.VerdictLabel, s.ReadingCount, s.Reason)
+		if shown[s.Bench.BenchId] == key {
+			continue
+		}
+		shown[s.Bench.BenchId] = key
+		if changed == 0 {
+			fmt.Fprintf(&sb, "\n— room at %s —\n", now.Format("15:04:05"))
+		}
+		changed++
 		ago := "—"
 		if s.LastReadingAt != nil {
 			ago = fmt.Sprintf("%.0f s ago", now.Sub(s.LastReadingAt.AsTime()).Seconds())

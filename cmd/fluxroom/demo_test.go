@@ -9,8 +9,10 @@ import (
 	"strings"
 	"sync"
 	"testing"
+	"time"
 
 	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
 // lockedBuffer is a bytes.Buffer safe for the demo's printing goroutine.
@@ -99,4 +101,27 @@ func readingsOf(t *testing.T, label string) int {
 		}
 	}
 	return -1
+}
+
+// TestRoomSummaryPrintsChanges: the demo's terminal prints a bench again
+// only when its state changed, and nothing when no bench did.
+func TestRoomSummaryPrintsChanges(t *testing.T) {
+	now := time.Date(2026, 3, 5, 14, 0, 0, 0, time.UTC)
+	bench := func(id uint64, label, verdict string, n int32) *pb.BenchState {
+		return &pb.BenchState{Bench: &pb.Bench{BenchId: id, Label: label, Experiment: "coil_force"}, VerdictLabel: verdict, ReadingCount: n}
+	}
+	states := map[uint64]*pb.BenchState{1: bench(1, "A1", "need data", 2), 2: bench(2, "A2", "consistent", 5)}
+	shown := map[uint64]string{}
+	first := roomSummary(now, states, shown)
+	if !strings.Contains(first, "A1") || !strings.Contains(first, "A2") {
+		t.Errorf("first print %q, want both benches", first)
+	}
+	if again := roomSummary(now.Add(5*time.Second), states, shown); again != "" {
+		t.Errorf("no change printed %q, want nothing", again)
+	}
+	states[1] = bench(1, "A1", "check", 3)
+	next := roomSummary(now.Add(10*time.Second), states, shown)
+	if !strings.Contains(next, "A1") || strings.Contains(next, "A2") {
+		t.Errorf("after A1 changed: %q, want A1 alone", next)
+	}
 }

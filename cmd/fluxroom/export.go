@@ -26,7 +26,7 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	if err := parse(fs, args); err != nil {
 		return err
 	}
-	db, err := store.Open(*dbPath, store.Options{})
+	db, err := openExisting(*dbPath)
 	if errors.Is(err, store.ErrLocked) {
 		return fmt.Errorf("%s is in use by a running fluxroom server: use the dashboard's export buttons or the Export RPC", *dbPath)
 	}

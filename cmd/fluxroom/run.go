@@ -132,6 +132,10 @@ func parse(fs *flag.FlagSet, args []string) error {
 }
 
 // parseArgs parses args after applying FLUXROOM_* environment defaults.
+// Flags may come before or after the positional arguments
+// ("analyze FILE --json" as well as "analyze --json FILE"); a lone "--"
+// ends the flags. A request for help is flag.ErrHelp, which main answers
+// with exit status 0.
 func parseArgs(fs *flag.FlagSet, args []string) error {
 	var envErr error
 	fs.VisitAll(func(f *flag.Flag) {
@@ -145,13 +149,26 @@ func parseArgs(fs *flag.FlagSet, args []string) error {
 	if envErr != nil {
 		return envErr
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, flag.ErrHelp) {
-			return usageError{"help shown"}
+	var positional []string
+	for {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				return err
+			}
+			return usageError{err.Error()}
 		}
-		return usageError{err.Error()}
+		rest := fs.Args()
+		if len(rest) == 0 {
+			break
+		}
+		if len(args) > 0 && len(rest) < len(args) && args[len(args)-len(rest)-1] == "--" {
+			positional = append(positional, rest...) // after "--", all positional
+			break
+		}
+		positional, args = append(positional, rest[0]), rest[1:]
 	}
-	return nil
+	// Leave the positional arguments where fs.Args finds them.
+	return fs.Parse(append([]string{"--"}, positional...))
 }
 
 // running is a started server with its database.

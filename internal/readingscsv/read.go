@@ -97,10 +97,19 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 	if expCol < 0 {
 		return nil, nil, Error{Line: line, Message: `the header needs an "experiment" column`}
 	}
+	headerLine := line
+	hasColumn := map[string]bool{}
+	for _, c := range cols {
+		hasColumn[c.name] = true
+	}
+	// missing names a value column an experiment needs and the header
+	// lacks, once for the file instead of once a row.
+	missing := map[string]bool{}
 	byLabel := map[string]*Bench{}
 	var order []string
 	var errs []Error
 	seen := map[string]int{}
+	rows := 0
 	for {
 		rec, err := cr.Read()
 		if errors.Is(err, io.EOF) {
@@ -121,6 +130,7 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 			}
 			return strings.TrimSpace(rec[i])
 		}
+		rows++
 		if strings.EqualFold(cell(supersededCol), "yes") {
 			continue // corrected by a later row; kept in the file for the record
 		}
@@ -138,8 +148,20 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 		for _, s := range exp.Constants {
 			isConst[s.Name] = true
 		}
+		lacks := false
 		for _, s := range exp.Values {
 			isValue[s.Name] = true
+			if !s.Optional && !hasColumn[s.Name] {
+				lacks = true
+				if key := exp.ID + "/" + s.Name; !missing[key] {
+					missing[key] = true
+					errs = append(errs, Error{Line: headerLine, Message: fmt.Sprintf("the header has no %s column: %s readings need the %s, for example a column %q",
+						s.Name, exp.ID, s.Label, s.Name+" ["+s.Unit+"]")})
+				}
+			}
+		}
+		if lacks {
+			continue // said once, above
 		}
 		b := byLabel[label]
 		if b == nil {
@@ -200,6 +222,9 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 		b.Readings = append(b.Readings, domain.Reading{Values: values, Sequence: uint64(len(b.Readings) + 1)})
 		b.Lines = append(b.Lines, line)
 		b.Keys = append(b.Keys, fmt.Sprintf("%s-%d", key, seen[key]))
+	}
+	if rows == 0 {
+		return nil, nil, Error{Line: headerLine, Message: "the file has a header but no readings"}
 	}
 	out := make([]*Bench, 0, len(order))
 	for _, label := range order {
