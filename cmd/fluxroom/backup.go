@@ -8,10 +8,6 @@ import (
 	"os"
 	"path/filepath"
 
-	"google.golang.org/grpc"
-	"google.golang.org/grpc/credentials/insecure"
-
-	"example.com/fluxroom/internal/bearer"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -25,6 +21,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 	key := fs.String("instructor-key", "", "the instructor key, for --server")
 	dbPath := fs.String("db", "", "the database file, when no server is running")
 	out := fs.String("out", "", "the backup file to write")
+	client := addClientFlags(fs)
 	if err := parse(fs, args); err != nil {
 		return err
 	}
@@ -38,7 +35,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 	}
 	var n int64
 	if *addr != "" {
-		n, err = backupFromServer(ctx, *addr, *key, f)
+		n, err = backupFromServer(ctx, client, *addr, *key, f)
 	} else {
 		var db *store.DB
 		db, err = openExisting(*dbPath)
@@ -70,8 +67,8 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 	return nil
 }
 
-func backupFromServer(ctx context.Context, addr, key string, w io.Writer) (int64, error) {
-	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(key)))
+func backupFromServer(ctx context.Context, client clientFlags, addr, key string, w io.Writer) (int64, error) {
+	conn, err := client.dial(addr, key)
 	if err != nil {
 		return 0, err
 	}

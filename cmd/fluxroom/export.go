@@ -9,15 +9,20 @@ import (
 	"strings"
 
 	"example.com/fluxroom/internal/export"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
 )
 
 // exportCmd writes a session's gradebook, readings, JSON or report from the
-// database file. The server holds the file's lock while it runs; then use
-// the dashboard's download buttons or the Export RPC instead.
+// database file, or from a running server (--server, over the Export RPC),
+// which holds the file's lock while it runs.
 func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	fs := m.newFlags("export")
-	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "the bbolt database file")
+	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "the bbolt database file, when no server runs")
+	addr := fs.String("server", "", "a running server, host:port: export over its Export RPC")
+	key := fs.String("instructor-key", "", "the instructor key, for --server")
+	client := addClientFlags(fs)
 	session := fs.Uint64("session", 0, "the session id (fluxroom export --db … lists them when left out)")
 	format := fs.String("format", "csv", "csv (gradebook), readings, json or html")
 	out := fs.String("out", "-", "output file, - for standard output")
@@ -26,9 +31,15 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	if err := parse(fs, args); err != nil {
 		return err
 	}
+	if *addr != "" {
+		if *policy != "" || *all {
+			return usageError{"export --server: --policy and --all read the file; a running server grades with each session's own policy"}
+		}
+		return m.exportFromServer(ctx, client, *addr, *key, *session, *format, *out)
+	}
 	db, err := openExisting(*dbPath)
 	if errors.Is(err, store.ErrLocked) {
-		return fmt.Errorf("%s is in use by a running fluxroom server: use the dashboard's export buttons or the Export RPC", *dbPath)
+		return fmt.Errorf("%s is in use by a running fluxroom server: export with --server from it, or use the dashboard's export buttons", *dbPath)
 	}
 	if err != nil {
 		return err
@@ -117,4 +128,38 @@ func (m *Main) exportTerm(db *store.DB, policy []byte, out string) error {
 		return err
 	}
 	return m.writeOut(out, "fluxroom-term-gradebook.csv", buf.Bytes())
+}
+
+// exportFormats are export's --format names for the Export RPC's formats.
+var exportFormats = map[string]pb.ExportFormat{
+	"csv": pb.ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV, "readings": pb.ExportFormat_EXPORT_FORMAT_READINGS_CSV,
+	"json": pb.ExportFormat_EXPORT_FORMAT_JSON, "html": pb.ExportFormat_EXPORT_FORMAT_HTML,
+}
+
+// exportFromServer asks a running server for a session's export and writes
+// it to out ("-": standard output).
+func (m *Main) exportFromServer(ctx context.Context, client clientFlags, addr, key string, session uint64, format, out string) error {
+	f, ok := exportFormats[format]
+	switch {
+	case !ok:
+		return usageError{fmt.Sprintf("export: --format %q: use csv, readings, json or html", format)}
+	case session == 0:
+		return usageError{"export --server: --session is required"}
+	case key == "":
+		return usageError{"export --server: --instructor-key is required"}
+	}
+	conn, err := client.dial(addr, key)
+	if err != nil {
+		return err
+	}
+	defer conn.Close()
+	res, err := rpcpb.NewInstructorServiceClient(conn).Export(ctx, &pb.ExportRequest{SessionId: session, Format: f})
+	if err != nil {
+		return fmt.Errorf("export from %s: %w", addr, err)
+	}
+	if out == "-" {
+		_, err = m.Stdout.Write(res.Content)
+		return err
+	}
+	return os.WriteFile(out, res.Content, 0o644)
 }

@@ -6,9 +6,7 @@ import (
 	"os"
 	"time"
 
-	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
-	"google.golang.org/grpc/credentials/insecure"
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
@@ -26,6 +24,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	addr := fs.String("server", "127.0.0.1:8080", "the fluxroom server, host:port")
 	code := fs.String("code", "", "the session's join code")
 	bench := fs.String("bench", "", "the bench label; rows of other benches are skipped")
+	client := addClientFlags(fs)
 	if err := parseArgs(fs, args); err != nil {
 		return err
 	}
@@ -58,7 +57,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	if rows == nil {
 		return fmt.Errorf("%s has no rows for bench %q", fs.Arg(0), *bench)
 	}
-	conn, err := grpc.NewClient(*addr, grpc.WithTransportCredentials(insecure.NewCredentials()))
+	conn, err := client.dial(*addr, "")
 	if err != nil {
 		return err
 	}

@@ -11,6 +11,7 @@ import (
 	"crypto/x509/pkix"
 	"encoding/binary"
 	"encoding/pem"
+	"fmt"
 	"io"
 	"math/big"
 	"net"
@@ -115,4 +116,57 @@ func tail(b []byte) string {
 		b = b[len(b)-60:]
 	}
 	return string(b)
+}
+
+// TestToolsOverTLS: the commands that call a running server reach one that
+// serves TLS with a self-signed certificate, trusting it with --tls-ca:
+// submit sends a bench's rows, export --server fetches the session's JSON,
+// backup --server copies the file; without --tls-ca they fail.
+func TestToolsOverTLS(t *testing.T) {
+	certFile, keyFile, pool := selfSigned(t)
+	p := startProgram(t, t.TempDir(), filepath.Join(t.TempDir(), "f.db"), "127.0.0.1:0", "--tls-cert", certFile, "--tls-key", keyFile)
+	defer p.stop(t)
+	ctx := context.Background()
+	conn, err := grpc.NewClient(p.addr, grpc.WithTransportCredentials(credentials.NewTLS(&tls.Config{RootCAs: pool})),
+		grpc.WithPerRPCCredentials(bearer.Token(testKey)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close()
+	in := rpcpb.NewInstructorServiceClient(conn)
+	cs, err := in.CreateSession(ctx, &pb.CreateSessionRequest{Title: "Kestrel Vale · PHY 142 · over TLS"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := in.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: cs.Session.SessionId, Benches: []*pb.Bench{{Label: "A1", Experiment: "coil_force"}}}); err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	csv := filepath.Join(dir, "a1.csv")
+	os.WriteFile(csv, []byte("bench,experiment,current [A],force [N]\nA1,coil_force,0,0.001\nA1,coil_force,1,0.481\nA1,coil_force,2,0.962\n"), 0o644)
+	sid := fmt.Sprint(cs.Session.SessionId)
+	run := func(args ...string) (string, error) {
+		var out bytes.Buffer
+		err := NewMain(&out, &out).Run(ctx, args)
+		return out.String(), err
+	}
+	if out, err := run("submit", "--server", p.addr, "--tls-ca", certFile, "--code", cs.Session.JoinCode, "--bench", "A1", csv); err != nil {
+		t.Fatalf("submit over TLS: %v\n%s", err, out)
+	}
+	out, err := run("export", "--server", p.addr, "--tls-ca", certFile, "--instructor-key", testKey, "--session", sid, "--format", "json")
+	if err != nil || !strings.Contains(out, "over TLS") || !strings.Contains(out, `"bench": "A1"`) {
+		t.Errorf("export --server over TLS: %v\n%.400s", err, out)
+	}
+	backup := filepath.Join(dir, "copy.db")
+	if out, err := run("backup", "--server", p.addr, "--tls-ca", certFile, "--instructor-key", testKey, "--out", backup); err != nil {
+		t.Errorf("backup --server over TLS: %v\n%s", err, out)
+	} else if _, err := os.Stat(backup); err != nil {
+		t.Errorf("backup file: %v", err)
+	}
+	tctx, cancel := context.WithTimeout(ctx, 5*time.Second)
+	defer cancel()
+	var out2 bytes.Buffer
+	if err := NewMain(&out2, &out2).Run(tctx, []string{"export", "--server", p.addr, "--instructor-key", testKey, "--session", sid}); err == nil {
+		t.Error("export --server in plaintext to a TLS server succeeded")
+	}
 }
