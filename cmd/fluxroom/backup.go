@@ -133,10 +133,11 @@ func (m *Main) restoreCmd(ctx context.Context, args []string) error {
 			return fmt.Errorf("restore: %s is in use or damaged (%w); stop the server first", *dbPath, err)
 		}
 		db.Close()
-		if err := os.Rename(*dbPath, *dbPath+".before-restore"); err != nil {
+		kept, err := keepAside(*dbPath)
+		if err != nil {
 			return err
 		}
-		fmt.Fprintf(m.Stdout, "restore: the old file is kept as %s\n", *dbPath+".before-restore")
+		fmt.Fprintf(m.Stdout, "restore: the old file is kept as %s\n", kept)
 	}
 	b, err := os.ReadFile(*from)
 	if err != nil {
@@ -163,4 +164,25 @@ func openExisting(path string) (*store.DB, error) {
 		return nil, fmt.Errorf("--db %s: %w", path, err)
 	}
 	return store.Open(path, store.Options{})
+}
+
+// keepAside renames the file a restore replaces to the first free name of
+// path.before-restore, path.before-restore.1, .2, …: every earlier file is
+// kept, none is overwritten.
+func keepAside(path string) (string, error) {
+	for i := 0; i < 10000; i++ {
+		name := path + ".before-restore"
+		if i > 0 {
+			name += fmt.Sprintf(".%d", i)
+		}
+		// Link fails when the name is taken, so a file is never replaced,
+		// even by a restore running at the same moment.
+		if err := os.Link(path, name); errors.Is(err, os.ErrExist) {
+			continue
+		} else if err != nil {
+			return "", err
+		}
+		return name, os.Remove(path)
+	}
+	return "", fmt.Errorf("restore: no free name for %s.before-restore", path)
 }

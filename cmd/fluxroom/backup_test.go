@@ -4,10 +4,12 @@ import (
 	"context"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"sync"
 	"testing"
 
+	"example.com/fluxroom/domain"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -76,5 +78,45 @@ func TestHotBackupAndRestore(t *testing.T) {
 	// Restoring over a file a server holds is refused.
 	if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"restore", "--from", out, "--db", restored}); err == nil {
 		t.Error("restore over a served file succeeded")
+	}
+}
+
+// TestRestoreKeepsEveryEarlierFile: each restore keeps the file it replaces
+// under a name of its own; a second restore never overwrites the first one's.
+func TestRestoreKeepsEveryEarlierFile(t *testing.T) {
+	dir := t.TempDir()
+	ctx := context.Background()
+	// Three files of one session each, titled so they can be told apart.
+	files := make([]string, 3)
+	for i := range files {
+		files[i] = filepath.Join(dir, fmt.Sprintf("term-%d.db", i))
+		db, err := store.Open(files[i], store.Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if _, err := db.CreateSession(domain.Session{Title: fmt.Sprintf("section %d", i), JoinCode: fmt.Sprintf("CODE%02d", i)}); err != nil {
+			t.Fatal(err)
+		}
+		db.Close()
+	}
+	live := filepath.Join(dir, "fluxroom.db")
+	if err := os.Link(files[0], live); err != nil {
+		t.Fatal(err)
+	}
+	for _, from := range files[1:] {
+		if err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"restore", "--from", from, "--db", live}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for name, want := range map[string]string{live + ".before-restore": "section 0", live + ".before-restore.1": "section 1", live: "section 2"} {
+		db, err := store.Open(name, store.Options{ReadOnly: true})
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		ss, err := db.Sessions()
+		db.Close()
+		if err != nil || len(ss) != 1 || ss[0].Title != want {
+			t.Errorf("%s holds %+v (%v), want %q", filepath.Base(name), ss, err, want)
+		}
 	}
 }
