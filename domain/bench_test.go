@@ -56,6 +56,6 @@ func BenchmarkRoomFindings(b *testing.B) {
 	}
 	b.ReportAllocs()
 	for i := 0; i < b.N; i++ {
-		RoomFindings(results)
+		RoomFindings(results, DefaultTolerance())
 	}
 }

@@ -76,9 +76,10 @@ const (
 )
 
 // RoomFindings looks across benches: per experiment, whether most groups
-// share one discrepancy, and whether any benches' data are identical. The
-// identical-data finding is for the instructor only and accuses no one.
-func RoomFindings(results []BenchResult) []RoomFinding {
+// share one discrepancy outside the tolerance's good band, and whether any
+// benches' data are identical. The identical-data finding is for the
+// instructor only and accuses no one.
+func RoomFindings(results []BenchResult, tol Tolerance) []RoomFinding {
 	byExp := map[string][]BenchResult{}
 	for _, r := range results {
 		if r.Ratio != 0 && (r.Verdict == Consistent || r.Verdict == Check || r.Verdict == Off) {
@@ -109,7 +110,10 @@ func RoomFindings(results []BenchResult) []RoomFinding {
 			}
 			med := median(ratios)
 			spread := mad(ratios) / math.Abs(med)
-			if spread > sharedMaxSpread {
+			// Groups called check for a cause of their own (a skipped zero,
+			// one slipped reading) can agree with theory: a ratio inside
+			// the good band is no discrepancy to share.
+			if spread > sharedMaxSpread || 100*math.Abs(med-1) <= tol.GoodPercent {
 				continue
 			}
 			msg := fmt.Sprintf("%d of %d groups on %s read %.3g× theory (spread %.0f %%): %s", len(side), len(rs), exp, med, 100*spread,

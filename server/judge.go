@@ -171,7 +171,7 @@ func mergeReading(list []domain.Reading, r domain.Reading) []domain.Reading {
 // publishes them when they changed. Call with the session's publish lock
 // held.
 func (s *Server) publishFindings(sessionID uint64, rs *roomState, results []domain.BenchResult) {
-	if f := domain.RoomFindings(results); !sameFindings(f, rs.findings) {
+	if f := domain.RoomFindings(results, rs.session.EffectiveTolerance()); !sameFindings(f, rs.findings) {
 		rs.findings = f
 		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
 	}

@@ -112,7 +112,7 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 			return nil, err
 		}
 	}
-	rs.findings = domain.RoomFindings(rs.resultList())
+	rs.findings = domain.RoomFindings(rs.resultList(), rs.session.EffectiveTolerance())
 	rs.stalled = domain.StalledBenches(rs.resultList(), s.now(), s.stallAfter)
 	s.rooms.put(sessionID, rs)
 	return rs, nil

@@ -94,7 +94,7 @@ func analyze(r io.Reader) (analyzeReport, error) {
 		}
 		rep.Benches = append(rep.Benches, ab)
 	}
-	for _, f := range domain.RoomFindings(results) {
+	for _, f := range domain.RoomFindings(results, domain.DefaultTolerance()) {
 		af := analyzeFinding{Code: f.Code, Experiment: f.Experiment, Message: f.Message, Benches: []string{}}
 		for _, id := range f.BenchIDs {
 			af.Benches = append(af.Benches, labels[id])

@@ -54,6 +54,11 @@ type Session struct {
 	store.SessionData
 	Policy domain.Policy
 	Rows   []domain.GradeRow
+	// Findings are the room's, as the dashboard showed them (shared
+	// causes, identical readings), for the instructor; Labels names their
+	// benches.
+	Findings []domain.RoomFinding
+	Labels   map[uint64]string
 }
 
 // Prepare grades a stored session under its policy (the default when it
@@ -63,8 +68,14 @@ func Prepare(d store.SessionData) (Session, error) {
 	if err != nil {
 		return Session{}, fmt.Errorf("export: the session's grading policy: %w", err)
 	}
-	rows := domain.GradeRoom(d.Benches, d.Readings, domain.Overrides(d.Notes), d.Session.EffectiveTolerance(), p)
-	return Session{SessionData: d, Policy: p, Rows: rows}, nil
+	tol := d.Session.EffectiveTolerance()
+	rows := domain.GradeRoom(d.Benches, d.Readings, domain.Overrides(d.Notes), tol, p)
+	results := make([]domain.BenchResult, len(rows))
+	labels := make(map[uint64]string, len(rows))
+	for i, r := range rows {
+		results[i], labels[r.Bench.ID] = domain.ResultOf(r.Bench, r.Assessment, r.Readings), r.Bench.Label
+	}
+	return Session{SessionData: d, Policy: p, Rows: rows, Findings: domain.RoomFindings(results, tol), Labels: labels}, nil
 }
 
 // Format is one of the export formats.
@@ -107,4 +118,13 @@ func writeReadings(w io.Writer, s Session) error {
 		benches[i], readings[row.Bench.ID] = row.Bench, row.Readings
 	}
 	return readingscsv.Write(w, benches, readings)
+}
+
+// benchLabels names benches by their labels, in the order given.
+func (s Session) benchLabels(ids []uint64) []string {
+	out := make([]string, len(ids))
+	for i, id := range ids {
+		out[i] = s.Labels[id]
+	}
+	return out
 }

@@ -3,7 +3,9 @@ package export
 import (
 	"bytes"
 	"encoding/csv"
+	"encoding/json"
 	"flag"
+	"fmt"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -45,18 +47,18 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 		{"B2", "straight_wire", "", "Ada, Bo, Cy"},
 	}
 	for i, g := range groups {
-		sim, err := sim.Simulate(g.exp, g.mistake, rand.New(rand.NewPCG(31, uint64(i))), t0)
+		run, err := sim.Simulate(g.exp, g.mistake, rand.New(rand.NewPCG(31, uint64(i))), t0)
 		if err != nil {
 			t.Fatal(err)
 		}
-		b := sim.Bench
+		b := run.Bench
 		b.Label, b.Row, b.Column, b.Members = g.label, i/2, i%2, g.members
 		bs, err := db.PutBenches(s.ID, []domain.Bench{b})
 		if err != nil {
 			t.Fatal(err)
 		}
 		id := bs[len(bs)-1].ID
-		for j, r := range sim.Readings {
+		for j, r := range run.Readings {
 			r.ID = g.label + "-" + string(rune('a'+j))
 			if g.label == "B1" && j == 3 {
 				r.Values["heater_voltage"] = domain.Quantity{Value: 7.1, Unit: "V"} // unsafe
@@ -235,5 +237,68 @@ func TestPolicyExample(t *testing.T) {
 	}
 	if p.Max() != 10 || p.RequiredReadings["coil_force"] != 10 || p.RequiredReadings["solenoid"] != 5 || p.UnsafeDeduction != 2 {
 		t.Errorf("policy = %+v", p)
+	}
+}
+
+// TestRoomFindingsInExports: what the dashboard showed about the room as a
+// whole (here three groups sharing a single-loop coil constant) is in the
+// JSON and at the head of the HTML report, naming the benches.
+func TestRoomFindingsInExports(t *testing.T) {
+	db, err := store.Open(filepath.Join(t.TempDir(), "fluxroom.db"), store.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer db.Close()
+	s, err := db.CreateSession(domain.Session{Title: "Kestrel Vale Polytechnic · PHY 142 · Friday", JoinCode: "R4M8QT", CreatedAt: t0})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, label := range []string{"C1", "C2", "C3"} {
+		run, err := sim.Simulate("e_over_m", domain.CodeKSingleLoop, rand.New(rand.NewPCG(77, uint64(i))), t0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		b := run.Bench
+		b.Label, b.Column = label, i
+		bs, err := db.PutBenches(s.ID, []domain.Bench{b})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for j, r := range run.Readings {
+			r.ID = fmt.Sprintf("%s-%d", label, j)
+			if _, _, err := db.AppendReading(s.ID, bs[len(bs)-1].ID, r); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	d, err := db.ReadSession(s.ID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ex, err := Prepare(d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var js, page bytes.Buffer
+	if err := WriteJSON(&js, ex); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteHTML(&page, ex); err != nil {
+		t.Fatal(err)
+	}
+	var doc struct {
+		RoomFindings []struct {
+			Code    string   `json:"code"`
+			Benches []string `json:"benches"`
+		} `json:"room_findings"`
+	}
+	if err := json.Unmarshal(js.Bytes(), &doc); err != nil {
+		t.Fatal(err)
+	}
+	if len(doc.RoomFindings) != 1 || doc.RoomFindings[0].Code != domain.CodeSharedCause || strings.Join(doc.RoomFindings[0].Benches, ",") != "C1,C2,C3" {
+		t.Errorf("JSON room_findings = %+v, want the shared cause at C1, C2, C3", doc.RoomFindings)
+	}
+	if !strings.Contains(page.String(), "Across the room") || !strings.Contains(page.String(), "C1, C2, C3") {
+		t.Errorf("the HTML report does not show the room's finding")
 	}
 }

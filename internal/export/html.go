@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"html/template"
 	"io"
+	"strings"
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/svgplot"
@@ -13,10 +14,11 @@ import (
 // the result against theory, the grade and plain-words feedback. It needs
 // nothing from outside the file, so it prints to PDF from any browser.
 var reportPage = template.Must(template.New("report").Funcs(template.FuncMap{
-	"plot":  func(p *domain.Plot) template.HTML { return template.HTML(svgplot.Bench(p)) },
-	"value": func(v, u float64, unit string) string { return domain.FormatMeasurement(v, u, unit) },
-	"pts":   pts,
-	"pct":   func(v float64) string { return fmt.Sprintf("%+.1f %%", v) },
+	"plot":    func(p *domain.Plot) template.HTML { return template.HTML(svgplot.Bench(p)) },
+	"value":   func(v, u float64, unit string) string { return domain.FormatMeasurement(v, u, unit) },
+	"pts":     pts,
+	"pct":     func(v float64) string { return fmt.Sprintf("%+.1f %%", v) },
+	"benches": func(s Session, ids []uint64) string { return strings.Join(s.benchLabels(ids), ", ") },
 }).Parse(`<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{{.Session.Title}} — group reports</title>
 <style>
@@ -30,8 +32,14 @@ table { border-collapse: collapse; margin: .5rem 0; } td, th { border-bottom: 1p
 .plot .band { fill: rgba(31,122,109,.15); } .plot .theory { stroke: #1f7a6d; stroke-width: 2; fill: none; }
 .plot .fit { stroke: #1d2430; stroke-dasharray: 6 4; fill: none; } .plot .eb { stroke: #1d2430; } .plot .pt { fill: #1d2430; }
 .safety { font-size: .85rem; color: #5b6472; }
+.room { page-break-after: always; break-after: page; max-width: 46rem; }
 </style></head><body>
-{{range .Rows}}<section class="group">
+{{if .Findings}}<section class="room">
+<h1>{{.Session.Title}}</h1>
+<h2>Across the room (for the instructor)</h2>
+<ul>{{range .Findings}}<li><strong>{{benches $ .BenchIDs}}</strong> ({{.Experiment}}): {{.Message}} <code>{{.Code}}</code></li>{{end}}</ul>
+</section>
+{{end}}{{range .Rows}}<section class="group">
 <h1>{{$.Session.Title}}</h1>
 <h2>Bench {{.Bench.Label}} · {{.Assessment.ExperimentTitle}}</h2>
 <p class="meta">{{if .Bench.Members}}Group: {{.Bench.Members}} · {{end}}{{.Assessment.ReadingCount}} readings · verdict: {{.Assessment.Verdict.Label}}</p>

@@ -17,6 +17,15 @@ type jsonExport struct {
 	} `json:"session"`
 	Policy string      `json:"policy"`
 	Groups []jsonGroup `json:"groups"`
+	// RoomFindings are about the room as a whole, for the instructor.
+	RoomFindings []jsonFinding `json:"room_findings"`
+}
+
+type jsonFinding struct {
+	Code       string   `json:"code"`
+	Experiment string   `json:"experiment"`
+	Message    string   `json:"message"`
+	Benches    []string `json:"benches"`
 }
 
 type jsonValue struct {
@@ -116,6 +125,10 @@ func WriteJSON(w io.Writer, s Session) error {
 			}
 		}
 		out.Groups = append(out.Groups, jg)
+	}
+	out.RoomFindings = []jsonFinding{}
+	for _, f := range s.Findings {
+		out.RoomFindings = append(out.RoomFindings, jsonFinding{f.Code, f.Experiment, f.Message, s.benchLabels(f.BenchIDs)})
 	}
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
