@@ -142,7 +142,7 @@ func (s *Server) judgePass(sessionID uint64, batch map[uint64][]domain.Reading, 
 	stalled := domain.StalledBenches(moved, now, s.stallAfter)
 	for _, bid := range changed {
 		rs.stalled[bid] = stalled[bid]
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid, now)}})
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid)}})
 	}
 	if withFindings {
 		s.publishFindings(sessionID, rs, rs.resultList())

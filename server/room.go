@@ -1,7 +1,6 @@
 package server
 
 import (
-	"fmt"
 	"slices"
 	"sync"
 	"time"
@@ -9,6 +8,7 @@ import (
 	"google.golang.org/protobuf/proto"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -133,21 +133,22 @@ func (rs *roomState) resultList() []domain.BenchResult {
 	return out
 }
 
-// shown is the state the room shows for a bench: its judged state, or
-// "stalled" when the group stopped while the room moves on.
-func (rs *roomState) shown(id uint64, now time.Time) *pb.BenchState {
+// shown is the state the room shows for a bench: its judged state, with
+// its activity when the group stopped while the room moves on: "done" when
+// the run is complete under the session's grading policy, else "stalled".
+// The verdict stays the judging's: a quiet bench that is off is still off.
+func (rs *roomState) shown(id uint64) *pb.BenchState {
 	st := rs.states[id]
 	if !rs.stalled[id] || st == nil {
 		return st
 	}
 	out := proto.Clone(st).(*pb.BenchState)
-	out.Verdict = pb.Verdict_VERDICT_STALLED
-	out.VerdictLabel = domain.Stalled.Label()
-	ago := "a while"
-	if t := st.GetLastReadingAt(); t != nil {
-		ago = fmt.Sprintf("%.0f min", now.Sub(t.AsTime()).Minutes())
+	out.Activity = "stalled"
+	if p, err := export.ParsePolicy([]byte(rs.session.GradingPolicy)); err == nil {
+		if need := p.RequiredReadings[st.GetBench().GetExperiment()]; need > 0 && int(st.GetReadingCount()) >= need {
+			out.Activity = "done"
+		}
 	}
-	out.Reason = fmt.Sprintf("no new reading for %s while the room moves on (last verdict: %s). %s", ago, st.GetVerdictLabel(), st.GetReason())
 	return out
 }
 
@@ -177,7 +178,7 @@ func (s *Server) checkStalls() {
 			for bid := range rs.states {
 				if stalled[bid] != rs.stalled[bid] {
 					rs.stalled[bid] = stalled[bid]
-					s.hub.publish(id, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid, now)}})
+					s.hub.publish(id, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid)}})
 				}
 			}
 		}

@@ -365,7 +365,8 @@ func contains(xs []string, x string) bool {
 
 // TestRoomFindingsAndStalls: when most groups share one discrepancy the room
 // stream carries a shared-cause finding, and a bench that stops while the
-// others go on turns "stalled" by itself.
+// others go on is marked stalled by itself, beside its verdict, and one
+// whose run is complete is marked done.
 func TestRoomFindingsAndStalls(t *testing.T) {
 	var mu sync.Mutex
 	now := time.Date(2026, 3, 4, 14, 0, 0, 0, time.UTC)
@@ -418,7 +419,9 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 	if finding.Code != "room.shared_cause" || len(finding.BenchIds) != 3 || math.Abs(finding.MedianRatio-0.5) > 0.01 {
 		t.Errorf("finding = %v, want room.shared_cause over 3 benches at ×0.5", finding)
 	}
-	// Ten minutes on, A1 reads again and A2 does not: A2 is stalled.
+	// Ten minutes on, A1 reads again and A2 does not: A2 is stalled, and
+	// keeps its verdict (off: L counts both segments); its 5 readings are
+	// fewer than the 8 of a complete coil run.
 	advance(10 * time.Minute)
 	if _, err := submit(ctx, r, sid, sb.Benches[0].BenchId, "A1-late", 4.5, 0.48*4.5); err != nil {
 		t.Fatal(err)
@@ -428,7 +431,34 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" && b.Verdict == pb.Verdict_VERDICT_STALLED {
+		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" && b.Activity != "" {
+			if b.Activity != "stalled" || b.Verdict != pb.Verdict_VERDICT_OFF {
+				t.Errorf("A2 quiet: activity %q, verdict %v; want stalled and still off", b.Activity, b.Verdict)
+			}
+			break
+		}
+	}
+	// A4 finishes a complete run (8 readings), then stops while A1 goes on:
+	// it is done, not stalled.
+	for i := 0; i < 8; i++ {
+		I := float64(i) * 0.5
+		if _, err := submit(ctx, r, sid, sb.Benches[3].BenchId, fmt.Sprintf("A4-%d", i), I, 0.24*I); err != nil {
+			t.Fatal(err)
+		}
+	}
+	advance(10 * time.Minute)
+	if _, err := submit(ctx, r, sid, sb.Benches[0].BenchId, "A1-later", 4.6, 0.48*4.6); err != nil {
+		t.Fatal(err)
+	}
+	for {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if b := ev.GetBench(); b != nil && b.Bench.Label == "A4" && b.Activity != "" {
+			if b.Activity != "done" {
+				t.Errorf("A4 after a complete run: activity %q, want done", b.Activity)
+			}
 			break
 		}
 	}

@@ -137,7 +137,7 @@ func (s *Server) publishBench(sessionID, benchID uint64) error {
 	// Only this bench's flag changes here; checkStalls publishes the others'.
 	results := rs.resultList()
 	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
-	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID, now)}})
+	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID)}})
 	s.publishFindings(sessionID, rs, results)
 	return nil
 }
@@ -151,10 +151,9 @@ func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
 	if err != nil {
 		return nil, err
 	}
-	now := s.now()
 	snap := &pb.RoomSnapshot{Session: sessionToPB(sess), Findings: findingsToPB(rs.findings)}
 	for _, st := range rs.states {
-		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId(), now))
+		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId()))
 	}
 	slices.SortFunc(snap.Benches, func(a, b *pb.BenchState) int {
 		if d := a.GetBench().GetRow() - b.GetBench().GetRow(); d != 0 {

@@ -297,8 +297,20 @@ func exportButton(r *Room, label string, f pb.ExportFormat) app.UI {
 		})
 }
 
-// attentionRank orders tiles for the "needs attention first" view.
+// attentionRank orders tiles for the "needs attention first" view:
+// unsafe, off, check, then a group that stalled (whatever its verdict
+// below check), need data, consistent.
 var attentionRank = map[string]int{"unsafe": 0, "off": 1, "check": 2, "stalled": 3, "need-data": 4, "consistent": 5}
+
+// attention is a tile's place in that order: its verdict's, or stalled's
+// when the group stopped before a complete run and its verdict asks less.
+func attention(t *Tile) int {
+	r := attentionRank[t.Verdict]
+	if t.Activity == "stalled" {
+		r = min(r, attentionRank["stalled"])
+	}
+	return r
+}
 
 // tiles builds one Tile value per bench, in room order or by attention.
 func (r *Room) tiles() (out []*Tile, rows, cols int) {
@@ -317,6 +329,7 @@ func (r *Room) tiles() (out []*Tile, rows, cols int) {
 			Readings:     int(st.GetReadingCount()),
 			Age:          age(r.now, st),
 			Acknowledged: st.GetAlertAcknowledged(),
+			Activity:     st.GetActivity(),
 			Free:         r.attentionFirst,
 		}
 		rows, cols = max(rows, t.Row+1), max(cols, t.Column+1)
@@ -324,7 +337,7 @@ func (r *Room) tiles() (out []*Tile, rows, cols int) {
 	}
 	sort.Slice(out, func(i, j int) bool {
 		if r.attentionFirst {
-			if a, b := attentionRank[out[i].Verdict], attentionRank[out[j].Verdict]; a != b {
+			if a, b := attention(out[i]), attention(out[j]); a != b {
 				return a < b
 			}
 		}

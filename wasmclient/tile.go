@@ -23,6 +23,9 @@ type Tile struct {
 	Readings     int
 	Age          string
 	Acknowledged bool
+	// Activity is "stalled" or "done" when the group stopped while the room
+	// moves on; a second marker beside the verdict, never in its place.
+	Activity string
 	// Free drops the room position (the "needs attention first" order).
 	Free bool
 }
@@ -38,6 +41,9 @@ var marks = map[string]string{
 	"stalled":    "‖",
 }
 
+// activityWords are the second marker's: a shape and a word each.
+var activityWords = map[string]string{"stalled": "‖ stalled", "done": "■ done"}
+
 // Render draws the tile. It is a focusable button-like region: Enter or a
 // click opens the bench's detail.
 func (t *Tile) Render() app.UI {
@@ -47,7 +53,7 @@ func (t *Tile) Render() app.UI {
 		Attr("data-verdict", t.Verdict).
 		Attr("role", "button").
 		TabIndex(0).
-		Aria("label", fmt.Sprintf("bench %s, %s: %s", t.Label, t.Words, t.Reason)).
+		Aria("label", fmt.Sprintf("bench %s, %s%s: %s", t.Label, t.Words, map[string]string{"stalled": ", stalled", "done": ", done"}[t.Activity], t.Reason)).
 		OnClick(t.open).
 		OnKeyDown(func(ctx app.Context, e app.Event) {
 			if k := e.Get("key").String(); k == "Enter" || k == " " {
@@ -61,13 +67,14 @@ func (t *Tile) Render() app.UI {
 	if t.Verdict == "unsafe" && t.Acknowledged {
 		meta += " · alert acknowledged"
 	}
-	return s.Body(
+	return s.Attr("data-activity", t.Activity).Body(
 		app.Div().Class("tile-head").Body(
 			app.Span().Class("tile-label").Text(t.Label),
 			app.Span().Class("tile-state").Body(
 				app.Span().Class("mark").Aria("hidden", "true").Text(marks[t.Verdict]),
 				app.Span().Class("words").Text(t.Words),
 			),
+			app.If(t.Activity != "", app.Span().Class("activity", "a-"+t.Activity).Text(activityWords[t.Activity])),
 		),
 		app.P().Class("reason").Text(t.Reason),
 		app.Div().Class("tile-meta").Text(meta),

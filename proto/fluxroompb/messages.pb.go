@@ -41,7 +41,9 @@ const (
 	Verdict_VERDICT_OFF Verdict = 4
 	// A reading exceeded a safety limit of the bench: act now.
 	Verdict_VERDICT_UNSAFE Verdict = 5
-	// No new reading for a while although the rest of the room moves on.
+	// No new reading for a while although the rest of the room moves on. No
+	// longer sent: a quiet bench keeps its verdict and says so in
+	// BenchState.activity.
 	Verdict_VERDICT_STALLED Verdict = 6
 )
 
@@ -1288,8 +1290,13 @@ type BenchState struct {
 	// True when an instructor acknowledged the unsafe alert after the last
 	// reading.
 	AlertAcknowledged bool `protobuf:"varint,17,opt,name=alert_acknowledged,json=alertAcknowledged,proto3" json:"alert_acknowledged,omitempty"`
-	unknownFields     protoimpl.UnknownFields
-	sizeCache         protoimpl.SizeCache
+	// How the bench is going, beside its verdict: empty while the group takes
+	// readings; "stalled" when no reading came for a while although the rest
+	// of the room moves on and the run is not complete; "done" when the run
+	// has the readings a complete run needs and the group stopped.
+	Activity      string `protobuf:"bytes,18,opt,name=activity,proto3" json:"activity,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *BenchState) Reset() {
@@ -1439,6 +1446,13 @@ func (x *BenchState) GetAlertAcknowledged() bool {
 		return x.AlertAcknowledged
 	}
 	return false
+}
+
+func (x *BenchState) GetActivity() string {
+	if x != nil {
+		return x.Activity
+	}
+	return ""
 }
 
 // BenchDetail is everything known about one bench.
@@ -3671,7 +3685,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\xc3\x05\n" +
+	" \x01(\tR\x05yName\"\xdf\x05\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -3692,7 +3706,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"resultName\x12/\n" +
 	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\x12\x14\n" +
 	"\x05notes\x18\x10 \x03(\tR\x05notes\x12-\n" +
-	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\"\x82\x02\n" +
+	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\x12\x1a\n" +
+	"\bactivity\x18\x12 \x01(\tR\bactivity\"\x82\x02\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
