@@ -7,6 +7,8 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode"
+	"unicode/utf8"
 
 	"example.com/fluxroom/domain/fit"
 )
@@ -112,6 +114,11 @@ type Assessment struct {
 	// at a limit (within its meter's resolution) while the verdict stays
 	// the data's.
 	Caution string
+	// Breach says, in sentences, what broke which limit on an unsafe
+	// bench ("Heater voltage 7.4 V (reading #41) is above the bench limit
+	// of 6.3 V."), and BreachReadingIDs are the readings that did.
+	Breach           string
+	BreachReadingIDs []string
 	// Plot is what the bench detail draws.
 	Plot *Plot
 	// Notes are further results in words, such as an experiment's linear
@@ -203,7 +210,8 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	switch {
 	case unsafe:
 		a.Verdict, a.Caution = Unsafe, caution
-		a.Reason = reason + " " + a.Reason
+		a.Breach, a.BreachReadingIDs = reason.text, reason.readings
+		a.Reason = "UNSAFE: " + reason.text + " " + a.Reason
 	case atLimit != "":
 		a.Caution = atLimit
 	}
@@ -225,8 +233,9 @@ func alsoPossible(d Diagnosis) string {
 // meter's resolution is at the limit: that meter cannot tell it from the
 // limit itself, so it is a caution (atLimit), not an unsafe verdict
 // // common practice.
-func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, caution string, unsafe bool, atLimit string) {
+func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason breach, caution string, unsafe bool, atLimit string) {
 	var reasons, cautions, limits []string
+	var ids []string
 	for _, s := range e.Values {
 		if s.SafetyLimit == "" {
 			continue
@@ -251,7 +260,8 @@ func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, c
 				}
 				continue
 			}
-			reasons = append(reasons, fmt.Sprintf("UNSAFE: %s %s %s (reading #%d) is above the bench limit of %s %s.", s.Label, v, unit, r.seq, l, unit))
+			reasons = append(reasons, fmt.Sprintf("%s %s %s (reading #%d) is above the bench limit of %s %s.", capitalize(s.Label), v, unit, r.seq, l, unit))
+			ids = append(ids, r.id)
 			cautions = append(cautions, s.Caution)
 			at = ""
 			break
@@ -264,10 +274,25 @@ func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason, c
 		atLimit = strings.Join(limits, " ") + " " + safetyDeferral
 	}
 	if len(reasons) == 0 {
-		return "", "", false, atLimit
+		return breach{}, "", false, atLimit
 	}
 	cautions = append(cautions, safetyDeferral)
-	return strings.Join(reasons, " "), strings.Join(cautions, " "), true, atLimit
+	return breach{text: strings.Join(reasons, " "), readings: ids}, strings.Join(cautions, " "), true, atLimit
+}
+
+// breach is what broke a bench's limits: sentences, and the readings.
+type breach struct {
+	text     string
+	readings []string
+}
+
+// capitalize starts a sentence with its label: "heater voltage" → "Heater voltage".
+func capitalize(s string) string {
+	if s == "" {
+		return s
+	}
+	r, n := utf8.DecodeRuneInString(s)
+	return string(unicode.ToUpper(r)) + s[n:]
 }
 
 // distinctDigits writes a value and the limit it passed with as many

@@ -65,6 +65,8 @@ func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 		ExperimentTitle:   a.ExperimentTitle,
 		ResultName:        a.ResultName,
 		Notes:             a.Notes,
+		Breach:            a.Breach,
+		BreachReadingIds:  a.BreachReadingIDs,
 	}
 	for _, b := range a.Budget {
 		st.Budget = append(st.Budget, &pb.BudgetItem{Input: b.Input, RelativeUncertainty: b.RelU, Share: b.Share})

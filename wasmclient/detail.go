@@ -31,67 +31,63 @@ func (r *Room) renderDetail() app.UI {
 	for _, id := range d.Superseded {
 		gone[id] = true
 	}
-	retake := retakeIDs(st)
+	marked := rowMarks{gone: gone, retake: retakeIDs(st), unsafe: breachIDs(st)}
 	return app.Aside().Class("detail", "v-"+verdictClass(st.GetVerdict())).ID("detail").Attr("data-bench", st.GetBench().GetLabel()).
 		Aria("label", "bench detail").
-		OnKeyDown(func(ctx app.Context, e app.Event) {
-			if e.Get("key").String() == "Escape" {
-				ctx.NewAction(actionCloseBench)
-			}
-		}).Body(
-		app.Header().Class("detail-head").Body(
-			app.H2().Text(fmt.Sprintf("%s · %s", st.GetBench().GetLabel(), st.GetExperimentTitle())),
-			app.Span().Class("tile-state").Body(
-				app.Span().Class("mark").Text(marks[verdictClass(st.GetVerdict())]),
-				app.Span().Text(st.GetVerdictLabel()),
-			),
-			closeBtn,
-		),
-		app.P().Class("detail-reason").Text(st.GetReason()),
-		app.If(st.GetCaution() != "", app.P().Class("caution").Text(st.GetCaution())),
-		app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(d.Plot))+`</div>`)),
-		app.Div().Class("detail-cols").Body(
-			app.Section().Body(
-				app.H3().Text("Likely causes"),
-				app.If(len(st.GetDiagnoses()) == 0, app.P().Text("None found.")),
-				app.Ul().Class("diagnoses").Body(app.Range(st.GetDiagnoses()).Slice(func(i int) app.UI {
-					dg := st.GetDiagnoses()[i]
-					return app.Li().Attr("data-code", dg.Code).Attr("data-reading", dg.ReadingId).Body(
-						app.Strong().Text(dg.Cause),
-						app.Div().Class("evidence").Text("Evidence ("+dg.Level+"): "+dg.Evidence),
-						app.Div().Class("action").Text("Suggest: "+dg.Action),
-						app.If(len(dg.Alternatives) > 0, app.Div().Class("alternatives").Text("Also possible: "+strings.Join(dg.Alternatives, ", "))),
-						app.Code().Text(dg.Code),
-					)
-				})),
-				app.H3().Text("Uncertainty budget"),
-				app.Table().Class("budget").Body(
-					app.Tr().Body(app.Th().Text("input"), app.Th().Text("rel. u"), app.Th().Text("share")),
-					app.Range(st.GetBudget()).Slice(func(i int) app.UI {
-						bi := st.GetBudget()[i]
-						return app.Tr().Body(app.Td().Text(bi.Input), app.Td().Text(fmt.Sprintf("%.2g %%", 100*bi.RelativeUncertainty)),
-							app.Td().Text(fmt.Sprintf("%.0f %%", 100*bi.Share)))
-					}),
+		Body(
+			app.Header().Class("detail-head").Body(
+				app.H2().Text(fmt.Sprintf("%s · %s", st.GetBench().GetLabel(), st.GetExperimentTitle())),
+				app.Span().Class("tile-state").Body(
+					app.Span().Class("mark").Text(marks[verdictClass(st.GetVerdict())]),
+					app.Span().Text(st.GetVerdictLabel()),
 				),
-				app.Range(st.GetNotes()).Slice(func(i int) app.UI { return app.P().Class("note-line").Text(st.GetNotes()[i]) }),
+				closeBtn,
 			),
-			app.Section().Body(
-				app.H3().Text("Readings"),
-				readingsTable(d.Readings, gone, retake),
-				app.H3().Text("Notes"),
-				app.Ul().Class("notes").Body(app.Range(d.Notes).Slice(func(i int) app.UI {
-					n := d.Notes[i]
-					when := ""
-					if n.At != nil {
-						when = n.At.AsTime().Local().Format("15:04")
-					}
-					return app.Li().Text(fmt.Sprintf("%s %s (%s): %s", when, n.Author, n.Kind, n.Text))
-				})),
-				&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
-				&OverrideForm{SessionID: r.sessionID(), BenchID: r.open},
+			app.P().Class("detail-reason").Text(st.GetReason()),
+			app.If(st.GetCaution() != "", app.P().Class("caution").Text(st.GetCaution())),
+			app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(d.Plot))+`</div>`)),
+			app.Div().Class("detail-cols").Body(
+				app.Section().Body(
+					app.H3().Text("Likely causes"),
+					app.If(len(st.GetDiagnoses()) == 0, app.P().Text("None found.")),
+					app.Ul().Class("diagnoses").Body(app.Range(st.GetDiagnoses()).Slice(func(i int) app.UI {
+						dg := st.GetDiagnoses()[i]
+						return app.Li().Attr("data-code", dg.Code).Attr("data-reading", dg.ReadingId).Body(
+							app.Strong().Text(dg.Cause),
+							app.Div().Class("evidence").Text("Evidence ("+dg.Level+"): "+dg.Evidence),
+							app.Div().Class("action").Text("Suggest: "+dg.Action),
+							app.If(len(dg.Alternatives) > 0, app.Div().Class("alternatives").Text("Also possible: "+strings.Join(dg.Alternatives, ", "))),
+							app.Code().Text(dg.Code),
+						)
+					})),
+					app.H3().Text("Uncertainty budget"),
+					app.Table().Class("budget").Body(
+						app.Tr().Body(app.Th().Text("input"), app.Th().Text("rel. u"), app.Th().Text("share")),
+						app.Range(st.GetBudget()).Slice(func(i int) app.UI {
+							bi := st.GetBudget()[i]
+							return app.Tr().Body(app.Td().Text(bi.Input), app.Td().Text(fmt.Sprintf("%.2g %%", 100*bi.RelativeUncertainty)),
+								app.Td().Text(fmt.Sprintf("%.0f %%", 100*bi.Share)))
+						}),
+					),
+					app.Range(st.GetNotes()).Slice(func(i int) app.UI { return app.P().Class("note-line").Text(st.GetNotes()[i]) }),
+				),
+				app.Section().Body(
+					app.H3().Text("Readings"),
+					readingsTable(d.Readings, marked),
+					app.H3().Text("Notes"),
+					app.Ul().Class("notes").Body(app.Range(d.Notes).Slice(func(i int) app.UI {
+						n := d.Notes[i]
+						when := ""
+						if n.At != nil {
+							when = n.At.AsTime().Local().Format("15:04")
+						}
+						return app.Li().Text(fmt.Sprintf("%s %s (%s): %s", when, n.Author, n.Kind, n.Text))
+					})),
+					&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
+					&OverrideForm{SessionID: r.sessionID(), BenchID: r.open},
+				),
 			),
-		),
-	)
+		)
 }
 
 func (r *Room) sessionID() uint64 {
@@ -121,10 +117,13 @@ func plotFromPB(p *pb.Plot) *domain.Plot {
 	return out
 }
 
-// readingsTable lists the readings in arrival order; a corrected reading is
-// struck through, never hidden; a reading a diagnosis asks to re-take is
-// marked.
-func readingsTable(rs []*pb.Reading, gone, retake map[string]bool) app.UI {
+// rowMarks say which readings a table marks, by id: corrected by a later
+// reading (struck through, never hidden), asked to be re-taken by a
+// diagnosis, past a safety limit.
+type rowMarks struct{ gone, retake, unsafe map[string]bool }
+
+// readingsTable lists the readings in arrival order, marked.
+func readingsTable(rs []*pb.Reading, m rowMarks) app.UI {
 	names := map[string]bool{}
 	for _, rd := range rs {
 		for k := range rd.Values {
@@ -158,9 +157,11 @@ func readingsTable(rs []*pb.Reading, gone, retake map[string]bool) app.UI {
 		cells = append(cells, app.Td().Text(id))
 		tr := app.Tr().Attr("data-reading", rd.ReadingId).Body(cells...)
 		switch {
-		case gone[rd.ReadingId]:
+		case m.unsafe[rd.ReadingId]:
+			tr = tr.Class("unsafe-reading").Title("past a safety limit of the bench")
+		case m.gone[rd.ReadingId]:
 			tr = tr.Class("superseded").Title("corrected by a later reading")
-		case retake[rd.ReadingId]:
+		case m.retake[rd.ReadingId]:
 			tr = tr.Class("retake").Title("re-take this point")
 		}
 		rows = append(rows, tr)

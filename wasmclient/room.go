@@ -72,7 +72,12 @@ func (r *Room) OnMount(ctx app.Context) {
 			r.openBench(ctx, id)
 		}
 	})
-	ctx.Handle(actionCloseBench, func(ctx app.Context, a app.Action) { r.open, r.detail = 0, nil })
+	ctx.Handle(actionCloseBench, func(ctx app.Context, a app.Action) {
+		label := r.benches[r.open].GetBench().GetLabel()
+		r.open, r.detail = 0, nil
+		// Back to the tile the detail was opened from, for the keyboard.
+		ctx.Defer(func(app.Context) { focusTile(label) })
+	})
 	client := r.client
 	ctx.Async(func() { r.watch(ctx, client, sessionID) })
 	ctx.Async(func() {
@@ -244,7 +249,12 @@ func (r *Room) Render() app.UI {
 		grid = grid.Style("grid-template-columns", fmt.Sprintf("repeat(%d, minmax(11rem, 1fr))", cols)).
 			Style("grid-template-rows", fmt.Sprintf("repeat(%d, auto)", rows))
 	}
-	return app.Main().Class(mainClass).Body(
+	return app.Main().Class(mainClass).OnKeyDown(func(ctx app.Context, e app.Event) {
+		// Esc closes the open detail wherever the focus is in the room.
+		if e.Get("key").String() == "Escape" && r.open != 0 {
+			ctx.NewAction(actionCloseBench)
+		}
+	}).Body(
 		app.Header().Class("room-head").Body(
 			app.H1().Text(title),
 			app.If(code != "", app.Div().Class("join").Body(
@@ -360,8 +370,8 @@ func (r *Room) renderUnsafe() app.UI {
 		}
 		id := t.GetBench().GetBenchId()
 		items = append(items, app.Li().Attr("data-bench", t.GetBench().GetLabel()).Body(
-			app.Strong().Text(t.GetBench().GetLabel()+": "),
-			app.Span().Text(t.GetReason()+" "+t.GetCaution()+" "),
+			app.P().Class("breach").Body(app.Strong().Text("Bench "+t.GetBench().GetLabel()+": "), app.Text(t.GetBreach())),
+			app.P().Class("caution-text").Text(t.GetCaution()),
 			app.Button().Class("ack").Text("Acknowledge").OnClick(func(ctx app.Context, e app.Event) { r.acknowledge(ctx, id) }),
 		))
 	}
@@ -454,4 +464,14 @@ func age(now time.Time, st *pb.BenchState) string {
 		return fmt.Sprintf("%d min ago", int(d.Minutes()))
 	}
 	return fmt.Sprintf("%d h ago", int(d.Hours()))
+}
+
+// focusTile gives the keyboard focus to a bench's tile.
+func focusTile(label string) {
+	if label == "" {
+		return
+	}
+	if el := app.Window().Get("document").Call("querySelector", fmt.Sprintf("section.tile[data-bench=%q]", label)); el.Truthy() {
+		el.Call("focus")
+	}
 }

@@ -353,7 +353,8 @@ func (s *Station) Render() app.UI {
 		),
 		app.If(s.state != nil && s.state.GetVerdict() == pb.Verdict_VERDICT_UNSAFE,
 			app.Section().Class("unsafe-banner").ID("station-unsafe").Body(app.H2().Text("⚠ Unsafe setting"),
-				app.P().Text(s.state.GetReason()+" "+s.state.GetCaution()))),
+				app.P().Class("breach").Text(s.state.GetBreach()),
+				app.P().Text(s.state.GetCaution()))),
 		app.If(s.state != nil && s.state.GetVerdict() != pb.Verdict_VERDICT_UNSAFE && s.state.GetCaution() != "",
 			app.P().Class("caution").ID("station-caution").Text(s.state.GetCaution())),
 		s.retakeOffers(),
@@ -364,7 +365,7 @@ func (s *Station) Render() app.UI {
 		app.If(s.state != nil && s.state.GetReason() != "", app.P().Class("station-verdict").ID("station-verdict").
 			Text(s.state.GetVerdictLabel()+": "+s.state.GetReason())),
 		app.H2().Text("Your readings"),
-		readingsTable(s.readings, nil, retakeIDs(s.state)),
+		readingsTable(s.readings, rowMarks{retake: retakeIDs(s.state), unsafe: breachIDs(s.state)}),
 	)
 }
 
@@ -393,6 +394,15 @@ func (s *Station) retakeOffers() app.UI {
 		app.H2().Text("Re-take this point"),
 		app.Ul().Body(offers...),
 	))
+}
+
+// breachIDs are the readings that broke a safety limit of the bench.
+func breachIDs(st *pb.BenchState) map[string]bool {
+	out := map[string]bool{}
+	for _, id := range st.GetBreachReadingIds() {
+		out[id] = true
+	}
+	return out
 }
 
 // retakeIDs are the readings a bench's diagnoses ask to re-take.

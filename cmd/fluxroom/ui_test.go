@@ -12,6 +12,7 @@ import (
 	"github.com/chromedp/cdproto/cdp"
 	"github.com/chromedp/cdproto/performance"
 	"github.com/chromedp/chromedp"
+	"github.com/chromedp/chromedp/kb"
 	"google.golang.org/grpc"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
@@ -132,7 +133,16 @@ func TestBenchDetailAndUnsafeBanner(t *testing.T) {
 		t.Errorf("readings table has %d rows, want 5", rows)
 	}
 	screenshot(t, r.tab, "bench-detail.png")
-	r.do(t, "close the detail", chromedp.Click(chromedp.CSS(`#detail-close`)), chromedp.WaitNotPresent(chromedp.CSS(`#detail`)))
+	// Esc closes the detail and gives the focus back to the bench's tile.
+	r.do(t, "close the detail with Esc", chromedp.KeyEvent(kb.Escape), chromedp.WaitNotPresent(chromedp.CSS(`#detail`)))
+	var focused string
+	for i := 0; i < 40 && focused != "A2"; i++ {
+		time.Sleep(25 * time.Millisecond)
+		focused, _ = chromedp.Run(r.tab, chromedp.Evaluate[string](`document.activeElement && document.activeElement.dataset ? (document.activeElement.dataset.bench || "") : ""`))
+	}
+	if focused != "A2" {
+		t.Errorf("after Esc the focus is on %q, want A2's tile", focused)
+	}
 
 	// 7 A through a coil rated 5 A.
 	start := time.Now()
@@ -140,9 +150,21 @@ func TestBenchDetailAndUnsafeBanner(t *testing.T) {
 	r.do(t, "unsafe banner", chromedp.WaitVisible(chromedp.CSS(`#unsafe-banner li[data-bench="A3"]`)))
 	t.Logf("unsafe banner shown %v after the reading was acknowledged by the server (target ≤ 1 s)", time.Since(start))
 	screenshot(t, r.tab, "unsafe-banner.png")
+	// The banner says in sentences what, on which bench, and the caution.
+	banner, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#unsafe-banner li[data-bench="A3"]`)))
+	for _, want := range []string{"Bench A3: Current I 7 A (reading #", "is above the bench limit of 5 A.", "overheats the coil", "equipment maker"} {
+		if !strings.Contains(banner, want) {
+			t.Errorf("banner %q does not say %q", banner, want)
+		}
+	}
 	r.do(t, "acknowledge", chromedp.Click(chromedp.CSS(`#unsafe-banner li[data-bench="A3"] button.ack`)),
 		chromedp.WaitNotPresent(chromedp.CSS(`#unsafe-banner`)),
 		chromedp.WaitVisible(chromedp.CSS(`section[data-bench="A3"][data-verdict="unsafe"]`)))
+	// The bench's detail marks the reading that broke the limit.
+	r.do(t, "the unsafe reading is marked",
+		chromedp.Click(chromedp.CSS(`section[data-bench="A3"]`)),
+		chromedp.WaitVisible(chromedp.CSS(`#detail[data-bench="A3"] #readings tr.unsafe-reading[data-reading="hot"]`)),
+		chromedp.KeyEvent(kb.Escape), chromedp.WaitNotPresent(chromedp.CSS(`#detail`)))
 
 	// The export buttons hand the browser a file.
 	r.do(t, "export the gradebook",

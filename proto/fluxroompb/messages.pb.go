@@ -1294,9 +1294,13 @@ type BenchState struct {
 	// readings; "stalled" when no reading came for a while although the rest
 	// of the room moves on and the run is not complete; "done" when the run
 	// has the readings a complete run needs and the group stopped.
-	Activity      string `protobuf:"bytes,18,opt,name=activity,proto3" json:"activity,omitempty"`
-	unknownFields protoimpl.UnknownFields
-	sizeCache     protoimpl.SizeCache
+	Activity string `protobuf:"bytes,18,opt,name=activity,proto3" json:"activity,omitempty"`
+	// On an unsafe bench: what broke which limit, in sentences, and the
+	// readings that did.
+	Breach           string   `protobuf:"bytes,19,opt,name=breach,proto3" json:"breach,omitempty"`
+	BreachReadingIds []string `protobuf:"bytes,20,rep,name=breach_reading_ids,json=breachReadingIds,proto3" json:"breach_reading_ids,omitempty"`
+	unknownFields    protoimpl.UnknownFields
+	sizeCache        protoimpl.SizeCache
 }
 
 func (x *BenchState) Reset() {
@@ -1453,6 +1457,20 @@ func (x *BenchState) GetActivity() string {
 		return x.Activity
 	}
 	return ""
+}
+
+func (x *BenchState) GetBreach() string {
+	if x != nil {
+		return x.Breach
+	}
+	return ""
+}
+
+func (x *BenchState) GetBreachReadingIds() []string {
+	if x != nil {
+		return x.BreachReadingIds
+	}
+	return nil
 }
 
 // BenchDetail is everything known about one bench.
@@ -3685,7 +3703,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\xdf\x05\n" +
+	" \x01(\tR\x05yName\"\xa5\x06\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -3707,7 +3725,9 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x06budget\x18\x0f \x03(\v2\x17.fluxroom.v1.BudgetItemR\x06budget\x12\x14\n" +
 	"\x05notes\x18\x10 \x03(\tR\x05notes\x12-\n" +
 	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\x12\x1a\n" +
-	"\bactivity\x18\x12 \x01(\tR\bactivity\"\x82\x02\n" +
+	"\bactivity\x18\x12 \x01(\tR\bactivity\x12\x16\n" +
+	"\x06breach\x18\x13 \x01(\tR\x06breach\x12,\n" +
+	"\x12breach_reading_ids\x18\x14 \x03(\tR\x10breachReadingIds\"\x82\x02\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
