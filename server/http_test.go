@@ -1,8 +1,10 @@
 package server
 
 import (
+	"bytes"
 	"context"
 	"fmt"
+	"image/png"
 	"io"
 	"net/http"
 	"strconv"
@@ -83,5 +85,43 @@ func TestCommitMetrics(t *testing.T) {
 	}
 	if values["fluxroom_commit_seconds_sum"] <= 0 {
 		t.Errorf("commits took no time in all: %v", values["fluxroom_commit_seconds_sum"])
+	}
+}
+
+// TestJoinQRCode: /join.png draws the station link for a join code as a QR
+// code image large enough to project; anything that is not a join code is
+// refused.
+func TestJoinQRCode(t *testing.T) {
+	r := startRig(t)
+	for _, tc := range []struct {
+		code string
+		want int
+	}{
+		{"K7Q2MX", http.StatusOK},
+		{"k7q2mx", http.StatusBadRequest}, // not the code's alphabet
+		{"K7Q2M", http.StatusBadRequest},
+		{"K7Q2M0", http.StatusBadRequest}, // 0 is never in a code
+		{"", http.StatusBadRequest},
+	} {
+		resp, err := http.Get("http://" + r.addr + "/join.png?code=" + tc.code)
+		if err != nil {
+			t.Fatal(err)
+		}
+		body, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		if resp.StatusCode != tc.want {
+			t.Errorf("code %q: status %d, want %d", tc.code, resp.StatusCode, tc.want)
+			continue
+		}
+		if tc.want != http.StatusOK {
+			continue
+		}
+		img, err := png.Decode(bytes.NewReader(body))
+		if err != nil || resp.Header.Get("Content-Type") != "image/png" {
+			t.Fatalf("code %q: %v, content type %q; want a PNG", tc.code, err, resp.Header.Get("Content-Type"))
+		}
+		if b := img.Bounds(); b.Dx() < 256 || b.Dx() != b.Dy() {
+			t.Errorf("QR code image %v, want a square of at least 256 px", b)
+		}
 	}
 }

@@ -220,6 +220,7 @@ func New(cfg Config) (*Server, error) {
 	}
 	mux := http.NewServeMux()
 	mux.HandleFunc("/metrics", s.serveMetrics)
+	mux.HandleFunc("/join.png", s.serveJoinQR)
 	// The Go runtime's profiles, for the instructor key only: they show
 	// what the server spends its CPU and memory on.
 	mux.Handle("/debug/pprof/", s.instructorOnly(http.HandlerFunc(pprof.Index)))

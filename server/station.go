@@ -170,8 +170,11 @@ func (st stationService) ListExperiments(ctx context.Context, req *pb.ListExperi
 // joinCodeAlphabet leaves out 0/O and 1/I/L, which are misread on a projector.
 const joinCodeAlphabet = "23456789ABCDEFGHJKMNPQRSTUVWXYZ"
 
+// joinCodeLength is how many characters a join code has.
+const joinCodeLength = 6
+
 func newJoinCode() string {
-	b := make([]byte, 6)
+	b := make([]byte, joinCodeLength)
 	rand.Read(b)
 	for i := range b {
 		b[i] = joinCodeAlphabet[int(b[i])%len(joinCodeAlphabet)]

@@ -257,6 +257,10 @@ func (s *Setup) Render() app.UI {
 			app.If(code != "", app.Div().Class("join").Body(
 				app.Span().Class("join-label").Text("join code"),
 				app.Span().Class("join-code").ID("join-code").Text(code))),
+			app.If(code != "", app.Figure().Class("join-qr").Body(
+				app.Img().ID("join-qr").Src("/join.png?code="+code).Alt("QR code of the station page with join code "+code),
+				app.FigCaption().Text(baseURL()+"/station?code="+code),
+			)),
 			app.If(s.session != nil, app.A().ID("to-room").Href(fmt.Sprintf("/?session=%d", s.sessionID())).Text("Open the room")),
 		),
 		app.If(s.needKey, &KeyPrompt{}),

@@ -78,6 +78,10 @@ func (s *Station) OnMount(ctx app.Context) {
 		s.client = s.client.withToken(j.Token)
 		s.loadSpec(ctx)
 	}
+	if s.joined == nil {
+		// The set-up page's QR code opens this page with the code filled in.
+		s.code = app.Window().URL().Query().Get("code")
+	}
 	s.queued = len(loadQueue(ctx))
 	ctx.Async(func() { s.sender(ctx) })
 }

@@ -360,3 +360,32 @@ func TestRetakeThisPoint(t *testing.T) {
 	}
 	screenshot(t, r.tab, "station-retake.png")
 }
+
+// TestJoinQRCodeOnSetUp: the set-up page shows the join code with a QR code
+// of the station link beside it, large enough to project; the link opens
+// the station page with the code filled in.
+func TestJoinQRCodeOnSetUp(t *testing.T) {
+	r := newUIRig(t, "D1")
+	r.do(t, "set-up page", chromedp.Navigate(r.url("/setup")),
+		chromedp.WaitVisible(chromedp.CSS(`#join-code`)), chromedp.WaitVisible(chromedp.CSS(`img#join-qr`)))
+	var width int
+	for i := 0; i < 50 && width == 0; i++ {
+		time.Sleep(50 * time.Millisecond)
+		width, _ = chromedp.Run(r.tab, chromedp.Evaluate[int](`(() => { const i = document.querySelector('img#join-qr'); return i && i.complete ? i.getBoundingClientRect().width : 0 })()`))
+	}
+	if width < 200 {
+		t.Errorf("the QR code is %d px wide on the set-up page, want at least 200 to read it off a projector", width)
+	}
+	caption, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`.join-qr figcaption`)))
+	if want := "/station?code=" + r.sess.JoinCode; !strings.HasSuffix(caption, want) {
+		t.Errorf("QR caption %q, want the station link ending %q", caption, want)
+	}
+	screenshot(t, r.tab, "setup-join-qr.png")
+	r.do(t, "the link fills in the code",
+		chromedp.Navigate(fmt.Sprintf("http://%s/station?code=%s", r.p.addr, r.sess.JoinCode)),
+		chromedp.WaitVisible(chromedp.CSS(`main.station[data-ready="true"] #join_code`)))
+	code, _ := chromedp.Run(r.tab, chromedp.Evaluate[string](`document.querySelector('#join_code').value`))
+	if code != r.sess.JoinCode {
+		t.Errorf("station page opened from the QR link has join code %q, want %q", code, r.sess.JoinCode)
+	}
+}
