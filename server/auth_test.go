@@ -143,6 +143,10 @@ func TestAuthorizationMatrix(t *testing.T) {
 			_, err := c.Export(ctx, &pb.ExportRequest{SessionId: sid, Format: pb.ExportFormat_EXPORT_FORMAT_JSON})
 			return err
 		}),
+		in("SetGroupMembers", func(c rpcpb.InstructorServiceClient) error {
+			_, err := c.SetGroupMembers(ctx, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: own, Members: "Ines, Oren"})
+			return err
+		}),
 	)
 	denied := func(code codes.Code) bool { return code == codes.Unauthenticated || code == codes.PermissionDenied }
 	cells := 0

@@ -199,6 +199,14 @@ func TestBadInputCatalogue(t *testing.T) {
 		req := req
 		add("join: "+name, func() error { _, err := r.station.JoinBench(ctx, req); return err })
 	}
+	for name, req := range map[string]*pb.SetGroupMembersRequest{
+		"members of an unknown bench": {SessionId: sid, BenchId: 31337, Members: "Ines"},
+		"members on two lines":        {SessionId: sid, BenchId: coil, Members: "Ines\nOren"},
+		"members too long":            {SessionId: sid, BenchId: coil, Members: strings.Repeat("m", 201)},
+	} {
+		req := req
+		add("set "+name, func() error { _, err := r.instructor.SetGroupMembers(ctx, req); return err })
+	}
 	for name, req := range map[string]*pb.AddNoteRequest{
 		"empty note": {SessionId: sid, BenchId: coil}, "note too long": {SessionId: sid, BenchId: coil, Text: strings.Repeat("n", 1001)},
 		"note on an unknown bench": {SessionId: sid, BenchId: 31337, Text: "x"},

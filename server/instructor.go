@@ -381,3 +381,22 @@ func (in instructorService) AcknowledgeAlert(ctx context.Context, req *pb.Acknow
 	}
 	return &pb.AcknowledgeAlertResponse{Note: note}, nil
 }
+
+// SetGroupMembers sets the names of the group at a bench (one line, as the
+// group would type them), for the gradebook's members column; the room
+// shows them at once.
+func (in instructorService) SetGroupMembers(ctx context.Context, req *pb.SetGroupMembersRequest) (*pb.SetGroupMembersResponse, error) {
+	members := strings.TrimSpace(req.GetMembers())
+	if err := domain.ValidateMembers("members", members); err != nil {
+		return nil, err
+	}
+	b, err := in.s.bench(req.GetSessionId(), req.GetBenchId())
+	if err != nil {
+		return nil, err
+	}
+	if err := in.s.setMembers(req.GetSessionId(), b.ID, members); err != nil {
+		return nil, err
+	}
+	b.Members = members
+	return &pb.SetGroupMembersResponse{Bench: benchToPB(b)}, nil
+}

@@ -163,3 +163,13 @@ func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
 	})
 	return snap, nil
 }
+
+// setMembers stores a group's names on its bench and shows them in the room.
+func (s *Server) setMembers(sessionID, benchID uint64, members string) error {
+	err := s.db.SetMembers(sessionID, benchID, members)
+	s.benches.forget(sessionID)
+	if err != nil {
+		return err
+	}
+	return s.publishBench(sessionID, benchID)
+}

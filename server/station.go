@@ -54,9 +54,7 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 	for _, b := range benches {
 		if strings.EqualFold(b.Label, strings.TrimSpace(req.GetBenchLabel())) {
 			if members != "" && members != b.Members {
-				err := st.s.db.SetMembers(sess.ID, b.ID, members)
-				st.s.benches.forget(sess.ID)
-				if err != nil {
+				if err := st.s.setMembers(sess.ID, b.ID, members); err != nil {
 					return nil, err
 				}
 				b.Members = members

@@ -22,6 +22,7 @@ const (
 	ProcSetBenches       = "/fluxroom.v1.InstructorService/SetBenches"
 	ProcAddNote          = "/fluxroom.v1.InstructorService/AddNote"
 	ProcAcknowledgeAlert = "/fluxroom.v1.InstructorService/AcknowledgeAlert"
+	ProcSetGroupMembers  = "/fluxroom.v1.InstructorService/SetGroupMembers"
 	ProcSetGradingPolicy = "/fluxroom.v1.InstructorService/SetGradingPolicy"
 	ProcOverrideGrade    = "/fluxroom.v1.InstructorService/OverrideGrade"
 	ProcExport           = "/fluxroom.v1.InstructorService/Export"

@@ -83,6 +83,7 @@ func (r *Room) renderDetail() app.UI {
 						}
 						return app.Li().Text(fmt.Sprintf("%s %s (%s): %s", when, n.Author, n.Kind, n.Text))
 					})),
+					&MembersForm{SessionID: r.sessionID(), BenchID: r.open, Members: st.GetBench().GetMembers()},
 					&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
 					&OverrideForm{SessionID: r.sessionID(), BenchID: r.open},
 				),
@@ -167,6 +168,59 @@ func readingsTable(rs []*pb.Reading, m rowMarks) app.UI {
 		rows = append(rows, tr)
 	}
 	return app.Table().Class("readings").ID("readings").Body(rows...)
+}
+
+// MembersForm shows the group's names and lets staff correct or complete
+// them (SetGroupMembers); the gradebook's members column comes from them.
+type MembersForm struct {
+	app.Compo
+	SessionID, BenchID uint64
+	Members            string // as the room last showed them
+
+	editing      bool
+	text, status string
+}
+
+// Render draws the names, or the form that edits them.
+func (f *MembersForm) Render() app.UI {
+	if !f.editing {
+		shown := f.Members
+		if shown == "" {
+			shown = "no names yet"
+		}
+		return app.P().Class("members").ID("members").Body(
+			app.Strong().Text("Group: "), app.Span().ID("members-text").Text(shown), app.Text(" "),
+			app.Button().ID("members-edit").Text("Edit").OnClick(func(ctx app.Context, e app.Event) {
+				f.editing, f.text, f.status = true, f.Members, ""
+			}),
+		)
+	}
+	return app.Form().Class("members-form").ID("members-form").OnSubmit(f.submit).Body(
+		app.Label().For("members-input").Text("Group members"),
+		app.Input().ID("members-input").Type("text").Value(f.text).MaxLength(200).
+			OnInput(func(ctx app.Context, e app.Event) { f.text = ctx.JSSrc().Get("value").String() }),
+		app.Button().Type("submit").Text("Save names"),
+		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
+	)
+}
+
+func (f *MembersForm) submit(ctx app.Context, e app.Event) {
+	e.PreventDefault()
+	text, sid, bid := f.text, f.SessionID, f.BenchID
+	c := newAPI(baseURL()).withToken(instructorKey(ctx))
+	ctx.Async(func() {
+		_, err := unary[pb.SetGroupMembersResponse](ctx, c, ProcSetGroupMembers, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: bid, Members: text})
+		ctx.Dispatch(func(app.Context) {
+			if err != nil {
+				f.status = fieldMessages(err)["members"]
+				if f.status == "" {
+					f.status = err.Error()
+				}
+				return
+			}
+			f.editing, f.Members, f.status = false, text, ""
+		})
+	})
 }
 
 // NoteForm adds a timestamped note to a bench.

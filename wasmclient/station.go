@@ -24,11 +24,12 @@ import (
 type Station struct {
 	app.Compo
 
-	client *api
-	code   string
-	label  string
-	joined *stationJoin
-	spec   *pb.ExperimentSpec
+	client  *api
+	code    string
+	label   string
+	members string
+	joined  *stationJoin
+	spec    *pb.ExperimentSpec
 
 	// correcting is the id of the reading the next one corrects.
 	correcting string
@@ -208,9 +209,9 @@ func (s *Station) refreshNow(ctx app.Context) {
 
 func (s *Station) join(ctx app.Context, e app.Event) {
 	e.PreventDefault()
-	code, label, c := s.code, s.label, s.client
+	code, label, members, c := s.code, s.label, s.members, s.client
 	ctx.Async(func() {
-		res, err := unary[pb.JoinBenchResponse](ctx, c, ProcJoinBench, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: label})
+		res, err := unary[pb.JoinBenchResponse](ctx, c, ProcJoinBench, &pb.JoinBenchRequest{JoinCode: code, BenchLabel: label, GroupMembers: members})
 		ctx.Dispatch(func(ctx app.Context) {
 			if err != nil {
 				s.fieldErrs = map[string]string{}
@@ -315,6 +316,9 @@ func (s *Station) Render() app.UI {
 				field("bench_label", "Bench label (on the bench)", s.fieldErrs["bench_label"],
 					app.Input().ID("bench_label").Value(s.label).
 						OnInput(func(ctx app.Context, e app.Event) { s.label = ctx.JSSrc().Get("value").String() })),
+				field("group_members", "Your names (optional, for the gradebook)", s.fieldErrs["group_members"],
+					app.Input().ID("group_members").Value(s.members).MaxLength(200).
+						OnInput(func(ctx app.Context, e app.Event) { s.members = ctx.JSSrc().Get("value").String() })),
 				app.Button().Type("submit").ID("join").Text("Join"),
 			),
 			app.P().Class("status").ID("status").Text(s.status),

@@ -14,6 +14,7 @@ func TestDashboardProcedurePaths(t *testing.T) {
 		{wasmclient.ProcWatchRoom, rpcpb.InstructorService_WatchRoom_FullMethodName},
 		{wasmclient.ProcListSessions, rpcpb.InstructorService_ListSessions_FullMethodName},
 		{wasmclient.ProcGetBenchDetail, rpcpb.InstructorService_GetBenchDetail_FullMethodName},
+		{wasmclient.ProcSetGroupMembers, rpcpb.InstructorService_SetGroupMembers_FullMethodName},
 	} {
 		if tc.got != tc.want {
 			t.Errorf("dashboard calls %q, the service defines %q", tc.got, tc.want)

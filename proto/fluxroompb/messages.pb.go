@@ -3593,6 +3593,111 @@ func (x *BackupChunk) GetTotalBytes() int64 {
 	return 0
 }
 
+type SetGroupMembersRequest struct {
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId   uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	// The group's names as one line, at most 200 characters; empty clears them.
+	Members       string `protobuf:"bytes,3,opt,name=members,proto3" json:"members,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetGroupMembersRequest) Reset() {
+	*x = SetGroupMembersRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetGroupMembersRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetGroupMembersRequest) ProtoMessage() {}
+
+func (x *SetGroupMembersRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetGroupMembersRequest.ProtoReflect.Descriptor instead.
+func (*SetGroupMembersRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{52}
+}
+
+func (x *SetGroupMembersRequest) GetSessionId() uint64 {
+	if x != nil {
+		return x.SessionId
+	}
+	return 0
+}
+
+func (x *SetGroupMembersRequest) GetBenchId() uint64 {
+	if x != nil {
+		return x.BenchId
+	}
+	return 0
+}
+
+func (x *SetGroupMembersRequest) GetMembers() string {
+	if x != nil {
+		return x.Members
+	}
+	return ""
+}
+
+type SetGroupMembersResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Bench         *Bench                 `protobuf:"bytes,1,opt,name=bench,proto3" json:"bench,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *SetGroupMembersResponse) Reset() {
+	*x = SetGroupMembersResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *SetGroupMembersResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*SetGroupMembersResponse) ProtoMessage() {}
+
+func (x *SetGroupMembersResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use SetGroupMembersResponse.ProtoReflect.Descriptor instead.
+func (*SetGroupMembersResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{53}
+}
+
+func (x *SetGroupMembersResponse) GetBench() *Bench {
+	if x != nil {
+		return x.Bench
+	}
+	return nil
+}
+
 var File_fluxroom_v1_messages_proto protoreflect.FileDescriptor
 
 const file_fluxroom_v1_messages_proto_rawDesc = "" +
@@ -3877,7 +3982,14 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\vBackupChunk\x12\x12\n" +
 	"\x04data\x18\x01 \x01(\fR\x04data\x12\x1f\n" +
 	"\vtotal_bytes\x18\x02 \x01(\x03R\n" +
-	"totalBytes*\x9e\x01\n" +
+	"totalBytes\"l\n" +
+	"\x16SetGroupMembersRequest\x12\x1d\n" +
+	"\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x18\n" +
+	"\amembers\x18\x03 \x01(\tR\amembers\"C\n" +
+	"\x17SetGroupMembersResponse\x12(\n" +
+	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench*\x9e\x01\n" +
 	"\aVerdict\x12\x17\n" +
 	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11VERDICT_NEED_DATA\x10\x01\x12\x16\n" +
@@ -3906,7 +4018,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 55)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 57)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
@@ -3962,25 +4074,27 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*ExportResponse)(nil),           // 51: fluxroom.v1.ExportResponse
 	(*BackupRequest)(nil),            // 52: fluxroom.v1.BackupRequest
 	(*BackupChunk)(nil),              // 53: fluxroom.v1.BackupChunk
-	nil,                              // 54: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 55: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 56: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 57: google.protobuf.Timestamp
+	(*SetGroupMembersRequest)(nil),   // 54: fluxroom.v1.SetGroupMembersRequest
+	(*SetGroupMembersResponse)(nil),  // 55: fluxroom.v1.SetGroupMembersResponse
+	nil,                              // 56: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 57: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 58: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 59: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	57, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	59, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
 	4,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
 	5,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
 	5,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	57, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	54, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	55, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	57, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	59, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	56, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	57, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	59, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
 	12, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
 	10, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	57, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	59, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
 	2,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
 	2,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
 	11, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
@@ -3999,7 +4113,7 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	12, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
 	8,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
 	3,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
-	56, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	58, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
 	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
 	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
 	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
@@ -4020,14 +4134,15 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	3,  // 49: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
 	7,  // 50: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
 	1,  // 51: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	2,  // 52: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 53: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 54: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	55, // [55:55] is the sub-list for method output_type
-	55, // [55:55] is the sub-list for method input_type
-	55, // [55:55] is the sub-list for extension type_name
-	55, // [55:55] is the sub-list for extension extendee
-	0,  // [0:55] is the sub-list for field type_name
+	8,  // 52: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
+	2,  // 53: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 54: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 55: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	56, // [56:56] is the sub-list for method output_type
+	56, // [56:56] is the sub-list for method input_type
+	56, // [56:56] is the sub-list for extension type_name
+	56, // [56:56] is the sub-list for extension extendee
+	0,  // [0:56] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -4046,7 +4161,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      2,
-			NumMessages:   55,
+			NumMessages:   57,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

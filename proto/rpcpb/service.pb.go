@@ -35,7 +35,7 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\tJoinBench\x12\x1d.fluxroom.v1.JoinBenchRequest\x1a\x1e.fluxroom.v1.JoinBenchResponse\x12V\n" +
 	"\rSubmitReading\x12!.fluxroom.v1.SubmitReadingRequest\x1a\".fluxroom.v1.SubmitReadingResponse\x12V\n" +
 	"\rGetBenchState\x12!.fluxroom.v1.GetBenchStateRequest\x1a\".fluxroom.v1.GetBenchStateResponse\x12\\\n" +
-	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xca\b\n" +
+	"\x0fListExperiments\x12#.fluxroom.v1.ListExperimentsRequest\x1a$.fluxroom.v1.ListExperimentsResponse2\xa8\t\n" +
 	"\x11InstructorService\x12V\n" +
 	"\rCreateSession\x12!.fluxroom.v1.CreateSessionRequest\x1a\".fluxroom.v1.CreateSessionResponse\x12S\n" +
 	"\fListSessions\x12 .fluxroom.v1.ListSessionsRequest\x1a!.fluxroom.v1.ListSessionsResponse\x12M\n" +
@@ -50,7 +50,8 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\x10SetGradingPolicy\x12$.fluxroom.v1.SetGradingPolicyRequest\x1a%.fluxroom.v1.SetGradingPolicyResponse\x12V\n" +
 	"\rOverrideGrade\x12!.fluxroom.v1.OverrideGradeRequest\x1a\".fluxroom.v1.OverrideGradeResponse\x12A\n" +
 	"\x06Export\x12\x1a.fluxroom.v1.ExportRequest\x1a\x1b.fluxroom.v1.ExportResponse\x12@\n" +
-	"\x06Backup\x12\x1a.fluxroom.v1.BackupRequest\x1a\x18.fluxroom.v1.BackupChunk0\x01B(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
+	"\x06Backup\x12\x1a.fluxroom.v1.BackupRequest\x1a\x18.fluxroom.v1.BackupChunk0\x01\x12\\\n" +
+	"\x0fSetGroupMembers\x12#.fluxroom.v1.SetGroupMembersRequest\x1a$.fluxroom.v1.SetGroupMembersResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
 
 var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.JoinBenchRequest)(nil),         // 0: fluxroom.v1.JoinBenchRequest
@@ -70,23 +71,25 @@ var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.OverrideGradeRequest)(nil),     // 14: fluxroom.v1.OverrideGradeRequest
 	(*fluxroompb.ExportRequest)(nil),            // 15: fluxroom.v1.ExportRequest
 	(*fluxroompb.BackupRequest)(nil),            // 16: fluxroom.v1.BackupRequest
-	(*fluxroompb.JoinBenchResponse)(nil),        // 17: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),    // 18: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),    // 19: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.ListExperimentsResponse)(nil),  // 20: fluxroom.v1.ListExperimentsResponse
-	(*fluxroompb.CreateSessionResponse)(nil),    // 21: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),     // 22: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),       // 23: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),        // 24: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil),   // 25: fluxroom.v1.GetBenchDetailResponse
-	(*fluxroompb.UpdateSessionResponse)(nil),    // 26: fluxroom.v1.UpdateSessionResponse
-	(*fluxroompb.CloseSessionResponse)(nil),     // 27: fluxroom.v1.CloseSessionResponse
-	(*fluxroompb.AddNoteResponse)(nil),          // 28: fluxroom.v1.AddNoteResponse
-	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 29: fluxroom.v1.AcknowledgeAlertResponse
-	(*fluxroompb.SetGradingPolicyResponse)(nil), // 30: fluxroom.v1.SetGradingPolicyResponse
-	(*fluxroompb.OverrideGradeResponse)(nil),    // 31: fluxroom.v1.OverrideGradeResponse
-	(*fluxroompb.ExportResponse)(nil),           // 32: fluxroom.v1.ExportResponse
-	(*fluxroompb.BackupChunk)(nil),              // 33: fluxroom.v1.BackupChunk
+	(*fluxroompb.SetGroupMembersRequest)(nil),   // 17: fluxroom.v1.SetGroupMembersRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 18: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 19: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 20: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 21: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 22: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 23: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 24: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 25: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 26: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 27: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.CloseSessionResponse)(nil),     // 28: fluxroom.v1.CloseSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 29: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 30: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyResponse)(nil), // 31: fluxroom.v1.SetGradingPolicyResponse
+	(*fluxroompb.OverrideGradeResponse)(nil),    // 32: fluxroom.v1.OverrideGradeResponse
+	(*fluxroompb.ExportResponse)(nil),           // 33: fluxroom.v1.ExportResponse
+	(*fluxroompb.BackupChunk)(nil),              // 34: fluxroom.v1.BackupChunk
+	(*fluxroompb.SetGroupMembersResponse)(nil),  // 35: fluxroom.v1.SetGroupMembersResponse
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
@@ -106,25 +109,27 @@ var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	14, // 14: fluxroom.v1.InstructorService.OverrideGrade:input_type -> fluxroom.v1.OverrideGradeRequest
 	15, // 15: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
 	16, // 16: fluxroom.v1.InstructorService.Backup:input_type -> fluxroom.v1.BackupRequest
-	17, // 17: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	18, // 18: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	19, // 19: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	20, // 20: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
-	21, // 21: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	22, // 22: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	23, // 23: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	24, // 24: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	25, // 25: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	26, // 26: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
-	27, // 27: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
-	28, // 28: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
-	29, // 29: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
-	30, // 30: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
-	31, // 31: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
-	32, // 32: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
-	33, // 33: fluxroom.v1.InstructorService.Backup:output_type -> fluxroom.v1.BackupChunk
-	17, // [17:34] is the sub-list for method output_type
-	0,  // [0:17] is the sub-list for method input_type
+	17, // 17: fluxroom.v1.InstructorService.SetGroupMembers:input_type -> fluxroom.v1.SetGroupMembersRequest
+	18, // 18: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	19, // 19: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	20, // 20: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	21, // 21: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	22, // 22: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	23, // 23: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	24, // 24: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	25, // 25: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	26, // 26: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	27, // 27: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	28, // 28: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
+	29, // 29: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	30, // 30: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	31, // 31: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
+	32, // 32: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
+	33, // 33: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
+	34, // 34: fluxroom.v1.InstructorService.Backup:output_type -> fluxroom.v1.BackupChunk
+	35, // 35: fluxroom.v1.InstructorService.SetGroupMembers:output_type -> fluxroom.v1.SetGroupMembersResponse
+	18, // [18:36] is the sub-list for method output_type
+	0,  // [0:18] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name

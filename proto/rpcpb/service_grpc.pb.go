@@ -274,6 +274,7 @@ const (
 	InstructorService_OverrideGrade_FullMethodName    = "/fluxroom.v1.InstructorService/OverrideGrade"
 	InstructorService_Export_FullMethodName           = "/fluxroom.v1.InstructorService/Export"
 	InstructorService_Backup_FullMethodName           = "/fluxroom.v1.InstructorService/Backup"
+	InstructorService_SetGroupMembers_FullMethodName  = "/fluxroom.v1.InstructorService/SetGroupMembers"
 )
 
 // InstructorServiceClient is the client API for InstructorService service.
@@ -306,6 +307,9 @@ type InstructorServiceClient interface {
 	Export(ctx context.Context, in *fluxroompb.ExportRequest, opts ...grpc.CallOption) (*fluxroompb.ExportResponse, error)
 	// Backup streams a consistent copy of the database file while serving.
 	Backup(ctx context.Context, in *fluxroompb.BackupRequest, opts ...grpc.CallOption) (grpc.ServerStreamingClient[fluxroompb.BackupChunk], error)
+	// SetGroupMembers sets the names of the group at a bench, as staff
+	// correct or complete what the group typed when it joined.
+	SetGroupMembers(ctx context.Context, in *fluxroompb.SetGroupMembersRequest, opts ...grpc.CallOption) (*fluxroompb.SetGroupMembersResponse, error)
 }
 
 type instructorServiceClient struct {
@@ -464,6 +468,16 @@ func (c *instructorServiceClient) Backup(ctx context.Context, in *fluxroompb.Bac
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type InstructorService_BackupClient = grpc.ServerStreamingClient[fluxroompb.BackupChunk]
 
+func (c *instructorServiceClient) SetGroupMembers(ctx context.Context, in *fluxroompb.SetGroupMembersRequest, opts ...grpc.CallOption) (*fluxroompb.SetGroupMembersResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.SetGroupMembersResponse)
+	err := c.cc.Invoke(ctx, InstructorService_SetGroupMembers_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
 // InstructorServiceServer is the server API for InstructorService service.
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
@@ -494,6 +508,9 @@ type InstructorServiceServer interface {
 	Export(context.Context, *fluxroompb.ExportRequest) (*fluxroompb.ExportResponse, error)
 	// Backup streams a consistent copy of the database file while serving.
 	Backup(*fluxroompb.BackupRequest, grpc.ServerStreamingServer[fluxroompb.BackupChunk]) error
+	// SetGroupMembers sets the names of the group at a bench, as staff
+	// correct or complete what the group typed when it joined.
+	SetGroupMembers(context.Context, *fluxroompb.SetGroupMembersRequest) (*fluxroompb.SetGroupMembersResponse, error)
 	mustEmbedUnimplementedInstructorServiceServer()
 }
 
@@ -542,6 +559,9 @@ func (UnimplementedInstructorServiceServer) Export(context.Context, *fluxroompb.
 }
 func (UnimplementedInstructorServiceServer) Backup(*fluxroompb.BackupRequest, grpc.ServerStreamingServer[fluxroompb.BackupChunk]) error {
 	return status.Error(codes.Unimplemented, "method Backup not implemented")
+}
+func (UnimplementedInstructorServiceServer) SetGroupMembers(context.Context, *fluxroompb.SetGroupMembersRequest) (*fluxroompb.SetGroupMembersResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method SetGroupMembers not implemented")
 }
 func (UnimplementedInstructorServiceServer) mustEmbedUnimplementedInstructorServiceServer() {}
 func (UnimplementedInstructorServiceServer) testEmbeddedByValue()                           {}
@@ -784,6 +804,24 @@ func _InstructorService_Backup_Handler(srv interface{}, stream grpc.ServerStream
 // This type alias is provided for backwards compatibility with existing code that references the prior non-generic stream type by name.
 type InstructorService_BackupServer = grpc.ServerStreamingServer[fluxroompb.BackupChunk]
 
+func _InstructorService_SetGroupMembers_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.SetGroupMembersRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(InstructorServiceServer).SetGroupMembers(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: InstructorService_SetGroupMembers_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(InstructorServiceServer).SetGroupMembers(ctx, req.(*fluxroompb.SetGroupMembersRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
 // InstructorService_ServiceDesc is the grpc.ServiceDesc for InstructorService service.
 // It's only intended for direct use with grpc.RegisterService,
 // and not to be introspected or modified (even as a copy)
@@ -834,6 +872,10 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 		{
 			MethodName: "Export",
 			Handler:    _InstructorService_Export_Handler,
+		},
+		{
+			MethodName: "SetGroupMembers",
+			Handler:    _InstructorService_SetGroupMembers_Handler,
 		},
 	},
 	Streams: []grpc.StreamDesc{
