@@ -71,7 +71,8 @@ type siReading struct {
 	values siValues
 	at     time.Time
 	id     string
-	// seq is the reading's number as the dashboard and station show it.
+	// seq is the reading's number on its bench (1, 2, 3…, corrected
+	// readings included), as the dashboard and station number them.
 	seq uint64
 }
 

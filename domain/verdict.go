@@ -178,11 +178,9 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 		if !ok {
 			continue // rejected at submission; never stored
 		}
-		seq := r.Sequence
-		if seq == 0 {
-			seq = uint64(i + 1) // readings not from the store: their place
-		}
-		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID, seq: seq})
+		// Readings are numbered on their bench, 1, 2, 3…, corrected ones
+		// included, as the bench's tables number them.
+		rs = append(rs, siReading{values: v, at: r.ReceivedAt, id: r.ID, seq: uint64(i + 1)})
 		if r.ReceivedAt.After(last) {
 			last = r.ReceivedAt
 		}

@@ -14,6 +14,7 @@ import (
 	"google.golang.org/grpc/status"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
@@ -131,7 +132,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 // GetBenchState is the caller's bench as its station may see it: the verdict and its reasons when the
 // session shows them to stations, otherwise the count of readings, and always a safety caution.
 func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
-	state, _, rs, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
+	state, a, rs, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
 		return nil, err
 	}
@@ -140,6 +141,16 @@ func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStat
 		return nil, err
 	}
 	out := &pb.GetBenchStateResponse{State: forStation(state, sess.StationsSeeVerdicts)}
+	if p, err := export.ParsePolicy([]byte(sess.GradingPolicy)); err == nil {
+		out.RequiredReadings = int32(p.RequiredReadings[state.GetBench().GetExperiment()])
+	}
+	if plot := plotToPB(a.Plot); plot != nil {
+		if !sess.StationsSeeVerdicts {
+			// The group's own points, without what would tell the verdict.
+			plot.Fit, plot.Theory, plot.BandLow, plot.BandHigh = nil, nil, nil, nil
+		}
+		out.Plot = plot
+	}
 	for _, r := range rs {
 		out.Readings = append(out.Readings, readingToPB(r))
 	}

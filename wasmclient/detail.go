@@ -142,8 +142,9 @@ func readingsTable(rs []*pb.Reading, m rowMarks) app.UI {
 	}
 	head = append(head, app.Th().Text("id"))
 	rows := []app.UI{app.Tr().Body(head...)}
-	for _, rd := range rs {
-		cells := []app.UI{app.Td().Text(fmt.Sprint(rd.Sequence))}
+	for i, rd := range rs {
+		// Readings are numbered on their bench, as diagnoses name them.
+		cells := []app.UI{app.Td().Text(strconv.Itoa(i + 1))}
 		for _, c := range cols {
 			text := ""
 			if q, ok := rd.Values[c]; ok {

@@ -12,6 +12,7 @@ import (
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/svgplot"
 	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
@@ -40,7 +41,11 @@ type Station struct {
 	queued     int
 	state      *pb.BenchState
 	readings   []*pb.Reading
-	wake       chan struct{}
+	// required is how many readings a complete run needs; plot the
+	// group's own points (with fit and theory when the session shows them).
+	required int
+	plot     *pb.Plot
+	wake     chan struct{}
 }
 
 // stationJoin is what the station remembers across reloads.
@@ -204,7 +209,9 @@ func (s *Station) refreshNow(ctx app.Context) {
 	if err != nil {
 		return
 	}
-	ctx.Dispatch(func(app.Context) { s.state, s.readings = res.State, res.Readings })
+	ctx.Dispatch(func(app.Context) {
+		s.state, s.readings, s.required, s.plot = res.State, res.Readings, int(res.RequiredReadings), res.Plot
+	})
 }
 
 func (s *Station) join(ctx app.Context, e app.Event) {
@@ -372,6 +379,9 @@ func (s *Station) Render() app.UI {
 		app.P().Class("status").ID("status").Attr("data-queued", strconv.Itoa(s.queued)).Text(s.statusLine()),
 		app.If(s.state != nil && s.state.GetReason() != "", app.P().Class("station-verdict").ID("station-verdict").
 			Text(s.state.GetVerdictLabel()+": "+s.state.GetReason())),
+		app.P().Class("progress").ID("progress").Attr("data-complete", s.complete()).Text(s.progress()),
+		app.If(s.plot != nil && len(s.plot.GetPoints()) > 0,
+			app.Div().Class("plot-wrap").ID("station-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(s.plot))+`</div>`))),
 		app.H2().Text("Your readings"),
 		readingsTable(s.readings, rowMarks{retake: retakeIDs(s.state), unsafe: breachIDs(s.state)}),
 	)
@@ -383,11 +393,11 @@ func (s *Station) Render() app.UI {
 func (s *Station) retakeOffers() app.UI {
 	var offers []app.UI
 	for _, d := range s.state.GetDiagnoses() {
-		for _, r := range s.readings {
+		for i, r := range s.readings {
 			if d.GetReadingId() == "" || r.ReadingId != d.GetReadingId() {
 				continue
 			}
-			id, seq := r.ReadingId, r.Sequence
+			id, seq := r.ReadingId, i+1
 			offers = append(offers, app.Li().Body(
 				app.Span().Text(d.GetEvidence()+" "),
 				app.Button().Class("retake").Attr("data-reading", id).Text(fmt.Sprintf("Re-take reading #%d", seq)).
@@ -424,13 +434,35 @@ func retakeIDs(st *pb.BenchState) map[string]bool {
 	return out
 }
 
+// complete reports whether the run has the readings a complete run needs.
+func (s *Station) complete() bool {
+	return s.required > 0 && int(s.state.GetReadingCount()) >= s.required
+}
+
+// progress is the run toward completeness, in words.
+func (s *Station) progress() string {
+	return runProgress(int(s.state.GetReadingCount()), s.required)
+}
+
+// runProgress says how far a run is: "5 of 8 readings", or that it is
+// complete (corrections count once, as the judging counts them).
+func runProgress(counted, required int) string {
+	switch {
+	case required <= 0:
+		return fmt.Sprintf("%d readings", counted)
+	case counted >= required:
+		return fmt.Sprintf("complete: %d readings, %d needed", counted, required)
+	}
+	return fmt.Sprintf("%d of %d readings", counted, required)
+}
+
 // correctionChoice lets the group mark the next reading as the correction of
 // an earlier one, which then stays on record, struck through.
 func (s *Station) correctionChoice() app.UI {
 	opts := []app.UI{app.Option().Value("").Text("a new reading").Selected(s.correcting == "")}
-	for _, r := range s.readings {
+	for i, r := range s.readings {
 		opts = append(opts, app.Option().Value(r.ReadingId).Selected(s.correcting == r.ReadingId).
-			Text(fmt.Sprintf("a correction of reading #%d", r.Sequence)))
+			Text(fmt.Sprintf("a correction of reading #%d", i+1)))
 	}
 	return field("supersedes", "This is", s.fieldErrs["supersedes"], app.Select().ID("v-supersedes").Body(opts...).
 		OnChange(func(ctx app.Context, e app.Event) { s.correcting = ctx.JSSrc().Get("value").String() }))

@@ -358,7 +358,31 @@ func TestRetakeThisPoint(t *testing.T) {
 	if chosen != "c1-2" {
 		t.Errorf("after the re-take offer the next reading corrects %q, want c1-2", chosen)
 	}
+	// The group sees how far its run is and its own points.
+	progress, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#progress`)))
+	if progress != "6 of 8 readings" {
+		t.Errorf("station progress %q, want 6 of 8 readings", progress)
+	}
+	points, _ := chromedp.Run(r.tab, chromedp.Evaluate[int](`document.querySelectorAll('#station-plot circle.pt').length`))
+	if points != 6 {
+		t.Errorf("station plot draws %d points, want the group's 6", points)
+	}
+	first, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#readings tr[data-reading="c1-0"] td`)))
+	if first != "1" {
+		t.Errorf("the bench's first reading is numbered %q, want 1 (numbers are the bench's own)", first)
+	}
 	screenshot(t, r.tab, "station-retake.png")
+	// Two more readings make the run complete.
+	for _, id := range []string{"c1-6", "c1-7"} {
+		r.submit(t, "C1", id, 2.5, 1.2)
+	}
+	r.do(t, "the run is complete",
+		chromedp.Reload(),
+		chromedp.WaitVisible(chromedp.CSS(`#progress[data-complete="true"]`)))
+	done, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#progress`)))
+	if !strings.HasPrefix(done, "complete: 8 readings") {
+		t.Errorf("station progress %q after 8 readings, want complete", done)
+	}
 }
 
 // TestJoinQRCodeOnSetUp: the set-up page shows the join code with a QR code

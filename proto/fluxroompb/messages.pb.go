@@ -2182,8 +2182,14 @@ type GetBenchStateResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// The verdict, reason and diagnoses are left out unless the session lets
 	// stations see them.
-	State         *BenchState `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
-	Readings      []*Reading  `protobuf:"bytes,2,rep,name=readings,proto3" json:"readings,omitempty"`
+	State    *BenchState `protobuf:"bytes,1,opt,name=state,proto3" json:"state,omitempty"`
+	Readings []*Reading  `protobuf:"bytes,2,rep,name=readings,proto3" json:"readings,omitempty"`
+	// How many readings make a complete run under the session's grading
+	// policy.
+	RequiredReadings int32 `protobuf:"varint,3,opt,name=required_readings,json=requiredReadings,proto3" json:"required_readings,omitempty"`
+	// The group's own readings plotted; the fit, theory and band too when
+	// the session lets stations see their verdict.
+	Plot          *Plot `protobuf:"bytes,4,opt,name=plot,proto3" json:"plot,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2228,6 +2234,20 @@ func (x *GetBenchStateResponse) GetState() *BenchState {
 func (x *GetBenchStateResponse) GetReadings() []*Reading {
 	if x != nil {
 		return x.Readings
+	}
+	return nil
+}
+
+func (x *GetBenchStateResponse) GetRequiredReadings() int32 {
+	if x != nil {
+		return x.RequiredReadings
+	}
+	return 0
+}
+
+func (x *GetBenchStateResponse) GetPlot() *Plot {
+	if x != nil {
+		return x.Plot
 	}
 	return nil
 }
@@ -3894,10 +3914,12 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x14GetBenchStateRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
-	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"x\n" +
+	"\bbench_id\x18\x02 \x01(\x04R\abenchId\"\xcc\x01\n" +
 	"\x15GetBenchStateResponse\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
-	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\"\x18\n" +
+	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12+\n" +
+	"\x11required_readings\x18\x03 \x01(\x05R\x10requiredReadings\x12%\n" +
+	"\x04plot\x18\x04 \x01(\v2\x11.fluxroom.v1.PlotR\x04plot\"\x18\n" +
 	"\x16ListExperimentsRequest\"X\n" +
 	"\x17ListExperimentsResponse\x12=\n" +
 	"\vexperiments\x18\x01 \x03(\v2\x1b.fluxroom.v1.ExperimentSpecR\vexperiments\"\xb5\x01\n" +
@@ -4117,32 +4139,33 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
 	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
 	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	6,  // 35: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	4,  // 36: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 37: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 38: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	7,  // 39: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	4,  // 40: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 41: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	3,  // 42: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	8,  // 43: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	8,  // 44: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	19, // 45: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	15, // 46: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	13, // 47: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	16, // 48: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	3,  // 49: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 50: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
-	1,  // 51: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	8,  // 52: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
-	2,  // 53: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 54: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 55: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	56, // [56:56] is the sub-list for method output_type
-	56, // [56:56] is the sub-list for method input_type
-	56, // [56:56] is the sub-list for extension type_name
-	56, // [56:56] is the sub-list for extension extendee
-	0,  // [0:56] is the sub-list for field type_name
+	17, // 35: fluxroom.v1.GetBenchStateResponse.plot:type_name -> fluxroom.v1.Plot
+	6,  // 36: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	4,  // 37: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 38: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 39: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	7,  // 40: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	4,  // 41: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	3,  // 42: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	3,  // 43: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	8,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	8,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	19, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	15, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	13, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	16, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	3,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	7,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	1,  // 52: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
+	8,  // 53: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
+	2,  // 54: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 55: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	2,  // 56: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	57, // [57:57] is the sub-list for method output_type
+	57, // [57:57] is the sub-list for method input_type
+	57, // [57:57] is the sub-list for extension type_name
+	57, // [57:57] is the sub-list for extension extendee
+	0,  // [0:57] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
