@@ -30,7 +30,7 @@ table { border-collapse: collapse; margin: .5rem 0; } td, th { border-bottom: 1p
 .plot { width: 100%; max-width: 34rem; height: auto; }
 .plot .axis { stroke: #1d2430; } .plot .tick, .plot .axis-label { font-size: 11px; fill: #5b6472; }
 .plot .band { fill: rgba(31,122,109,.15); } .plot .theory { stroke: #1f7a6d; stroke-width: 2; fill: none; }
-.plot .fit { stroke: #1d2430; stroke-dasharray: 6 4; fill: none; } .plot .eb { stroke: #1d2430; } .plot .pt { fill: #1d2430; }
+.plot .fit { stroke: #1d2430; stroke-dasharray: 6 4; fill: none; } .plot .eb { stroke: #1d2430; } .plot .pt, .plot .legend-pt { fill: #1d2430; }
 .safety { font-size: .85rem; color: #5b6472; }
 .room { page-break-after: always; break-after: page; max-width: 46rem; }
 </style></head><body>

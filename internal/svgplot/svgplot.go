@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"html"
 	"math"
+	"strconv"
 	"strings"
 
 	"example.com/fluxroom/domain"
@@ -52,8 +53,12 @@ func Bench(p *domain.Plot) string {
 	if yhi-ylo < minPlotSpan {
 		yhi = ylo + 1
 	}
-	pad := 0.05 * (yhi - ylo)
-	ylo, yhi = ylo-pad, yhi+pad
+	// Round axes: each runs from one round tick to another, with room at
+	// the top for the legend.
+	yhi += 0.12 * (yhi - ylo)
+	xt, yt := niceTicks(xlo, xhi), niceTicks(ylo, yhi)
+	xlo, xhi = xt.values[0], xt.values[len(xt.values)-1]
+	ylo, yhi = yt.values[0], yt.values[len(yt.values)-1]
 	sx := func(x float64) float64 { return plotLeft + (x-xlo)/(xhi-xlo)*plotInnerW }
 	sy := func(y float64) float64 { return plotTop + (yhi-y)/(yhi-ylo)*plotInnerH }
 	var b strings.Builder
@@ -62,11 +67,11 @@ func Bench(p *domain.Plot) string {
 	// Axes and ticks.
 	fmt.Fprintf(&b, `<line class="axis" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, plotLeft, plotTop+plotInnerH, plotLeft+plotInnerW, plotTop+plotInnerH)
 	fmt.Fprintf(&b, `<line class="axis" x1="%.1f" y1="%.1f" x2="%.1f" y2="%.1f"/>`, plotLeft, plotTop, plotLeft, plotTop+plotInnerH)
-	for i := 0; i <= tickCount; i++ {
-		x := xlo + (xhi-xlo)*float64(i)/tickCount
-		y := ylo + (yhi-ylo)*float64(i)/tickCount
-		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="middle">%s</text>`, sx(x), plotTop+plotInnerH+16, tick(x))
-		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="end">%s</text>`, plotLeft-6, sy(y)+4, tick(y))
+	for _, x := range xt.values {
+		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="middle">%s</text>`, sx(x), plotTop+plotInnerH+16, xt.label(x))
+	}
+	for _, y := range yt.values {
+		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="%.1f" text-anchor="end">%s</text>`, plotLeft-6, sy(y)+4, yt.label(y))
 	}
 	fmt.Fprintf(&b, `<text class="axis-label" x="%.1f" y="%.1f" text-anchor="middle">%s</text>`, plotLeft+plotInnerW/2, plotH-6, html.EscapeString(p.XLabel))
 	fmt.Fprintf(&b, `<text class="axis-label" x="14" y="%.1f" transform="rotate(-90 14 %.1f)" text-anchor="middle">%s</text>`,
@@ -101,11 +106,75 @@ func Bench(p *domain.Plot) string {
 		fmt.Fprintf(&b, `<circle class="pt" data-reading="%s" cx="%.1f" cy="%.1f" r="4"><title>%s: %s, %s</title></circle>`,
 			html.EscapeString(pt.ReadingID), x, sy(pt.Y), html.EscapeString(pt.ReadingID), tick(pt.X), tick(pt.Y))
 	}
+	legend(&b, p)
 	b.WriteString(`</svg>`)
 	return b.String()
 }
 
-// tick formats an axis value with three significant figures.
+// legend names what the plot draws, top left inside the axes: only the
+// parts this plot has.
+func legend(b *strings.Builder, p *domain.Plot) {
+	type item struct{ class, sample, text string }
+	items := []item{{"pt", `<circle class="legend-pt" cx="8" cy="0" r="4"/>`, "readings"}}
+	if len(p.Fit) >= 2 {
+		items = append(items, item{"fit", `<line class="fit" x1="0" y1="0" x2="16" y2="0"/>`, "fit"})
+	}
+	if len(p.Theory) >= 2 {
+		items = append(items, item{"theory", `<line class="theory" x1="0" y1="0" x2="16" y2="0"/>`, "theory"})
+	}
+	if len(p.BandLow) >= 2 {
+		items = append(items, item{"band", `<rect class="band" x="0" y="-5" width="16" height="10"/>`, "tolerance band"})
+	}
+	x := plotLeft + 10
+	b.WriteString(`<g class="legend">`)
+	for _, it := range items {
+		fmt.Fprintf(b, `<g class="legend-item" data-item="%s" transform="translate(%.1f %.1f)">%s<text class="tick" x="20" y="4">%s</text></g>`,
+			it.class, x, plotTop+10, it.sample, it.text)
+		x += 28 + 7*float64(len(it.text))
+	}
+	b.WriteString(`</g>`)
+}
+
+// ticks are an axis's round values, from the first below its data to the
+// first above, and how many decimals their labels need.
+type ticks struct {
+	values   []float64
+	decimals int
+}
+
+// niceTicks chooses round tick values for [lo, hi]: a step of 1, 2 or 5
+// times a power of ten giving about tickCount intervals, the "nice numbers"
+// of [pub: P. S. Heckbert, Graphics Gems (1990), "Nice numbers for graph
+// labels"].
+func niceTicks(lo, hi float64) ticks {
+	raw := (hi - lo) / tickCount
+	p := math.Pow(10, math.Floor(math.Log10(raw)))
+	step := 10 * p
+	for _, m := range []float64{1, 2, 5} {
+		if m*p >= raw*(1-1e-9) {
+			step = m * p
+			break
+		}
+	}
+	first, last := math.Floor(lo/step+1e-9), math.Ceil(hi/step-1e-9)
+	t := ticks{decimals: max(0, -int(math.Floor(math.Log10(step)+1e-9)))}
+	for k := first; k <= last; k++ {
+		t.values = append(t.values, k*step)
+	}
+	return t
+}
+
+// label writes a tick value with the axis's decimals: no float noise
+// (0.30000000000000004 is 0.3) and no "-0".
+func (t ticks) label(v float64) string {
+	s := strconv.FormatFloat(v, 'f', t.decimals, 64)
+	if strings.Trim(s, "-0.") == "" {
+		return "0"
+	}
+	return s
+}
+
+// tick formats a value with three significant figures.
 func tick(v float64) string {
 	if v == 0 {
 		return "0"
