@@ -182,7 +182,15 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 			fs.add(CodeFieldProbeTilted, fmt.Sprintf("slope/N·B·L = %.3f, as a probe tilted by about %.0f° would give", rho, theta), 0.6, true)
 		}
 	}
-	if math.Abs(cintercept.Value) > tShape(len(cx)-2)*cintercept.Uncertainty && math.Abs(cintercept.Value) > zeroInterceptMin {
+	// The intercept's standard error comes from the run's scatter (Student's
+	// t for its degrees of freedom), or, when the scatter is smaller than
+	// the instruments allow, from the instruments (normal): a three-reading
+	// run then still shows a skipped zero.
+	interceptU, interceptCrit := cintercept.Uncertainty, tShape(len(cx)-2)
+	if floorI := uAllowed * math.Sqrt(1/float64(len(cx))+fit.Mean(cx)*fit.Mean(cx)/cfit.Sxx); cfit.InterceptSE < floorI {
+		interceptU, interceptCrit = floorI, normalCritical(falseAlarm)
+	}
+	if math.Abs(cintercept.Value) > interceptCrit*interceptU && math.Abs(cintercept.Value) > zeroInterceptMin {
 		fs.add(CodeSensorNotZeroed, fmt.Sprintf("intercept %s, expected 0; slope/N·B·L = %.3f",
 			FormatMeasurement(cintercept.Value, cintercept.Uncertainty, "N"), rho), 0.95, true)
 	}

@@ -38,6 +38,8 @@ type CatalogueEntry struct {
 	Code  string
 	Level Level
 	Cause string
+	// Short is the cause in at most four plain words, for a room's tile.
+	Short string
 	// Action is what the instructor can suggest.
 	Action string
 	// Factor is the ratio measured/expected the mistake produces, when it
@@ -54,6 +56,9 @@ var catalogue = map[string]CatalogueEntry{}
 func entry(e CatalogueEntry) string {
 	if _, dup := catalogue[e.Code]; dup {
 		panic("domain: diagnosis code registered twice: " + e.Code)
+	}
+	if e.Short == "" {
+		e.Short = shortCauses[e.Code]
 	}
 	catalogue[e.Code] = e
 	return e.Code
@@ -115,7 +120,7 @@ type findings []finding
 // add records a candidate.
 func (fs *findings) add(code, evidence string, score float64, raise bool) {
 	e := catalogue[code]
-	*fs = append(*fs, finding{Diagnosis: Diagnosis{Code: code, Cause: e.Cause, Action: e.Action, Evidence: evidence}, score: score, raise: raise})
+	*fs = append(*fs, finding{Diagnosis: Diagnosis{Code: code, Cause: e.Cause, Short: e.Short, Action: e.Action, Evidence: evidence}, score: score, raise: raise})
 }
 
 // addPoint records a candidate about one reading, which the action names

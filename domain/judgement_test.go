@@ -430,3 +430,22 @@ func TestSlippedPointIsNotAFactor(t *testing.T) {
 		t.Errorf("reading %q, want c1-2", a.Diagnoses[0].ReadingID)
 	}
 }
+
+// TestSkippedZeroInThreeReadings: a run of three readings with a skipped
+// zero still shows it: with so few readings the instruments, not the
+// scatter, set the intercept's uncertainty.
+func TestSkippedZeroInThreeReadings(t *testing.T) {
+	b, err := ValidateBench("b", Bench{Label: "F1", Experiment: "coil_force"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var rs []Reading
+	for i, I := range []float64{0, 1, 2} {
+		// N·B·L = 0.48 N/A [derived, PHYSICS.md §2(a)]; 0.7 N left on the sensor.
+		rs = append(rs, Reading{ID: fmt.Sprintf("z%d", i), Values: map[string]Quantity{"current": qty(I, "A"), "force": qty(0.48*I+0.7, "N")}})
+	}
+	a := Assess(b, rs, DefaultTolerance())
+	if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != CodeSensorNotZeroed || a.Headline != "sensor not zeroed" {
+		t.Errorf("diagnoses %v, headline %q; want %s (%s)", codesOf(a), a.Headline, CodeSensorNotZeroed, a.Reason)
+	}
+}

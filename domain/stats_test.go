@@ -1,6 +1,7 @@
 package domain
 
 import (
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -75,5 +76,20 @@ func TestEveryExperimentIsJudged(t *testing.T) {
 func TestDecadeSlipUnitsFromTheMetersFamily(t *testing.T) {
 	if got, want := decadeSlipUnits(MagneticField, "mT", 3), "mT typed as T, or µT typed as mT"; got != want {
 		t.Errorf("10³ on a field read in mT: %q, want %q", got, want)
+	}
+}
+
+// TestShortCauses: every catalogue code has a cause of at most four words
+// for the room's tiles, and an assessment's headline is never longer.
+func TestShortCauses(t *testing.T) {
+	for _, e := range Catalogue() {
+		if n := len(strings.Fields(e.Short)); n == 0 || n > 4 {
+			t.Errorf("%s: short cause %q has %d words, want 1–4", e.Code, e.Short, n)
+		}
+	}
+	for _, label := range []string{"coil current I", "anode voltage V", "heater voltage", "current I"} {
+		if n := len(strings.Fields(withoutSymbol(label) + " over limit")); n > 4 {
+			t.Errorf("%q over limit: %d words", label, n)
+		}
 	}
 }

@@ -91,6 +91,8 @@ type Diagnosis struct {
 	// ReadingID is the one reading the diagnosis is about, when it is
 	// about one: the reading to re-take.
 	ReadingID string
+	// Short is the cause in at most four words, for a room's tile.
+	Short string
 }
 
 // Assessment is the judged state of one bench.
@@ -114,6 +116,10 @@ type Assessment struct {
 	// at a limit (within its meter's resolution) while the verdict stays
 	// the data's.
 	Caution string
+	// Headline is the bench's state in at most four plain words, for a
+	// tile seen across a room: the likeliest cause, what is missing, or
+	// what broke a limit. The Reason says it all.
+	Headline string
 	// Breach says, in sentences, what broke which limit on an unsafe
 	// bench ("Heater voltage 7.4 V (reading #41) is above the bench limit
 	// of 6.3 V."), and BreachReadingIDs are the readings that did.
@@ -204,11 +210,13 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	a.ReadingCount = len(rs)
 	a.LastReadingAt = last
 	a.ExperimentTitle = e.Title
+	a.Headline = headline(a, len(rs), e.MinReadings)
 	reason, caution, unsafe, atLimit := e.safety(c, rs)
 	switch {
 	case unsafe:
 		a.Verdict, a.Caution = Unsafe, caution
 		a.Breach, a.BreachReadingIDs = reason.text, reason.readings
+		a.Headline = reason.short
 		a.Reason = "UNSAFE: " + reason.text + " " + a.Reason
 	case atLimit != "":
 		a.Caution = atLimit
@@ -232,7 +240,7 @@ func alsoPossible(d Diagnosis) string {
 // limit itself, so it is a caution (atLimit), not an unsafe verdict
 // // common practice.
 func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason breach, caution string, unsafe bool, atLimit string) {
-	var reasons, cautions, limits []string
+	var reasons, cautions, limits, shorts []string
 	var ids []string
 	for _, s := range e.Values {
 		if s.SafetyLimit == "" {
@@ -260,6 +268,7 @@ func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason br
 			}
 			reasons = append(reasons, fmt.Sprintf("%s %s %s (reading #%d) is above the bench limit of %s %s.", capitalize(s.Label), v, unit, r.seq, l, unit))
 			ids = append(ids, r.id)
+			shorts = append(shorts, withoutSymbol(s.Label)+" over limit")
 			cautions = append(cautions, s.Caution)
 			at = ""
 			break
@@ -275,13 +284,31 @@ func (e *Experiment) safety(c map[string]Measurement, rs []siReading) (reason br
 		return breach{}, "", false, atLimit
 	}
 	cautions = append(cautions, safetyDeferral)
-	return breach{text: strings.Join(reasons, " "), readings: ids}, strings.Join(cautions, " "), true, atLimit
+	return breach{text: strings.Join(reasons, " "), short: shorts[0], readings: ids}, strings.Join(cautions, " "), true, atLimit
 }
 
-// breach is what broke a bench's limits: sentences, and the readings.
+// breach is what broke a bench's limits: sentences, in a few words, and
+// the readings.
 type breach struct {
-	text     string
-	readings []string
+	text, short string
+	readings    []string
+}
+
+// headline is an assessment's state in at most four words (Headline).
+func headline(a Assessment, counted, min int) string {
+	switch {
+	case counted < min:
+		return fmt.Sprintf("%d of %d readings", counted, min)
+	case len(a.Diagnoses) > 0:
+		return a.Diagnoses[0].Short
+	case a.Verdict == NeedData:
+		return "needs other readings"
+	case a.Verdict == Consistent:
+		return "agrees with theory"
+	case a.ResultUnit != "":
+		return fmt.Sprintf("%+.0f %% from theory", a.PercentDiff)
+	}
+	return a.Verdict.Label()
 }
 
 // capitalize starts a sentence with its label: "heater voltage" → "Heater voltage".
@@ -362,3 +389,13 @@ func sign(x float64) int {
 // resolution res: a rectangular distribution of width res
 // [pub: JCGM 100:2008 (GUM) §4.3.7 and F.2.2.1].
 func resolutionU(res float64) float64 { return res / (2 * math.Sqrt(3)) }
+
+// withoutSymbol is a quantity's label without its symbol: "coil current I"
+// → "coil current".
+func withoutSymbol(label string) string {
+	w := strings.Fields(label)
+	if len(w) > 1 && utf8.RuneCountInString(w[len(w)-1]) <= 2 {
+		w = w[:len(w)-1]
+	}
+	return strings.Join(w, " ")
+}

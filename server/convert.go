@@ -66,6 +66,7 @@ func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 		ResultName:        a.ResultName,
 		Notes:             a.Notes,
 		Breach:            a.Breach,
+		Headline:          a.Headline,
 		BreachReadingIds:  a.BreachReadingIDs,
 	}
 	for _, b := range a.Budget {
@@ -80,7 +81,7 @@ func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 	}
 	for _, d := range a.Diagnoses {
 		st.Diagnoses = append(st.Diagnoses, &pb.Diagnosis{Code: d.Code, Cause: d.Cause, Evidence: d.Evidence,
-			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String(), ReadingId: d.ReadingID})
+			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String(), ReadingId: d.ReadingID, Short: d.Short})
 	}
 	return st
 }

@@ -335,6 +335,7 @@ func (r *Room) tiles() (out []*Tile, rows, cols int) {
 			Verdict:      verdictClass(st.GetVerdict()),
 			Words:        st.GetVerdictLabel(),
 			Reason:       st.GetReason(),
+			Headline:     headlineOf(st),
 			Experiment:   st.GetExperimentTitle(),
 			Readings:     int(st.GetReadingCount()),
 			Age:          age(r.now, st),
@@ -388,11 +389,13 @@ func (r *Room) renderUnsafe() app.UI {
 // the theory value, and the room-level findings.
 func (r *Room) renderFindings() app.UI {
 	byExp := map[string][]svgplot.Dot{}
+	titles := map[string]string{}
 	for _, st := range r.benches {
 		if st.GetPredicted() == nil || st.GetPredicted().GetValue() == 0 {
 			continue
 		}
 		exp := st.GetBench().GetExperiment()
+		titles[exp] = st.GetExperimentTitle()
 		byExp[exp] = append(byExp[exp], svgplot.Dot{Label: st.GetBench().GetLabel(),
 			Ratio: st.GetMeasured().GetValue() / st.GetPredicted().GetValue(), Verdict: verdictClass(st.GetVerdict())})
 	}
@@ -406,9 +409,16 @@ func (r *Room) renderFindings() app.UI {
 	}
 	return app.Section().Class("findings").ID("findings").Body(
 		app.H2().Text("Across the room"),
+		app.If(len(exps) > 0, app.P().Class("dotplot-legend").Body(
+			app.Text("Each group's result ÷ theory: "),
+			app.Span().Class("dot-key k-consistent").Text("● consistent"),
+			app.Span().Class("dot-key k-check").Text("● check"),
+			app.Span().Class("dot-key k-off").Text("● off"),
+			app.Span().Class("dot-key k-unsafe").Text("● unsafe"),
+		)),
 		app.Range(exps).Slice(func(i int) app.UI {
 			return app.Div().Class("dotplot").Attr("data-experiment", exps[i]).Body(
-				app.Span().Class("dotplot-label").Text(exps[i]),
+				app.Span().Class("dotplot-label").Text(titles[exps[i]]),
 				app.Raw(svgplot.Dots(byExp[exps[i]])),
 			)
 		}),
@@ -474,4 +484,13 @@ func focusTile(label string) {
 	if el := app.Window().Get("document").Call("querySelector", fmt.Sprintf("section.tile[data-bench=%q]", label)); el.Truthy() {
 		el.Call("focus")
 	}
+}
+
+// headlineOf is a bench's tile text: its headline, or for a server that
+// sends none, its reason.
+func headlineOf(st *pb.BenchState) string {
+	if h := st.GetHeadline(); h != "" {
+		return h
+	}
+	return st.GetReason()
 }

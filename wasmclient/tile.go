@@ -12,12 +12,15 @@ import (
 type Tile struct {
 	app.Compo
 
-	BenchID      uint64
-	Label        string
-	Row          int
-	Column       int
-	Verdict      string // css class: consistent, check, off, need-data, unsafe, stalled
-	Words        string // the verdict in words
+	BenchID uint64
+	Label   string
+	Row     int
+	Column  int
+	Verdict string // css class: consistent, check, off, need-data, unsafe, stalled
+	Words   string // the verdict in words
+	// Headline is the cause in at most four words; Reason, all of it, is
+	// the tile's tooltip and spoken label, and the detail's first line.
+	Headline     string
 	Reason       string
 	Experiment   string
 	Readings     int
@@ -63,7 +66,7 @@ func (t *Tile) Render() app.UI {
 	if !t.Free {
 		s = s.Style("grid-row", strconv.Itoa(t.Row+1)).Style("grid-column", strconv.Itoa(t.Column+1))
 	}
-	meta := fmt.Sprintf("%s · %d readings · %s", t.Experiment, t.Readings, t.Age)
+	meta := fmt.Sprintf("%d readings · %s", t.Readings, t.Age)
 	if t.Verdict == "unsafe" && t.Acknowledged {
 		meta += " · alert acknowledged"
 	}
@@ -76,7 +79,7 @@ func (t *Tile) Render() app.UI {
 			),
 			app.If(t.Activity != "", app.Span().Class("activity", "a-"+t.Activity).Text(activityWords[t.Activity])),
 		),
-		app.P().Class("reason").Text(t.Reason),
+		app.P().Class("reason").Title(t.Reason).Text(t.Headline),
 		app.Div().Class("tile-meta").Text(meta),
 	)
 }

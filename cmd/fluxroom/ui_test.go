@@ -454,3 +454,47 @@ func TestGroupMembers(t *testing.T) {
 		t.Errorf("gradebook has no members column with the edited names:\n%s", res.Content)
 	}
 }
+
+// TestThirtyBenchesFitOneScreen: a room of 30 benches, each tile its
+// bench, state and a few words of cause, fits one laptop screen (1366×768)
+// and, in large type, one 1080p projector, without scrolling to a tile.
+func TestThirtyBenchesFitOneScreen(t *testing.T) {
+	var labels []string
+	for i := 0; i < 30; i++ {
+		labels = append(labels, fmt.Sprintf("%c%d", 'A'+i/5, i%5+1))
+	}
+	r := newUIRig(t, labels...)
+	for i, label := range labels[:12] {
+		for j, I := range []float64{0, 1, 2} {
+			F := 0.48 * I
+			if i%3 == 1 {
+				F += 0.7 // a skipped zero
+			}
+			r.submit(t, label, fmt.Sprintf("%s-%d", label, j), I, F)
+		}
+	}
+	for _, tc := range []struct {
+		name          string
+		width, height int64
+		large         bool
+	}{{"laptop", 1366, 768, false}, {"projector", 1920, 1080, true}} {
+		r.do(t, tc.name, chromedp.EmulateViewport(tc.width, tc.height), chromedp.Navigate(r.url("/")),
+			chromedp.WaitVisible(chromedp.CSS(`section[data-bench="F5"]`)))
+		if tc.large {
+			r.do(t, "large type", chromedp.Click(chromedp.CSS(`#toggle-large`)), chromedp.WaitVisible(chromedp.CSS(`#toggle-large[aria-pressed="true"]`)))
+		}
+		bottom, _ := chromedp.Run(r.tab, chromedp.Evaluate[float64](`Math.max(...[...document.querySelectorAll('section.tile')].map(e => e.getBoundingClientRect().bottom))`))
+		words, _ := chromedp.Run(r.tab, chromedp.Evaluate[int](`Math.max(...[...document.querySelectorAll('section.tile .reason')].map(e => e.textContent.trim().split(/\s+/).length))`))
+		t.Logf("%s %d×%d: the last tile ends at %.0f px; the longest cause is %d words", tc.name, tc.width, tc.height, bottom, words)
+		if bottom > float64(tc.height) {
+			t.Errorf("%s: the room's tiles end at %.0f px, below the %d px screen", tc.name, bottom, tc.height)
+		}
+		if words > 4 {
+			t.Errorf("%s: a tile's cause has %d words, want at most 4", tc.name, words)
+		}
+		screenshot(t, r.tab, "room-30-"+tc.name+".png")
+		if tc.large {
+			r.do(t, "back to normal type", chromedp.Click(chromedp.CSS(`#toggle-large`)))
+		}
+	}
+}

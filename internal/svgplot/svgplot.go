@@ -190,8 +190,8 @@ type Dot struct {
 }
 
 // Dots draws every group's measured/predicted ratio on a line from 0
-// to 2 with the theory value (1) marked; ratios outside are pinned to the
-// ends with an arrow.
+// to 2, labelled ×0 to ×2, with the theory value (×1) marked; ratios
+// outside are pinned to the ends.
 func Dots(dots []Dot) string {
 	sx := func(r float64) float64 {
 		r = math.Max(dotLo, math.Min(dotHi, r))
@@ -201,7 +201,10 @@ func Dots(dots []Dot) string {
 	fmt.Fprintf(&b, `<svg class="dots" viewBox="0 0 %g %g" role="img" aria-label="results as a ratio to theory">`, dotW, dotH)
 	fmt.Fprintf(&b, `<line class="axis" x1="%g" y1="22" x2="%g" y2="22"/>`, dotPad, dotW-dotPad)
 	fmt.Fprintf(&b, `<line class="theory" x1="%.1f" y1="8" x2="%.1f" y2="36"/>`, sx(1), sx(1))
-	fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="42" text-anchor="middle">1 (theory)</text>`, sx(1))
+	for _, r := range []float64{0, 0.5, 1.5, 2} {
+		fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="42" text-anchor="middle">×%g</text>`, sx(r), r)
+	}
+	fmt.Fprintf(&b, `<text class="tick" x="%.1f" y="42" text-anchor="middle">×1 theory</text>`, sx(1))
 	for i, d := range dots {
 		y := 16.0 + float64(i%3)*6
 		fmt.Fprintf(&b, `<circle class="dot v-%s" cx="%.1f" cy="%.1f" r="4"><title>%s: ×%.3g</title></circle>`,

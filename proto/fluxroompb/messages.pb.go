@@ -853,6 +853,8 @@ type Diagnosis struct {
 	Action string `protobuf:"bytes,4,opt,name=action,proto3" json:"action,omitempty"`
 	// Codes that fit the numbers about as well.
 	Alternatives []string `protobuf:"bytes,5,rep,name=alternatives,proto3" json:"alternatives,omitempty"`
+	// The cause in at most four plain words.
+	Short string `protobuf:"bytes,8,opt,name=short,proto3" json:"short,omitempty"`
 	// The evidence it rests on: "raw readings", "recomputation" or "fit shape".
 	Level string `protobuf:"bytes,6,opt,name=level,proto3" json:"level,omitempty"`
 	// The one reading the diagnosis is about, when it is about one: the
@@ -925,6 +927,13 @@ func (x *Diagnosis) GetAlternatives() []string {
 		return x.Alternatives
 	}
 	return nil
+}
+
+func (x *Diagnosis) GetShort() string {
+	if x != nil {
+		return x.Short
+	}
+	return ""
 }
 
 func (x *Diagnosis) GetLevel() string {
@@ -1299,8 +1308,11 @@ type BenchState struct {
 	// readings that did.
 	Breach           string   `protobuf:"bytes,19,opt,name=breach,proto3" json:"breach,omitempty"`
 	BreachReadingIds []string `protobuf:"bytes,20,rep,name=breach_reading_ids,json=breachReadingIds,proto3" json:"breach_reading_ids,omitempty"`
-	unknownFields    protoimpl.UnknownFields
-	sizeCache        protoimpl.SizeCache
+	// The state in at most four plain words, for a room's tile: the likeliest
+	// cause, what is missing, or what broke a limit.
+	Headline      string `protobuf:"bytes,21,opt,name=headline,proto3" json:"headline,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *BenchState) Reset() {
@@ -1471,6 +1483,13 @@ func (x *BenchState) GetBreachReadingIds() []string {
 		return x.BreachReadingIds
 	}
 	return nil
+}
+
+func (x *BenchState) GetHeadline() string {
+	if x != nil {
+		return x.Headline
+	}
+	return ""
 }
 
 // BenchDetail is everything known about one bench.
@@ -3789,13 +3808,14 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"supersedes\x1aP\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x12+\n" +
-	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xc2\x01\n" +
+	"\x05value\x18\x02 \x01(\v2\x15.fluxroom.v1.QuantityR\x05value:\x028\x01\"\xd8\x01\n" +
 	"\tDiagnosis\x12\x12\n" +
 	"\x04code\x18\x01 \x01(\tR\x04code\x12\x14\n" +
 	"\x05cause\x18\x02 \x01(\tR\x05cause\x12\x1a\n" +
 	"\bevidence\x18\x03 \x01(\tR\bevidence\x12\x16\n" +
 	"\x06action\x18\x04 \x01(\tR\x06action\x12\"\n" +
 	"\falternatives\x18\x05 \x03(\tR\falternatives\x12\x14\n" +
+	"\x05short\x18\b \x01(\tR\x05short\x12\x14\n" +
 	"\x05level\x18\x06 \x01(\tR\x05level\x12\x1d\n" +
 	"\n" +
 	"reading_id\x18\a \x01(\tR\treadingId\"k\n" +
@@ -3828,7 +3848,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\tr_squared\x18\b \x01(\x01R\brSquared\x12\x15\n" +
 	"\x06x_name\x18\t \x01(\tR\x05xName\x12\x15\n" +
 	"\x06y_name\x18\n" +
-	" \x01(\tR\x05yName\"\xa5\x06\n" +
+	" \x01(\tR\x05yName\"\xc1\x06\n" +
 	"\n" +
 	"BenchState\x12(\n" +
 	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\x12.\n" +
@@ -3852,7 +3872,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x12alert_acknowledged\x18\x11 \x01(\bR\x11alertAcknowledged\x12\x1a\n" +
 	"\bactivity\x18\x12 \x01(\tR\bactivity\x12\x16\n" +
 	"\x06breach\x18\x13 \x01(\tR\x06breach\x12,\n" +
-	"\x12breach_reading_ids\x18\x14 \x03(\tR\x10breachReadingIds\"\x82\x02\n" +
+	"\x12breach_reading_ids\x18\x14 \x03(\tR\x10breachReadingIds\x12\x1a\n" +
+	"\bheadline\x18\x15 \x01(\tR\bheadline\"\x82\x02\n" +
 	"\vBenchDetail\x12-\n" +
 	"\x05state\x18\x01 \x01(\v2\x17.fluxroom.v1.BenchStateR\x05state\x120\n" +
 	"\breadings\x18\x02 \x03(\v2\x14.fluxroom.v1.ReadingR\breadings\x12\"\n" +
