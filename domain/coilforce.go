@@ -155,6 +155,7 @@ func assessCoilForce(c map[string]Measurement, rs []siReading, tol Tolerance, pl
 			pts[i] = PlotPoint{X: x[i], Y: y[i], UY: math.Max(uy, line.ResidualSD), ReadingID: rs[i].id}
 		}
 		p := linePlot("current I (A)", "force F (N)", pts, line.Intercept, line.Slope, pred, tol.GoodPercent)
+		p.XValue, p.YValue = "current", "force"
 		a.Plot = &p
 	}
 

@@ -209,7 +209,7 @@ func assessChargeToMass(c map[string]Measurement, rs []siReading, tol Tolerance,
 		}
 		lo, hi := minOf(radius)*0.9, maxOf(radius)*1.1
 		flat := func(v float64) []XY { return []XY{{lo, v}, {hi, v}} }
-		a.Plot = &Plot{XLabel: "orbit radius r (m)", YLabel: "e/m (C/kg)", Points: pts, Fit: flat(meanEM),
+		a.Plot = &Plot{XLabel: "orbit radius r (m)", YLabel: "e/m (C/kg)", XValue: "beam_diameter", Points: pts, Fit: flat(meanEM),
 			Theory: flat(ElectronChargeToMass), BandLow: flat(ElectronChargeToMass * (1 - tol.GoodPercent/100)),
 			BandHigh: flat(ElectronChargeToMass * (1 + tol.GoodPercent/100))}
 	}

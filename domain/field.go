@@ -84,6 +84,7 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 			pp[i] = PlotPoint{X: p.theory, Y: p.measured, UY: u[i], ReadingID: p.reading.id}
 		}
 		p := linePlot("B_theory (T)", "B measured (T)", pp, 0, rho, 1, tol.GoodPercent)
+		p.XValue, p.YValue = "field", "field"
 		a.Plot = &p
 	}
 

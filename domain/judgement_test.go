@@ -449,3 +449,23 @@ func TestSkippedZeroInThreeReadings(t *testing.T) {
 		t.Errorf("diagnoses %v, headline %q; want %s (%s)", codesOf(a), a.Headline, CodeSensorNotZeroed, a.Reason)
 	}
 }
+
+// TestPlotInTypedUnits: the bench detail's plot shows each axis in the unit
+// the group typed: a solenoid's field read in mT is plotted in mT.
+func TestPlotInTypedUnits(t *testing.T) {
+	g, a := assessSim(t, "solenoid", "", 4)
+	if a.Plot == nil {
+		t.Fatal("no plot")
+	}
+	if a.Plot.XLabel != "B_theory (mT)" || a.Plot.YLabel != "B measured (mT)" {
+		t.Errorf("labels %q, %q; want both axes in mT", a.Plot.XLabel, a.Plot.YLabel)
+	}
+	typed := g.Readings[0].Values["field"].Value // mT, as the group typed it
+	if got := a.Plot.Points[0].Y; relErr(got, typed) > 1e-12 {
+		t.Errorf("first point at %g, want %g mT as typed", got, typed)
+	}
+	_, c := assessSim(t, "coil_force", "", 4)
+	if c.Plot.XLabel != "current I (A)" || c.Plot.YLabel != "force F (N)" {
+		t.Errorf("coil force labels %q, %q; want A and N as typed", c.Plot.XLabel, c.Plot.YLabel)
+	}
+}

@@ -197,6 +197,9 @@ func assess(b Bench, readings []Reading, tol Tolerance, m *Memo, plot bool) Asse
 	} else {
 		var fs findings
 		a, fs = judges[e.ID](c, rs, tol, plot)
+		if a.Plot != nil {
+			a.Plot.inTypedUnits(readings)
+		}
 		fs.addScatter(a.scatter)
 		ds, raise := fs.ranked()
 		a.Diagnoses = ds

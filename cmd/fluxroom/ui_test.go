@@ -133,6 +133,11 @@ func TestBenchDetailAndUnsafeBanner(t *testing.T) {
 		t.Errorf("readings table has %d rows, want 5", rows)
 	}
 	screenshot(t, r.tab, "bench-detail.png")
+	// On a laptop the detail leaves most of the room in view.
+	share, _ := chromedp.Run(r.tab, chromedp.Evaluate[float64](`document.querySelector('#detail').getBoundingClientRect().width / window.innerWidth`))
+	if share > 0.5 {
+		t.Errorf("the detail covers %.0f %% of the window's width, want at most half", 100*share)
+	}
 	// Esc closes the detail and gives the focus back to the bench's tile.
 	r.do(t, "close the detail with Esc", chromedp.KeyEvent(kb.Escape), chromedp.WaitNotPresent(chromedp.CSS(`#detail`)))
 	var focused string
