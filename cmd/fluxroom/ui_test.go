@@ -133,6 +133,15 @@ func TestBenchDetailAndUnsafeBanner(t *testing.T) {
 		t.Errorf("readings table has %d rows, want 5", rows)
 	}
 	screenshot(t, r.tab, "bench-detail.png")
+	// The plot has a legend and round axis values, none of them "-0".
+	legend, _ := chromedp.Run(r.tab, chromedp.Evaluate[string](`[...document.querySelectorAll('#detail-plot .legend-item')].map(e => e.dataset.item).join(',')`))
+	if legend != "pt,fit,theory,band" {
+		t.Errorf("plot legend %q, want readings, fit, theory and band", legend)
+	}
+	ticks, _ := chromedp.Run(r.tab, chromedp.Evaluate[string](`[...document.querySelectorAll('#detail-plot text.tick')].map(e => e.textContent).join(' ')`))
+	if strings.Contains(" "+ticks+" ", " -0 ") || !strings.Contains(ticks, " 1 ") {
+		t.Errorf("plot ticks %q, want round values and no -0", ticks)
+	}
 	// On a laptop the detail leaves most of the room in view.
 	share, _ := chromedp.Run(r.tab, chromedp.Evaluate[float64](`document.querySelector('#detail').getBoundingClientRect().width / window.innerWidth`))
 	if share > 0.5 {
