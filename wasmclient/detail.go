@@ -213,15 +213,21 @@ func (f *MembersForm) submit(ctx app.Context, e app.Event) {
 		_, err := unary[pb.SetGroupMembersResponse](ctx, c, ProcSetGroupMembers, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: bid, Members: text})
 		ctx.Dispatch(func(app.Context) {
 			if err != nil {
-				f.status = fieldMessages(err)["members"]
-				if f.status == "" {
-					f.status = err.Error()
-				}
+				f.status = saveFailed(err, "members")
 				return
 			}
 			f.editing, f.Members, f.status = false, text, ""
 		})
 	})
+}
+
+// saveFailed is what a form says when a save failed: the message about its
+// field, or the error.
+func saveFailed(err error, field string) string {
+	if m := fieldMessages(err)[field]; m != "" {
+		return m
+	}
+	return err.Error()
 }
 
 // NoteForm adds a timestamped note to a bench.
@@ -251,10 +257,7 @@ func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
 		ctx.Dispatch(func(app.Context) {
 			if err != nil {
-				f.status = fieldMessages(err)["text"]
-				if f.status == "" {
-					f.status = err.Error()
-				}
+				f.status = saveFailed(err, "text")
 				return
 			}
 			f.text, f.status = "", "saved"

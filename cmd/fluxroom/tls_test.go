@@ -55,21 +55,29 @@ func selfSigned(t *testing.T) (certFile, keyFile string, pool *x509.CertPool) {
 	return certFile, keyFile, pool
 }
 
-// TestTLSOnOnePort serves over TLS and reaches, on the one port: native
-// gRPC, the dashboard page over HTTP/2 and HTTP/1.1, and gRPC-Web as a
-// browser sends it.
-func TestTLSOnOnePort(t *testing.T) {
+// startTLS runs the real program serving TLS with a self-signed
+// certificate, and an instructor's native gRPC connection to it that trusts
+// the certificate (its file and pool are returned too).
+func startTLS(t *testing.T) (*program, *grpc.ClientConn, string, *x509.CertPool) {
+	t.Helper()
 	certFile, keyFile, pool := selfSigned(t)
 	p := startProgram(t, t.TempDir(), filepath.Join(t.TempDir(), "f.db"), "127.0.0.1:0", "--tls-cert", certFile, "--tls-key", keyFile)
-	defer p.stop(t)
-	ctx := context.Background()
-
+	t.Cleanup(func() { p.stop(t) })
 	conn, err := grpc.NewClient(p.addr, grpc.WithTransportCredentials(credentials.NewTLS(&tls.Config{RootCAs: pool})),
 		grpc.WithPerRPCCredentials(bearer.Token(testKey)))
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer conn.Close()
+	t.Cleanup(func() { conn.Close() })
+	return p, conn, certFile, pool
+}
+
+// TestTLSOnOnePort serves over TLS and reaches, on the one port: native
+// gRPC, the dashboard page over HTTP/2 and HTTP/1.1, and gRPC-Web as a
+// browser sends it.
+func TestTLSOnOnePort(t *testing.T) {
+	p, conn, _, pool := startTLS(t)
+	ctx := context.Background()
 	if _, err := rpcpb.NewInstructorServiceClient(conn).ListSessions(ctx, &pb.ListSessionsRequest{}); err != nil {
 		t.Errorf("native gRPC over TLS: %v", err)
 	}
@@ -123,16 +131,8 @@ func tail(b []byte) string {
 // submit sends a bench's rows, export --server fetches the session's JSON,
 // backup --server copies the file; without --tls-ca they fail.
 func TestToolsOverTLS(t *testing.T) {
-	certFile, keyFile, pool := selfSigned(t)
-	p := startProgram(t, t.TempDir(), filepath.Join(t.TempDir(), "f.db"), "127.0.0.1:0", "--tls-cert", certFile, "--tls-key", keyFile)
-	defer p.stop(t)
+	p, conn, certFile, _ := startTLS(t)
 	ctx := context.Background()
-	conn, err := grpc.NewClient(p.addr, grpc.WithTransportCredentials(credentials.NewTLS(&tls.Config{RootCAs: pool})),
-		grpc.WithPerRPCCredentials(bearer.Token(testKey)))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close()
 	in := rpcpb.NewInstructorServiceClient(conn)
 	cs, err := in.CreateSession(ctx, &pb.CreateSessionRequest{Title: "Kestrel Vale · PHY 142 · over TLS"})
 	if err != nil {
