@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 )
 
 // The runtime's profiles answer the instructor key only; the metrics
@@ -123,5 +124,41 @@ func TestJoinQRCode(t *testing.T) {
 		if b := img.Bounds(); b.Dx() < 256 || b.Dx() != b.Dy() {
 			t.Errorf("QR code image %v, want a square of at least 256 px", b)
 		}
+	}
+}
+
+// TestJudgeLagMetric: each judge pass records how long its oldest reading
+// waited from its commit to its bench's state being published.
+func TestJudgeLagMetric(t *testing.T) {
+	r := startRig(t)
+	sess, benches := setupRoom(t, r)
+	for i := range 4 {
+		if _, err := submit(context.Background(), r, sess.SessionId, benches[0].BenchId, fmt.Sprintf("l%d", i), float64(i), 0.48*float64(i)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	var count, sum float64
+	for try := 0; try < 100 && count == 0; try++ {
+		time.Sleep(20 * time.Millisecond)
+		resp, err := http.Get("http://" + r.addr + "/metrics")
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, _ := io.ReadAll(resp.Body)
+		resp.Body.Close()
+		for _, line := range strings.Split(string(b), "\n") {
+			if name, v, ok := strings.Cut(line, " "); ok {
+				f, _ := strconv.ParseFloat(v, 64)
+				switch name {
+				case "fluxroom_judge_lag_seconds_count":
+					count = f
+				case "fluxroom_judge_lag_seconds_sum":
+					sum = f
+				}
+			}
+		}
+	}
+	if count < 1 || count > 4 || !(sum > 0) || sum > 5 {
+		t.Errorf("judge lag: %v passes over 4 readings taking %v s; want 1–4 passes and a little time", count, sum)
 	}
 }

@@ -20,6 +20,9 @@ import (
 type roomJudge struct {
 	mu      sync.Mutex
 	pending map[uint64][]domain.Reading // bench id → readings, in commit order
+	// since is when the oldest pending reading was committed (zero when
+	// none is pending), for the judge-lag metric.
+	since time.Time
 	// done is set, under mu, when the judge stops after a quiet spell;
 	// whoever finds it set starts a new one.
 	done bool
@@ -47,6 +50,9 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 			break
 		}
 		j.mu.Unlock() // it just stopped: start another
+	}
+	if len(j.pending) == 0 {
+		j.since = time.Now()
 	}
 	j.pending[benchID] = append(j.pending[benchID], r)
 	j.mu.Unlock()
@@ -87,8 +93,8 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 		}
 		quiet.Reset(s.roomIdle)
 		j.mu.Lock()
-		batch := j.pending
-		j.pending = make(map[uint64][]domain.Reading, len(batch))
+		batch, since := j.pending, j.since
+		j.pending, j.since = make(map[uint64][]domain.Reading, len(batch)), time.Time{}
 		j.mu.Unlock()
 		now := time.Now()
 		findingsOwed = findingsOwed || len(batch) > 0
@@ -96,6 +102,8 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 		if len(batch) > 0 || withFindings {
 			if err := s.judgePass(sessionID, batch, withFindings); err != nil {
 				s.log.Error("judging a room", "session_id", sessionID, "err", err)
+			} else if len(batch) > 0 && !since.IsZero() {
+				s.metrics.judgeLag.observe(time.Since(since))
 			}
 		}
 		if withFindings {

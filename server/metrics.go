@@ -27,6 +27,10 @@ type metrics struct {
 	// waits for; committed counts the readings they held.
 	commits   *histogram
 	committed atomic.Int64
+	// judgeLag times, for each judge pass, its oldest reading's wait from
+	// its commit to its bench's state being published: how far the room's
+	// dashboards trail the file.
+	judgeLag *histogram
 }
 
 // latencyBuckets are the upper bounds, in seconds, of the RPC latency
@@ -75,7 +79,7 @@ func (h *histogram) write(w io.Writer, name, labels string) {
 }
 
 func newMetrics() *metrics {
-	return &metrics{started: time.Now(), commits: newHistogram(commitBuckets)}
+	return &metrics{started: time.Now(), commits: newHistogram(commitBuckets), judgeLag: newHistogram(latencyBuckets)}
 }
 
 func (m *metrics) observe(method string, d time.Duration) {
@@ -127,4 +131,6 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	fmt.Fprintf(w, "# HELP fluxroom_commit_seconds Group commits of readings, with their fsyncs; every acknowledgement waits for one.\n# TYPE fluxroom_commit_seconds histogram\n")
 	m.commits.write(w, "fluxroom_commit_seconds", "")
 	counter("fluxroom_committed_readings_total", "Readings in group commits (over fluxroom_commit_seconds_count: readings per commit).", m.committed.Load())
+	fmt.Fprintf(w, "# HELP fluxroom_judge_lag_seconds Per judge pass, its oldest reading's time from commit to its bench's state published.\n# TYPE fluxroom_judge_lag_seconds histogram\n")
+	m.judgeLag.write(w, "fluxroom_judge_lag_seconds", "")
 }
