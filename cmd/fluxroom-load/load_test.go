@@ -46,7 +46,7 @@ func TestLoadtestRuns(t *testing.T) {
 	for _, want := range []string{"baseline echo:", "the empty call", "baseline bbolt:", "closed loop", "longest run 30)", "M=40 stations",
 		"light   200/s offered", "verdicts missing at watchers 0", "group commits",
 		"baseline: the bare echo at 200/s over 40 connections", "baseline: the bare echo at 300/s over 40 connections", "fairness at 200/s", "restart on the filled file",
-		"in-use pages grew", "targets"} {
+		"in-use pages grew", "judge lag (commit → state published)", "server CPU per durable judged reading", "targets: "} {
 		if !strings.Contains(out.String(), want) {
 			t.Errorf("the output has no %q:\n%s", want, out.String())
 		}

@@ -41,6 +41,9 @@ type phase struct {
 	// serverP50 does a call's.
 	commits, committed   float64
 	commitP50, commitP99 float64
+	// judgeP99 bounds the judge passes' lag from a reading's commit to its
+	// bench's state published (the server's fluxroom_judge_lag_seconds).
+	judgeP99 float64
 	// ackFlood are the acknowledgements of readings due while the flooding
 	// station was on; ack then holds those due while it was quiet.
 	ackFlood []time.Duration
@@ -227,6 +230,8 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	commits0, commits1 := before.histogram("fluxroom_commit_seconds", ""), after.histogram("fluxroom_commit_seconds", "")
 	ph.serverP50, ph.serverP99 = bucketQuantile(hist0, hist1, 0.5), bucketQuantile(hist0, hist1, 0.99)
 	ph.commitP50, ph.commitP99 = bucketQuantile(commits0, commits1, 0.5), bucketQuantile(commits0, commits1, 0.99)
+	lag0, lag1 := before.histogram("fluxroom_judge_lag_seconds", ""), after.histogram("fluxroom_judge_lag_seconds", "")
+	ph.judgeP99 = bucketQuantile(lag0, lag1, 0.99)
 	ph.commits = commits1[math.Inf(1)] - commits0[math.Inf(1)]
 	ph.committed = after.value("fluxroom_committed_readings_total") - before.value("fluxroom_committed_readings_total")
 	_, ph.peakRSS = r.c.mem()
