@@ -340,8 +340,6 @@ func ratio(a, b float64) float64 {
 	return a / b
 }
 
-// summarize checks the figures against the targets of the README's
-// performance section.
 // targetList prints each target with met or MISSED and counts them.
 type targetList struct {
 	w           io.Writer
