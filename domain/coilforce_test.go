@@ -43,11 +43,11 @@ func forceReadings(scale, offset, sd float64, seed uint64) []Reading {
 func TestCoilForceWorkedExample(t *testing.T) {
 	a := Assess(forceBench(), forceReadings(1, 0, 0, 1), DefaultTolerance())
 	// [derived] PHYSICS.md §2(a): N·B·L = 100 × 0.120 T × 0.040 m = 0.480 N/A.
-	if relErr(a.Predicted.Value, 0.480) > 1e-12 {
+	if RelErr(a.Predicted.Value, 0.480) > 1e-12 {
 		t.Errorf("predicted slope = %g N/A, want 0.480", a.Predicted.Value)
 	}
 	// u/NBL = hypot(3 %, 2 %) from the documented defaults [derived].
-	if want := 0.480 * math.Hypot(0.03, 0.02); relErr(a.Predicted.Uncertainty, want) > 1e-12 {
+	if want := 0.480 * math.Hypot(0.03, 0.02); RelErr(a.Predicted.Uncertainty, want) > 1e-12 {
 		t.Errorf("predicted u = %g, want %g", a.Predicted.Uncertainty, want)
 	}
 	// F(5 A) = 2.40 N [derived].

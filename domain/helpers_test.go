@@ -14,3 +14,11 @@ func qty(v float64, unit string) Quantity { return Quantity{Value: v, Unit: unit
 
 // round rounds x to a multiple of step, as a digital display does.
 func round(x, step float64) float64 { return math.Round(x/step) * step }
+
+// The same helpers for the external tests (package domain_test, which see
+// this package's test files through their import).
+var (
+	RelErr = relErr
+	Qty    = qty
+	Round  = round
+)

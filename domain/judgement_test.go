@@ -111,8 +111,8 @@ func emRun(bg float64, bothWays bool) []Reading {
 				B := math.Abs(k*I*s + bg)
 				d := 2 * math.Sqrt(2*V/ElectronChargeToMass) / B
 				rs = append(rs, Reading{ID: fmt.Sprintf("r%d", len(rs)+1), Sequence: uint64(len(rs) + 1),
-					Values: map[string]Quantity{"anode_voltage": qty(V, "V"), "coil_current": qty(s*I, "A"),
-						"beam_diameter": qty(round(d*1000, 0.1), "mm")}})
+					Values: map[string]Quantity{"anode_voltage": Qty(V, "V"), "coil_current": Qty(s*I, "A"),
+						"beam_diameter": Qty(Round(d*1000, 0.1), "mm")}})
 			}
 		}
 	}
@@ -215,7 +215,7 @@ func TestMassAsForce(t *testing.T) {
 		var rs []Reading
 		for i, I := range []float64{0, 0.2, 0.4, 0.6, 0.8, 1.0} {
 			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-				"current": qty(I, "A"), "force": qty(round(0.48*I*scale, 1e-4), "N")}})
+				"current": Qty(I, "A"), "force": Qty(Round(0.48*I*scale, 1e-4), "N")}})
 		}
 		return rs
 	}
@@ -281,7 +281,7 @@ func TestBackgroundAlreadyAveraged(t *testing.T) {
 func TestSafetyAtTheLimit(t *testing.T) {
 	bench := func(res float64) Bench {
 		b, err := ValidateBench("b", Bench{Label: "F1", Experiment: "coil_force",
-			Constants: map[string]Quantity{"current_resolution": qty(res, "A"), "max_current": qty(5, "A")}})
+			Constants: map[string]Quantity{"current_resolution": Qty(res, "A"), "max_current": Qty(5, "A")}})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -291,7 +291,7 @@ func TestSafetyAtTheLimit(t *testing.T) {
 		var rs []Reading
 		for i, I := range []float64{0, 1, 2, 3, 4, last} {
 			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-				"current": qty(I, "A"), "force": qty(round(0.48*I, 0.001), "N")}})
+				"current": Qty(I, "A"), "force": Qty(Round(0.48*I, 0.001), "N")}})
 		}
 		return rs
 	}
@@ -330,7 +330,7 @@ func TestSafetyAtTheLimit(t *testing.T) {
 	t.Run("heater has no margin", func(t *testing.T) {
 		b := emBench(t)
 		rs := emRun(0, true)
-		rs[0].Values["heater_voltage"] = qty(6.31, "V")
+		rs[0].Values["heater_voltage"] = Qty(6.31, "V")
 		if a := Assess(b, rs, DefaultTolerance()); a.Verdict != Unsafe || !strings.Contains(a.Reason, "6.31 V") {
 			t.Errorf("verdict %s (%s), want unsafe at 6.31 V", a.Verdict.Label(), a.Reason)
 		}
@@ -345,14 +345,14 @@ func TestUnitSlipHints(t *testing.T) {
 		q                 Quantity
 		want              string
 	}{
-		{"solenoid", "field", qty(4500, "mT"), "(above 0.1 T is impossible without iron: was it in µT typed as mT?)"},
-		{"solenoid", "field", qty(0.45, "T"), "was it in mT typed as T?"},
-		{"straight_wire", "field", qty(0.5, "T"), "was it in G typed as T, or mT typed as T?"},
-		{"e_over_m", "beam_diameter", qty(80, "cm"), "was it in mm typed as cm?"},
-		{"e_over_m", "anode_voltage", qty(250, "kV"), "was it in V typed as kV?"},
-		{"e_over_m", "coil_current", qty(1500, "A"), "was it in mA typed as A?"},
-		{"coil_force", "force", qty(480, "N"), "was it in mN typed as N?"},
-		{"straight_wire", "distance", qty(4, "m"), "was it in cm typed as m?"},
+		{"solenoid", "field", Qty(4500, "mT"), "(above 0.1 T is impossible without iron: was it in µT typed as mT?)"},
+		{"solenoid", "field", Qty(0.45, "T"), "was it in mT typed as T?"},
+		{"straight_wire", "field", Qty(0.5, "T"), "was it in G typed as T, or mT typed as T?"},
+		{"e_over_m", "beam_diameter", Qty(80, "cm"), "was it in mm typed as cm?"},
+		{"e_over_m", "anode_voltage", Qty(250, "kV"), "was it in V typed as kV?"},
+		{"e_over_m", "coil_current", Qty(1500, "A"), "was it in mA typed as A?"},
+		{"coil_force", "force", Qty(480, "N"), "was it in mN typed as N?"},
+		{"straight_wire", "distance", Qty(4, "m"), "was it in cm typed as m?"},
 	} {
 		t.Run(fmt.Sprintf("%s %s %g %s", tc.experiment, tc.value, tc.q.Value, tc.q.Unit), func(t *testing.T) {
 			b, err := ValidateBench("b", Bench{Label: "X1", Experiment: tc.experiment})
@@ -420,7 +420,7 @@ func TestSlippedPointIsNotAFactor(t *testing.T) {
 			F *= 10
 		}
 		rs = append(rs, Reading{ID: fmt.Sprintf("c1-%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-			"current": qty(I, "A"), "force": qty(F, "N")}})
+			"current": Qty(I, "A"), "force": Qty(F, "N")}})
 	}
 	a := Assess(b, rs, DefaultTolerance())
 	if cs := codesOf(a); len(cs) == 0 || cs[0] != CodeDecimalSlipPoint || slicesContains(cs, CodeLengthDoubled) {
@@ -442,7 +442,7 @@ func TestSkippedZeroInThreeReadings(t *testing.T) {
 	var rs []Reading
 	for i, I := range []float64{0, 1, 2} {
 		// N·B·L = 0.48 N/A [derived, PHYSICS.md §2(a)]; 0.7 N left on the sensor.
-		rs = append(rs, Reading{ID: fmt.Sprintf("z%d", i), Values: map[string]Quantity{"current": qty(I, "A"), "force": qty(0.48*I+0.7, "N")}})
+		rs = append(rs, Reading{ID: fmt.Sprintf("z%d", i), Values: map[string]Quantity{"current": Qty(I, "A"), "force": Qty(0.48*I+0.7, "N")}})
 	}
 	a := Assess(b, rs, DefaultTolerance())
 	if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != CodeSensorNotZeroed || a.Headline != "sensor not zeroed" {
@@ -461,7 +461,7 @@ func TestPlotInTypedUnits(t *testing.T) {
 		t.Errorf("labels %q, %q; want both axes in mT", a.Plot.XLabel, a.Plot.YLabel)
 	}
 	typed := g.Readings[0].Values["field"].Value // mT, as the group typed it
-	if got := a.Plot.Points[0].Y; relErr(got, typed) > 1e-12 {
+	if got := a.Plot.Points[0].Y; RelErr(got, typed) > 1e-12 {
 		t.Errorf("first point at %g, want %g mT as typed", got, typed)
 	}
 	_, c := assessSim(t, "coil_force", "", 4)

@@ -119,13 +119,13 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 // bench that got one and publishes their states, and then, withFindings,
 // the room's findings if they changed.
 func (s *Server) judgePass(sessionID uint64, batch map[uint64][]domain.Reading, withFindings bool) error {
-	mu := s.hub.sessionLock(sessionID)
-	mu.Lock()
-	defer mu.Unlock()
-	rs, err := s.loadRoom(sessionID)
-	if err != nil {
-		return err
-	}
+	return s.withRoom(sessionID, func(rs *roomState) error {
+		return s.judgeBatch(sessionID, rs, batch, withFindings)
+	})
+}
+
+// judgeBatch is judgePass's work, with the session's publish lock held.
+func (s *Server) judgeBatch(sessionID uint64, rs *roomState, batch map[uint64][]domain.Reading, withFindings bool) error {
 	now := s.now()
 	var changed []uint64
 	for bid, readings := range batch {

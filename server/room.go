@@ -118,6 +118,19 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 	return rs, nil
 }
 
+// withRoom runs f on a session's room, loaded if it is not cached, with the
+// session's publish lock held.
+func (s *Server) withRoom(sessionID uint64, f func(rs *roomState) error) error {
+	mu := s.hub.sessionLock(sessionID)
+	mu.Lock()
+	defer mu.Unlock()
+	rs, err := s.loadRoom(sessionID)
+	if err != nil {
+		return err
+	}
+	return f(rs)
+}
+
 // setBench caches a bench as read from the file, with its message.
 func (rs *roomState) setBench(b domain.Bench) {
 	rs.benches[b.ID] = b

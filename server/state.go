@@ -117,43 +117,37 @@ func (s *Server) rejudgeRoom(sessionID uint64) error {
 // new reading (its benches, notes, tolerance), judges it and sends its
 // state, and the room's findings when they change, to the room's watchers.
 func (s *Server) publishBench(sessionID, benchID uint64) error {
-	mu := s.hub.sessionLock(sessionID)
-	mu.Lock()
-	defer mu.Unlock()
-	rs, err := s.loadRoom(sessionID)
-	if err != nil {
-		return err
-	}
-	b, readings, err := s.db.BenchReadings(sessionID, benchID)
-	if err != nil {
-		return err
-	}
-	rs.setBench(b)
-	rs.readings[benchID] = readings
-	if err := s.judgeCached(rs, benchID, nil); err != nil {
-		return err
-	}
-	now := s.now()
-	// Only this bench's flag changes here; checkStalls publishes the others'.
-	results := rs.resultList()
-	rs.stalled[benchID] = domain.StalledBenches(results, now, s.stallAfter)[benchID]
-	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID)}})
-	s.publishFindings(sessionID, rs, results)
-	return nil
+	return s.withRoom(sessionID, func(rs *roomState) error {
+		b, readings, err := s.db.BenchReadings(sessionID, benchID)
+		if err != nil {
+			return err
+		}
+		rs.setBench(b)
+		rs.readings[benchID] = readings
+		if err := s.judgeCached(rs, benchID, nil); err != nil {
+			return err
+		}
+		// Only this bench's flag changes here; checkStalls publishes the others'.
+		results := rs.resultList()
+		rs.stalled[benchID] = domain.StalledBenches(results, s.now(), s.stallAfter)[benchID]
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID)}})
+		s.publishFindings(sessionID, rs, results)
+		return nil
+	})
 }
 
 // snapshot is the whole room now, from the room cache.
 func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
-	mu := s.hub.sessionLock(sess.ID)
-	mu.Lock()
-	defer mu.Unlock()
-	rs, err := s.loadRoom(sess.ID)
+	snap := &pb.RoomSnapshot{Session: sessionToPB(sess)}
+	err := s.withRoom(sess.ID, func(rs *roomState) error {
+		snap.Findings = findingsToPB(rs.findings)
+		for _, st := range rs.states {
+			snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId()))
+		}
+		return nil
+	})
 	if err != nil {
 		return nil, err
-	}
-	snap := &pb.RoomSnapshot{Session: sessionToPB(sess), Findings: findingsToPB(rs.findings)}
-	for _, st := range rs.states {
-		snap.Benches = append(snap.Benches, rs.shown(st.GetBench().GetBenchId()))
 	}
 	slices.SortFunc(snap.Benches, func(a, b *pb.BenchState) int {
 		if d := a.GetBench().GetRow() - b.GetBench().GetRow(); d != 0 {

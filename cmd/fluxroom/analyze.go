@@ -9,15 +9,16 @@ import (
 	"strings"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/export"
 	"example.com/fluxroom/internal/readingscsv"
 )
 
 // analyzeReport is the stable JSON output of `fluxroom analyze --json`
 // (documented in README.md). Fields are only ever added.
 type analyzeReport struct {
-	Benches  []analyzeBench      `json:"benches"`
-	Findings []analyzeFinding    `json:"room_findings"`
-	Errors   []readingscsv.Error `json:"errors"`
+	Benches  []analyzeBench       `json:"benches"`
+	Findings []export.JSONFinding `json:"room_findings"`
+	Errors   []readingscsv.Error  `json:"errors"`
 }
 
 type analyzeValue struct {
@@ -53,20 +54,13 @@ type analyzeBench struct {
 	Notes       []string           `json:"notes"`
 }
 
-type analyzeFinding struct {
-	Code       string   `json:"code"`
-	Experiment string   `json:"experiment"`
-	Message    string   `json:"message"`
-	Benches    []string `json:"benches"`
-}
-
 // analyze judges a readings CSV with the same engine as a live session.
 func analyze(r io.Reader) (analyzeReport, error) {
 	benches, errs, err := readingscsv.Read(r)
 	if err != nil {
 		return analyzeReport{}, err
 	}
-	rep := analyzeReport{Errors: errs, Benches: []analyzeBench{}, Findings: []analyzeFinding{}}
+	rep := analyzeReport{Errors: errs, Benches: []analyzeBench{}}
 	if rep.Errors == nil {
 		rep.Errors = []readingscsv.Error{}
 	}
@@ -94,13 +88,7 @@ func analyze(r io.Reader) (analyzeReport, error) {
 		}
 		rep.Benches = append(rep.Benches, ab)
 	}
-	for _, f := range domain.RoomFindings(results, domain.DefaultTolerance()) {
-		af := analyzeFinding{Code: f.Code, Experiment: f.Experiment, Message: f.Message, Benches: []string{}}
-		for _, id := range f.BenchIDs {
-			af.Benches = append(af.Benches, labels[id])
-		}
-		rep.Findings = append(rep.Findings, af)
-	}
+	rep.Findings = export.JSONFindings(domain.RoomFindings(results, domain.DefaultTolerance()), labels)
 	return rep, nil
 }
 

@@ -121,10 +121,10 @@ func writeReadings(w io.Writer, s Session) error {
 }
 
 // benchLabels names benches by their labels, in the order given.
-func (s Session) benchLabels(ids []uint64) []string {
+func benchLabels(labels map[uint64]string, ids []uint64) []string {
 	out := make([]string, len(ids))
 	for i, id := range ids {
-		out[i] = s.Labels[id]
+		out[i] = labels[id]
 	}
 	return out
 }

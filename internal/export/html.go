@@ -18,7 +18,7 @@ var reportPage = template.Must(template.New("report").Funcs(template.FuncMap{
 	"value":   func(v, u float64, unit string) string { return domain.FormatMeasurement(v, u, unit) },
 	"pts":     pts,
 	"pct":     func(v float64) string { return fmt.Sprintf("%+.1f %%", v) },
-	"benches": func(s Session, ids []uint64) string { return strings.Join(s.benchLabels(ids), ", ") },
+	"benches": func(s Session, ids []uint64) string { return strings.Join(benchLabels(s.Labels, ids), ", ") },
 }).Parse(`<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{{.Session.Title}} — group reports</title>
 <style>

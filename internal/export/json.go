@@ -18,14 +18,25 @@ type jsonExport struct {
 	Policy string      `json:"policy"`
 	Groups []jsonGroup `json:"groups"`
 	// RoomFindings are about the room as a whole, for the instructor.
-	RoomFindings []jsonFinding `json:"room_findings"`
+	RoomFindings []JSONFinding `json:"room_findings"`
 }
 
-type jsonFinding struct {
+// JSONFinding is a room finding as the JSON reports give it (the export's
+// and `fluxroom analyze --json`'s), its benches by label.
+type JSONFinding struct {
 	Code       string   `json:"code"`
 	Experiment string   `json:"experiment"`
 	Message    string   `json:"message"`
 	Benches    []string `json:"benches"`
+}
+
+// JSONFindings gives room findings as the JSON reports do, never null.
+func JSONFindings(fs []domain.RoomFinding, labels map[uint64]string) []JSONFinding {
+	out := []JSONFinding{}
+	for _, f := range fs {
+		out = append(out, JSONFinding{f.Code, f.Experiment, f.Message, benchLabels(labels, f.BenchIDs)})
+	}
+	return out
 }
 
 type jsonValue struct {
@@ -126,10 +137,7 @@ func WriteJSON(w io.Writer, s Session) error {
 		}
 		out.Groups = append(out.Groups, jg)
 	}
-	out.RoomFindings = []jsonFinding{}
-	for _, f := range s.Findings {
-		out.RoomFindings = append(out.RoomFindings, jsonFinding{f.Code, f.Experiment, f.Message, s.benchLabels(f.BenchIDs)})
-	}
+	out.RoomFindings = JSONFindings(s.Findings, s.Labels)
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(out)
