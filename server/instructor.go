@@ -241,6 +241,10 @@ func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGra
 	if sess, err = in.s.db.UpdateSession(sess); err != nil {
 		return nil, err
 	}
+	// A quiet bench is done or stalled by the policy's required readings.
+	if err := in.s.rejudgeRoom(sess.ID); err != nil {
+		return nil, err
+	}
 	return &pb.SetGradingPolicyResponse{Session: sessionToPB(sess)}, nil
 }
 

@@ -462,6 +462,41 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 			break
 		}
 	}
+	// A policy that asks 5 readings of a coil run makes quiet A2 done, and
+	// the room shows it without another reading. (Events sent before a
+	// change may still be on their way: each wait is for the new state.)
+	if _, err := r.instructor.SetGradingPolicy(ctx, &pb.SetGradingPolicyRequest{SessionId: sid,
+		PolicyJson: `{"required_readings": {"coil_force": 5}}`}); err != nil {
+		t.Fatal(err)
+	}
+	lastA2 := "(none)"
+	for lastA2 != "done" {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatalf("A2 not shown done under a policy of 5 readings (last shown %q): %v", lastA2, err)
+		}
+		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" {
+			lastA2 = b.Activity
+		}
+	}
+	// A good band of 60 % takes in ×0.5: the shared cause is gone from the
+	// watchers' room, not only from the next snapshot.
+	if _, err := r.instructor.UpdateSession(ctx, &pb.UpdateSessionRequest{SessionId: sid,
+		Tolerance: &pb.Tolerance{GoodPercent: 60, AcceptablePercent: 70}}); err != nil {
+		t.Fatal(err)
+	}
+	var last []*pb.RoomFinding
+	for {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatalf("no room findings without the shared cause under a good band of 60 %% (last sent: %v): %v", last, err)
+		}
+		if f := ev.GetFindings(); f != nil {
+			if last = f.Findings; len(last) == 0 {
+				break
+			}
+		}
+	}
 }
 
 // syncBuffer is a log sink the server's goroutines may write concurrently.

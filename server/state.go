@@ -2,6 +2,7 @@ package server
 
 import (
 	"errors"
+	"maps"
 	"slices"
 
 	"example.com/fluxroom/domain"
@@ -94,22 +95,26 @@ func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
 	return noteToPB(n), nil
 }
 
-// rejudgeRoom drops a session's cached room and judges every bench again,
-// after a change that affects them all (the tolerance profile).
+// rejudgeRoom reads a session's room back from the file and judges every
+// bench once, after a change of the session that affects them all (its
+// tolerance, its grading policy), and publishes every bench's state and the
+// room's findings to its watchers.
 func (s *Server) rejudgeRoom(sessionID uint64) error {
 	mu := s.hub.sessionLock(sessionID)
 	mu.Lock()
+	defer mu.Unlock()
 	s.rooms.drop(sessionID)
-	mu.Unlock()
-	benches, err := s.db.Benches(sessionID)
+	rs, err := s.loadRoom(sessionID)
 	if err != nil {
 		return err
 	}
-	for _, b := range benches {
-		if err := s.publishBench(sessionID, b.ID); err != nil {
-			return err
-		}
+	ids := slices.Sorted(maps.Keys(rs.states))
+	for _, id := range ids {
+		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(id)}})
 	}
+	// loadRoom worked the findings out afresh: the watchers still show the
+	// ones from before the change.
+	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(rs.findings)}}})
 	return nil
 }
 
