@@ -107,20 +107,22 @@ func weightedTrend(x, y, u []float64) (z, threshold float64, ok bool) {
 		r := (y[i] - my - b*(x[i]-mx)) / u[i]
 		chi2 += r * r
 	}
-	se, threshold := math.Sqrt(1/sxx), normalCritical(falseAlarm)
-	if birge(chi2, n-2) {
-		se, threshold = se*math.Sqrt(chi2/float64(n-2)), tShape(n-2)
-	}
-	return b / se, threshold, true
+	scale, threshold := birge(chi2, n-2)
+	return b / (math.Sqrt(1/sxx) * scale), threshold, true
 }
 
-// birge reports whether a fit's residuals scatter beyond their known
-// uncertainties clearly enough to scale its standard errors by √(χ²/ν): χ²
-// improbable at 5 % for ν degrees of freedom. A χ²/ν a little above 1 is
-// what a clean run of a few readings gives half the time, and is no reason
-// to distrust the instruments' uncertainties // common practice.
-func birge(chi2 float64, nu int) bool {
-	return nu >= 1 && chi2 > chi2Critical(chi2Upper05[:], zUpper05, nu)
+// birge is the Birge-ratio rule of the weighted fits: when a fit's
+// residuals scatter beyond their known uncertainties clearly enough (χ²
+// improbable at 5 % for ν degrees of freedom), its standard errors scale by
+// √(χ²/ν) and a coefficient's z must pass Student's t for ν; otherwise the
+// known uncertainties stand (scale 1) and the threshold is normal. A χ²/ν a
+// little above 1 is what a clean run of a few readings gives half the time,
+// and is no reason to distrust the instruments' uncertainties // common practice.
+func birge(chi2 float64, nu int) (scale, threshold float64) {
+	if nu >= 1 && chi2 > chi2Critical(chi2Upper05[:], zUpper05, nu) {
+		return math.Sqrt(chi2 / float64(nu)), tShape(nu)
+	}
+	return 1, normalCritical(falseAlarm)
 }
 
 // weightedModel fits y = Σ coef[j]·cols[j] with weights 1/u² and returns
@@ -157,16 +159,13 @@ func weightedModel(cols [][]float64, y, u []float64) (coef, se []float64, thresh
 		}
 		chi2 += r * r
 	}
-	s2 := chi2 / float64(nu)
-	if birge(chi2, nu) {
-		return coef, se, tShape(nu), nil
-	}
-	// FitModel scaled by √(χ²/ν); with the residuals inside u the known
-	// uncertainties stand.
-	for j := range se {
-		if s2 > 0 {
-			se[j] /= math.Sqrt(s2)
+	// fit.Model scaled the standard errors by √(χ²/ν) already: the rule's
+	// scale replaces that one.
+	scale, threshold := birge(chi2, nu)
+	if s2 := chi2 / float64(nu); s2 > 0 {
+		for j := range se {
+			se[j] = se[j] / math.Sqrt(s2) * scale
 		}
 	}
-	return coef, se, normalCritical(falseAlarm), nil
+	return coef, se, threshold, nil
 }
