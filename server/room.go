@@ -28,7 +28,11 @@ type roomState struct {
 	stalled  map[uint64]bool
 	// The data the states were judged from, so a new reading is judged
 	// without reading the bench back from the file.
-	session  domain.Session
+	session domain.Session
+	// required is the session's grading policy's readings for a complete
+	// run, by experiment, read once with the session (a policy change
+	// reloads the room); nil when the stored policy does not parse.
+	required map[string]int
 	benches  map[uint64]domain.Bench
 	readings map[uint64][]domain.Reading
 	// memos keep each bench's judging work between readings.
@@ -106,6 +110,9 @@ func (s *Server) loadRoom(sessionID uint64) (*roomState, error) {
 	rs := &roomState{states: map[uint64]*pb.BenchState{}, results: map[uint64]domain.BenchResult{}, stalled: map[uint64]bool{}, used: time.Now(),
 		session: d.Session, benches: map[uint64]domain.Bench{}, readings: d.Readings, memos: map[uint64]*domain.Memo{},
 		benchMsgs: map[uint64]*pb.Bench{}}
+	if p, err := export.ParsePolicy([]byte(d.Session.GradingPolicy)); err == nil {
+		rs.required = p.RequiredReadings
+	}
 	for _, b := range d.Benches {
 		rs.setBench(b)
 		if err := s.judgeCached(rs, b.ID, d.Notes); err != nil {
@@ -157,10 +164,8 @@ func (rs *roomState) shown(id uint64) *pb.BenchState {
 	}
 	out := proto.Clone(st).(*pb.BenchState)
 	out.Activity = "stalled"
-	if p, err := export.ParsePolicy([]byte(rs.session.GradingPolicy)); err == nil {
-		if need := p.RequiredReadings[st.GetBench().GetExperiment()]; need > 0 && int(st.GetReadingCount()) >= need {
-			out.Activity = "done"
-		}
+	if need := rs.required[st.GetBench().GetExperiment()]; need > 0 && int(st.GetReadingCount()) >= need {
+		out.Activity = "done"
 	}
 	return out
 }
