@@ -50,13 +50,17 @@ var activityWords = map[string]string{"stalled": "‖ stalled", "done": "■ don
 // Render draws the tile. It is a focusable button-like region: Enter or a
 // click opens the bench's detail.
 func (t *Tile) Render() app.UI {
+	spoken := "bench " + t.Label + ", " + t.Words
+	if t.Activity != "" {
+		spoken += ", " + t.Activity
+	}
 	s := app.Section().
 		Class("tile", "v-"+t.Verdict).
 		Attr("data-bench", t.Label).
 		Attr("data-verdict", t.Verdict).
 		Attr("role", "button").
 		TabIndex(0).
-		Aria("label", fmt.Sprintf("bench %s, %s%s: %s", t.Label, t.Words, map[string]string{"stalled": ", stalled", "done": ", done"}[t.Activity], t.Reason)).
+		Aria("label", spoken+": "+t.Reason).
 		OnClick(t.open).
 		OnKeyDown(func(ctx app.Context, e app.Event) {
 			if k := e.Get("key").String(); k == "Enter" || k == " " {
