@@ -45,7 +45,7 @@ func (r *Room) renderDetail() app.UI {
 			),
 			app.P().Class("detail-reason").Text(st.GetReason()),
 			app.If(st.GetCaution() != "", app.P().Class("caution").Text(st.GetCaution())),
-			app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(d.Plot))+`</div>`)),
+			app.Div().Class("plot-wrap").ID("detail-plot").Body(app.Raw(r.detailPlot)),
 			app.Div().Class("detail-cols").Body(
 				app.Section().Body(
 					app.H3().Text("Likely causes"),
@@ -96,6 +96,11 @@ func (r *Room) sessionID() uint64 {
 		return 0
 	}
 	return r.session.SessionId
+}
+
+// plotSVG draws a wire plot, in the one element app.Raw takes.
+func plotSVG(p *pb.Plot) string {
+	return `<div>` + svgplot.Bench(plotFromPB(p)) + `</div>`
 }
 
 // plotFromPB converts the wire plot for svgplot.

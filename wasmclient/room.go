@@ -46,6 +46,9 @@ type Room struct {
 	// open is the bench whose detail is shown, 0 for none.
 	open   uint64
 	detail *pb.BenchDetail
+	// detailPlot is the detail's plot as SVG, drawn once per fetch rather
+	// than at every update of the room.
+	detailPlot string
 	// detailErr says why the detail could not be loaded.
 	detailErr string
 }
@@ -74,7 +77,7 @@ func (r *Room) OnMount(ctx app.Context) {
 	})
 	ctx.Handle(actionCloseBench, func(ctx app.Context, a app.Action) {
 		label := r.benches[r.open].GetBench().GetLabel()
-		r.open, r.detail = 0, nil
+		r.open, r.detail, r.detailPlot = 0, nil, ""
 		// Back to the tile the detail was opened from, for the keyboard.
 		ctx.Defer(func(app.Context) { focusTile(label) })
 	})
@@ -210,7 +213,7 @@ func (r *Room) openBench(ctx app.Context, id uint64) {
 				r.detailErr = err.Error()
 				return
 			}
-			r.detail, r.detailErr = d.Detail, ""
+			r.detail, r.detailPlot, r.detailErr = d.Detail, plotSVG(d.Detail.GetPlot()), ""
 		})
 	})
 }

@@ -12,7 +12,6 @@ import (
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
 	"example.com/fluxroom/domain"
-	"example.com/fluxroom/internal/svgplot"
 	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
@@ -41,10 +40,11 @@ type Station struct {
 	queued     int
 	state      *pb.BenchState
 	readings   []*pb.Reading
-	// required is how many readings a complete run needs; plot the
-	// group's own points (with fit and theory when the session shows them).
+	// required is how many readings a complete run needs; plotSVG draws
+	// the group's own points (with fit and theory when the session shows
+	// them), once per state fetched rather than at every keystroke.
 	required int
-	plot     *pb.Plot
+	plotSVG  string
 	wake     chan struct{}
 }
 
@@ -210,7 +210,10 @@ func (s *Station) refreshNow(ctx app.Context) {
 		return
 	}
 	ctx.Dispatch(func(app.Context) {
-		s.state, s.readings, s.required, s.plot = res.State, res.Readings, int(res.RequiredReadings), res.Plot
+		s.state, s.readings, s.required, s.plotSVG = res.State, res.Readings, int(res.RequiredReadings), ""
+		if len(res.Plot.GetPoints()) > 0 {
+			s.plotSVG = plotSVG(res.Plot)
+		}
 	})
 }
 
@@ -380,8 +383,7 @@ func (s *Station) Render() app.UI {
 		app.If(s.state != nil && s.state.GetReason() != "", app.P().Class("station-verdict").ID("station-verdict").
 			Text(s.state.GetVerdictLabel()+": "+s.state.GetReason())),
 		app.P().Class("progress").ID("progress").Attr("data-complete", s.complete()).Text(s.progress()),
-		app.If(s.plot != nil && len(s.plot.GetPoints()) > 0,
-			app.Div().Class("plot-wrap").ID("station-plot").Body(app.Raw(`<div>`+svgplot.Bench(plotFromPB(s.plot))+`</div>`))),
+		app.If(s.plotSVG != "", app.Div().Class("plot-wrap").ID("station-plot").Body(app.Raw(s.plotSVG))),
 		app.H2().Text("Your readings"),
 		readingsTable(s.readings, rowMarks{retake: retakeIDs(s.state), unsafe: breachIDs(s.state)}),
 	)
