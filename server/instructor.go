@@ -176,15 +176,15 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 // GetBenchDetail is everything known about one bench: its judged state, readings (corrections kept),
 // fit, plot and notes.
 func (in instructorService) GetBenchDetail(ctx context.Context, req *pb.GetBenchDetailRequest) (*pb.GetBenchDetailResponse, error) {
-	state, a, rs, err := in.s.benchState(req.GetSessionId(), req.GetBenchId())
+	v, err := in.s.benchState(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
 		return nil, err
 	}
-	d := &pb.BenchDetail{State: state, Fit: fitToPB(a), Plot: plotToPB(a.Plot)}
-	for _, r := range rs {
+	d := &pb.BenchDetail{State: v.state, Fit: fitToPB(v.judged), Plot: plotToPB(v.judged.Plot)}
+	for _, r := range v.readings {
 		d.Readings = append(d.Readings, readingToPB(r))
 	}
-	for id := range domain.Superseded(rs) {
+	for id := range domain.Superseded(v.readings) {
 		d.Superseded = append(d.Superseded, id)
 	}
 	sort.Strings(d.Superseded)

@@ -11,27 +11,36 @@ import (
 	"example.com/fluxroom/store"
 )
 
-// benchState reads a bench and its readings and judges them.
-func (s *Server) benchState(sessionID, benchID uint64) (*pb.BenchState, domain.Assessment, []domain.Reading, error) {
+// benchView is a bench judged afresh from the file, with the plot, as its
+// detail and its station's page show it.
+type benchView struct {
+	session  domain.Session
+	state    *pb.BenchState
+	judged   domain.Assessment
+	readings []domain.Reading
+}
+
+// benchState reads a bench, its readings and its session, and judges them.
+func (s *Server) benchState(sessionID, benchID uint64) (benchView, error) {
 	if sessionID == 0 {
-		return nil, domain.Assessment{}, nil, domain.Invalid("session_id", "is missing")
+		return benchView{}, domain.Invalid("session_id", "is missing")
 	}
 	b, rs, err := s.db.BenchReadings(sessionID, benchID)
 	if errors.Is(err, store.ErrNotFound) {
-		return nil, domain.Assessment{}, nil, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+		return benchView{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
 	}
 	if err != nil {
-		return nil, domain.Assessment{}, nil, err
+		return benchView{}, err
 	}
 	sess, err := s.db.Session(sessionID)
 	if err != nil {
-		return nil, domain.Assessment{}, nil, err
+		return benchView{}, err
 	}
 	st, a, err := s.judge(sess, b, nil, rs, nil, nil)
 	if err != nil {
-		return nil, domain.Assessment{}, nil, err
+		return benchView{}, err
 	}
-	return st, a, rs, nil
+	return benchView{session: sess, state: st, judged: a, readings: rs}, nil
 }
 
 // session loads the session a request names, as a field error when there

@@ -132,26 +132,23 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 // GetBenchState is the caller's bench as its station may see it: the verdict and its reasons when the
 // session shows them to stations, otherwise the count of readings, and always a safety caution.
 func (st stationService) GetBenchState(ctx context.Context, req *pb.GetBenchStateRequest) (*pb.GetBenchStateResponse, error) {
-	state, a, rs, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
+	v, err := st.s.benchState(req.GetSessionId(), req.GetBenchId())
 	if err != nil {
 		return nil, err
 	}
-	sess, err := st.s.db.Session(req.GetSessionId())
-	if err != nil {
-		return nil, err
-	}
-	out := &pb.GetBenchStateResponse{State: forStation(state, sess.StationsSeeVerdicts)}
+	sess := v.session
+	out := &pb.GetBenchStateResponse{State: forStation(v.state, sess.StationsSeeVerdicts)}
 	if p, err := export.ParsePolicy([]byte(sess.GradingPolicy)); err == nil {
-		out.RequiredReadings = int32(p.RequiredReadings[state.GetBench().GetExperiment()])
+		out.RequiredReadings = int32(p.RequiredReadings[v.state.GetBench().GetExperiment()])
 	}
-	if plot := plotToPB(a.Plot); plot != nil {
+	if plot := plotToPB(v.judged.Plot); plot != nil {
 		if !sess.StationsSeeVerdicts {
 			// The group's own points, without what would tell the verdict.
 			plot.Fit, plot.Theory, plot.BandLow, plot.BandHigh = nil, nil, nil, nil
 		}
 		out.Plot = plot
 	}
-	for _, r := range rs {
+	for _, r := range v.readings {
 		out.Readings = append(out.Readings, readingToPB(r))
 	}
 	return out, nil
