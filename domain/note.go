@@ -6,14 +6,20 @@ import (
 	"unicode/utf8"
 )
 
-// Note is an instructor's note or acknowledgement on a bench.
+// Note is one entry of a session's audit log: a staff member's note,
+// acknowledgement or grade override on a bench, or a change of the session
+// (BenchID 0 unless it concerns one bench).
 type Note struct {
 	BenchID uint64
-	// Kind is NoteKindNote or NoteKindAcknowledged.
-	Kind   string
-	Text   string
-	Author string
-	At     time.Time
+	// Kind is one of the NoteKind constants.
+	Kind string
+	Text string
+	// Author is the person who made the change, as their account names
+	// them ("administrator" for the administrator's key); StaffID their
+	// account, 0 for the administrator's key.
+	Author  string
+	StaffID uint64
+	At      time.Time
 	// Points and PreviousPoints belong to a grade override.
 	Points, PreviousPoints float64
 }
@@ -23,6 +29,12 @@ const (
 	NoteKindNote          = "note"
 	NoteKindAcknowledged  = "acknowledged"
 	NoteKindGradeOverride = "grade_override"
+	// Changes of the session, with what changed in Text.
+	NoteKindBenchesSet    = "benches_set"
+	NoteKindPolicySet     = "policy_set"
+	NoteKindSessionEdited = "session_edited"
+	NoteKindMembersSet    = "members_set"
+	NoteKindClosed        = "session_closed"
 )
 
 // Overrides collects the grade overrides of a session's notes by bench, in

@@ -7,8 +7,11 @@ import (
 
 // Session is one lab section meeting in one room.
 type Session struct {
-	ID        uint64
-	Title     string
+	ID    uint64
+	Title string
+	// Course is the course the session belongs to; staff see and change
+	// only their courses' sessions.
+	Course    string
 	JoinCode  string
 	CreatedAt time.Time
 	// Tolerance is the session's verdict rule; the zero value means

@@ -19,20 +19,29 @@ import (
 	"google.golang.org/grpc/metadata"
 	"google.golang.org/grpc/status"
 
+	"example.com/fluxroom/domain"
 	"example.com/fluxroom/store"
 )
 
-// Roles. Every RPC is authorized here, in one place, before it runs:
+// Who may call what. Every RPC is authorized here, in one place, before it
+// runs:
 //   - public: JoinBench, ListExperiments, health and reflection;
 //   - station: SubmitReading and GetBenchState, with a station token for
-//     the request's own session and bench (or the instructor key);
-//   - instructor: every InstructorService call, with the instructor key.
+//     the request's own session and bench;
+//   - staff: every InstructorService and StaffService call, with a staff
+//     key or the administrator's key. A call that names a session is
+//     allowed by the caller's role in that session's course (staffRules,
+//     domain.Role.May); the calls that name none (CreateSession,
+//     ListSessions, WatchRoom's stream, Backup, StaffService) check or
+//     filter by course in their handlers, with the caller authorize puts
+//     in the context. A staff key may also make a station's calls, as its
+//     role in the course allows.
 //
-// Both credentials travel as "authorization: Bearer <value>".
+// Every credential travels as "authorization: Bearer <value>".
 
 // auth holds the credentials the server checks.
 type auth struct {
-	keyHash []byte // SHA-256 of the instructor key
+	keyHash []byte // SHA-256 of the administrator's key
 	secret  []byte // HMAC key of station tokens
 
 	mu       sync.Mutex
@@ -58,8 +67,8 @@ func hashKey(k string) []byte {
 }
 
 // setUpAuth loads or creates the credentials. With key set it becomes the
-// instructor key; with none stored and none given, a new key is made and
-// returned so that the caller can show it once.
+// administrator's key; with none stored and none given, a new key is made
+// and returned so that the caller can show it once.
 func setUpAuth(db *store.DB, key string) (*auth, string, error) {
 	hash, secret, err := db.Credentials(func() []byte {
 		b := make([]byte, 32)
@@ -73,7 +82,7 @@ func setUpAuth(db *store.DB, key string) (*auth, string, error) {
 	switch {
 	case key != "":
 		if !hmac.Equal(hash, hashKey(key)) {
-			if err := db.SetInstructorKeyHash(hashKey(key)); err != nil {
+			if err := db.SetAdminKeyHash(hashKey(key)); err != nil {
 				return nil, "", err
 			}
 		}
@@ -81,7 +90,7 @@ func setUpAuth(db *store.DB, key string) (*auth, string, error) {
 	case len(hash) == 0:
 		shown = newKey()
 		hash = hashKey(shown)
-		if err := db.SetInstructorKeyHash(hash); err != nil {
+		if err := db.SetAdminKeyHash(hash); err != nil {
 			return nil, "", err
 		}
 	}
@@ -133,7 +142,7 @@ func (a *auth) verifyStationToken(tok string) (sessionID, benchID uint64, ok boo
 	return binary.BigEndian.Uint64(payload[0:8]), binary.BigEndian.Uint64(payload[8:16]), true
 }
 
-func (a *auth) isInstructor(tok string) bool {
+func (a *auth) isAdmin(tok string) bool {
 	return tok != "" && subtle.ConstantTimeCompare(hashKey(tok), a.keyHash) == 1
 }
 
@@ -186,6 +195,7 @@ func bearerOf(ctx context.Context) string {
 const (
 	stationSvc    = "/fluxroom.v1.StationService/"
 	instructorSvc = "/fluxroom.v1.InstructorService/"
+	staffSvc      = "/fluxroom.v1.StaffService/"
 )
 
 // benchRequest is a station request naming its session and bench.
@@ -194,67 +204,175 @@ type benchRequest interface {
 	GetBenchId() uint64
 }
 
-// authorize decides whether the caller may make this call.
-func (s *Server) authorize(ctx context.Context, method string, req any) error {
+// sessionRequest is a request naming its session.
+type sessionRequest interface{ GetSessionId() uint64 }
+
+// staffRules is what each staff call that names a session asks of the
+// caller's role in the session's course. Calls missing here check in their
+// handlers (see the comment at the top of this file).
+var staffRules = map[string]domain.Action{
+	stationSvc + "SubmitReading":       domain.ActSubmit,
+	stationSvc + "GetBenchState":       domain.ActWatch,
+	instructorSvc + "SetBenches":       domain.ActSetUp,
+	instructorSvc + "GetBenchDetail":   domain.ActWatch,
+	instructorSvc + "UpdateSession":    domain.ActSetUp,
+	instructorSvc + "CloseSession":     domain.ActClose,
+	instructorSvc + "AddNote":          domain.ActNote,
+	instructorSvc + "AcknowledgeAlert": domain.ActNote,
+	instructorSvc + "SetGradingPolicy": domain.ActPolicy,
+	instructorSvc + "OverrideGrade":    domain.ActOverride,
+	instructorSvc + "Export":           domain.ActExport,
+	instructorSvc + "SetGroupMembers":  domain.ActMembers,
+}
+
+// keyCaller finds whose key tok is: the administrator's, or a staff
+// account's (revoked ones too, so the refusal can say so).
+func (s *Server) keyCaller(tok string) (caller, bool) {
+	if tok == "" {
+		return caller{}, false
+	}
+	h := sha256.Sum256([]byte(tok))
+	if subtle.ConstantTimeCompare(h[:], s.auth.keyHash) == 1 {
+		return caller{admin: true}, true
+	}
+	st, ok := s.staff.lookup(h)
+	return caller{staff: st}, ok
+}
+
+// authorize decides whether the caller may make this call. A staff call
+// gets its caller in the returned context.
+func (s *Server) authorize(ctx context.Context, method string, req any) (context.Context, error) {
 	tok := bearerOf(ctx)
 	switch {
 	case method == stationSvc+"JoinBench" || method == stationSvc+"ListExperiments":
-		return nil
+		return ctx, nil
 	case strings.HasPrefix(method, "/grpc.health.") || strings.HasPrefix(method, "/grpc.reflection."):
-		return nil
-	case strings.HasPrefix(method, instructorSvc):
-		if !s.auth.isInstructor(tok) {
-			return status.Error(codes.Unauthenticated, "this call needs the instructor key (authorization: Bearer <key>)")
-		}
-		return nil
+		return ctx, nil
+	case strings.HasPrefix(method, instructorSvc) || strings.HasPrefix(method, staffSvc):
+		return s.authorizeStaff(ctx, tok, method, req)
 	case strings.HasPrefix(method, stationSvc):
 		if tok == "" {
-			return status.Error(codes.Unauthenticated, "this call needs the station token from JoinBench (authorization: Bearer <token>)")
+			return ctx, status.Error(codes.Unauthenticated, "this call needs the station token from JoinBench (authorization: Bearer <token>)")
 		}
 		// The station token first: a station's call then costs no hash of
-		// the instructor key, which cannot pass for a signed token.
+		// a key, which cannot pass for a signed token.
 		sid, bid, ok := s.auth.parseStationToken(tok)
 		if !ok {
-			if s.auth.isInstructor(tok) {
-				return nil
+			if _, known := s.keyCaller(tok); known {
+				return s.authorizeStaff(ctx, tok, method, req)
 			}
-			return status.Error(codes.Unauthenticated, "the station token is not valid; join the bench again")
+			return ctx, status.Error(codes.Unauthenticated, "the station token is not valid; join the bench again")
 		}
 		br, ok := req.(benchRequest)
 		if !ok || br.GetSessionId() != sid || br.GetBenchId() != bid {
-			return status.Error(codes.PermissionDenied, "a station may only use its own bench")
+			return ctx, status.Error(codes.PermissionDenied, "a station may only use its own bench")
 		}
 		closed, err := s.sessionClosed(sid)
 		if err != nil {
 			if errors.Is(err, store.ErrNotFound) {
-				return status.Error(codes.PermissionDenied, "the session of this token is gone")
+				return ctx, status.Error(codes.PermissionDenied, "the session of this token is gone")
 			}
-			return err
+			return ctx, err
 		}
 		if closed {
-			return status.Error(codes.PermissionDenied, "the session is closed")
+			return ctx, status.Error(codes.PermissionDenied, "the session is closed")
 		}
 		if method == stationSvc+"SubmitReading" && !s.auth.admit(ctx, sid, bid) {
 			s.metrics.rateLimited.Add(1)
-			return status.Error(codes.ResourceExhausted, "too many readings from this bench; wait a moment and send again")
+			return ctx, status.Error(codes.ResourceExhausted, "too many readings from this bench; wait a moment and send again")
 		}
+		return ctx, nil
+	}
+	return ctx, status.Error(codes.PermissionDenied, "unknown method")
+}
+
+// authorizeStaff checks a staff call: a known key that is not revoked, and
+// for a call that names a session, the caller's role in its course.
+func (s *Server) authorizeStaff(ctx context.Context, tok, method string, req any) (context.Context, error) {
+	c, ok := s.keyCaller(tok)
+	if !ok {
+		return ctx, status.Error(codes.Unauthenticated, "this call needs a staff key or the administrator's key (authorization: Bearer <key>)")
+	}
+	if !c.admin && c.staff.Revoked {
+		return ctx, status.Errorf(codes.Unauthenticated, "the key of %s has been revoked; ask your course's instructor or the administrator for a new one", c.staff.Name)
+	}
+	if act, ok := staffRules[method]; ok && !c.admin {
+		sr, _ := req.(sessionRequest)
+		if err := s.mayInSession(c, act, sr.GetSessionId()); err != nil {
+			return ctx, err
+		}
+	}
+	return context.WithValue(ctx, callerKey{}, c), nil
+}
+
+// mayInSession checks the caller's role in a session's course. A session
+// that does not exist is left to the handler, which says so by field.
+func (s *Server) mayInSession(c caller, act domain.Action, sessionID uint64) error {
+	if c.admin {
 		return nil
 	}
-	return status.Error(codes.PermissionDenied, "unknown method")
+	course, err := s.courseOf(sessionID)
+	if errors.Is(err, store.ErrNotFound) {
+		return nil
+	}
+	if err != nil {
+		return err
+	}
+	return c.allows(act, course)
+}
+
+// courseOf returns a session's course. A session's course never changes,
+// so the answer is remembered.
+func (s *Server) courseOf(sessionID uint64) (string, error) {
+	if v, ok := s.courses.Load(sessionID); ok {
+		return v.(string), nil
+	}
+	sess, err := s.db.Session(sessionID)
+	if err != nil {
+		return "", err
+	}
+	s.courses.Store(sessionID, sess.Course)
+	return sess.Course, nil
 }
 
 func (s *Server) unaryAuth(ctx context.Context, req any, info *grpc.UnaryServerInfo, handler grpc.UnaryHandler) (any, error) {
-	if err := s.authorize(ctx, info.FullMethod, req); err != nil {
+	ctx, err := s.authorize(ctx, info.FullMethod, req)
+	if err != nil {
 		return nil, err
 	}
 	return handler(ctx, req)
 }
 
+// streamAuth authorizes a stream; a staff account's stream ends at once
+// when its key is revoked or replaced.
 func (s *Server) streamAuth(srv any, ss grpc.ServerStream, info *grpc.StreamServerInfo, handler grpc.StreamHandler) error {
-	if err := s.authorize(ss.Context(), info.FullMethod, nil); err != nil {
+	ctx, err := s.authorize(ss.Context(), info.FullMethod, nil)
+	if err != nil {
 		return err
 	}
-	return handler(srv, ss)
+	if c, ok := callerOf(ctx); ok && !c.admin {
+		var stop func()
+		ctx, stop = s.staff.watch(ctx, c.staff.ID)
+		defer stop()
+	}
+	return handler(srv, ctxStream{ServerStream: ss, ctx: ctx})
+}
+
+// ctxStream is a stream with the context authorize made.
+type ctxStream struct {
+	grpc.ServerStream
+	ctx context.Context
+}
+
+func (c ctxStream) Context() context.Context { return c.ctx }
+
+// streamEnded is why a stream's context ended: a revoked key's reason, or
+// the context's own error.
+func streamEnded(ctx context.Context) error {
+	if c := context.Cause(ctx); c != nil && status.Code(c) != codes.Unknown {
+		return c
+	}
+	return ctx.Err()
 }
 
 // stationRateDefault lets a bench send 5 readings a second with bursts of

@@ -3,7 +3,9 @@ package server
 import (
 	"context"
 	"fmt"
+	"maps"
 	"net"
+	"slices"
 	"sync"
 	"sync/atomic"
 	"testing"
@@ -19,14 +21,55 @@ import (
 	"example.com/fluxroom/proto/rpcpb"
 )
 
-// TestAuthorizationMatrix calls every RPC as every role: no credential, a
-// forged token, the instructor, a station on its own bench and a station on
-// another bench; then again after the session is closed.
+// addStaff creates a staff account with the administrator's key and
+// returns its id and key.
+func addStaff(t *testing.T, r *rig, name string, roles map[string]pb.StaffRole) (uint64, string) {
+	t.Helper()
+	req := &pb.AddStaffRequest{Name: name}
+	for _, c := range slices.Sorted(maps.Keys(roles)) {
+		req.Roles = append(req.Roles, &pb.CourseRole{Course: c, Role: roles[c]})
+	}
+	res, err := rpcpb.NewStaffServiceClient(r.conn).AddStaff(context.Background(), req)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return res.Staff.StaffId, res.Key
+}
+
+// dialAs is a connection that sends tok with every call.
+func dialAs(t *testing.T, r *rig, tok string) *grpc.ClientConn {
+	t.Helper()
+	c, err := grpc.NewClient(r.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(tok)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { c.Close() })
+	return c
+}
+
+const (
+	instructor = pb.StaffRole_STAFF_ROLE_INSTRUCTOR
+	assistant  = pb.StaffRole_STAFF_ROLE_ASSISTANT
+)
+
+// TestAuthorizationMatrix calls every RPC as every kind of caller: no
+// credential, a forged token, the administrator, an instructor and an
+// assistant of the session's course and of another course, a revoked
+// assistant, a station on its own bench and one on another bench; then
+// again after the session is closed.
 func TestAuthorizationMatrix(t *testing.T) {
 	r := startRig(t)
 	ctx := context.Background()
 	sess, benches := setupRoom(t, r)
-	sid, own, other := sess.SessionId, benches[0].BenchId, benches[1].BenchId
+	sid, own, course := sess.SessionId, benches[0].BenchId, sess.Course
+	// A session of the same course to close, and one of another course.
+	toClose, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "to close", Course: course})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "other", Course: "PHY 118"}); err != nil {
+		t.Fatal(err)
+	}
 	join := func(label string) string {
 		res, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: label})
 		if err != nil {
@@ -35,140 +78,182 @@ func TestAuthorizationMatrix(t *testing.T) {
 		return res.StationToken
 	}
 	ownTok, otherTok := join("A1"), join("A2")
-	_ = other
-	conns := map[string]*grpc.ClientConn{}
-	dial := func(role, tok string) {
-		c, err := grpc.NewClient(r.addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(tok)))
-		if err != nil {
-			t.Fatal(err)
-		}
-		t.Cleanup(func() { c.Close() })
-		conns[role] = c
+	_, instrKey := addStaff(t, r, "Rosalind Achterberg", map[string]pb.StaffRole{course: instructor})
+	_, asstKey := addStaff(t, r, "Teo Vasquez-Lind", map[string]pb.StaffRole{course: assistant})
+	_, instrOther := addStaff(t, r, "Ilse Marchetti", map[string]pb.StaffRole{"PHY 118": instructor})
+	_, asstOther := addStaff(t, r, "Kwame Desrosiers", map[string]pb.StaffRole{"PHY 118": assistant})
+	revokedID, revokedKey := addStaff(t, r, "Pavla Oyelaran", map[string]pb.StaffRole{course: assistant})
+	spareID, _ := addStaff(t, r, "Yusuf Lindqvist", map[string]pb.StaffRole{course: assistant})
+	if _, err := rpcpb.NewStaffServiceClient(r.conn).RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: revokedID}); err != nil {
+		t.Fatal(err)
 	}
-	dial("none", "")
-	dial("forged", ownTok[:len(ownTok)-2]+"xx")
-	dial("instructor", testKey)
-	dial("station-own", ownTok)
-	dial("station-other", otherTok) // a valid token, but for A2, calling as A1
+	roles := []string{"none", "forged", "admin", "instructor", "assistant", "instructor-other", "assistant-other", "revoked", "station-own", "station-other"}
+	conns := map[string]*grpc.ClientConn{}
+	for role, tok := range map[string]string{"none": "", "forged": ownTok[:len(ownTok)-2] + "xx", "admin": testKey,
+		"instructor": instrKey, "assistant": asstKey, "instructor-other": instrOther, "assistant-other": asstOther,
+		"revoked": revokedKey, "station-own": ownTok, "station-other": otherTok} {
+		conns[role] = dialAs(t, r, tok)
+	}
 
 	values := map[string]*pb.Quantity{"current": q(1, "A"), "force": q(0.48, "N")}
 	n := 0
+	// A call's expected answer for each caller, where it is not denied by
+	// default: "ok", or the code. Stations and the callers with no valid
+	// key are Unauthenticated on every staff call; staff of another course
+	// PermissionDenied on a session of this one.
 	type call struct {
 		name string
 		do   func(c *grpc.ClientConn) error
-		// station: the call is a station's, on bench A1.
-		station, public bool
+		want map[string]string
+	}
+	const ok, denied, unauth = "ok", "PermissionDenied", "Unauthenticated"
+	public := map[string]string{"none": ok, "forged": ok, "admin": ok, "instructor": ok, "assistant": ok, "instructor-other": ok,
+		"assistant-other": ok, "revoked": ok, "station-own": ok, "station-other": ok}
+	station := func(assistantToo bool) map[string]string {
+		m := map[string]string{"admin": ok, "instructor": ok, "assistant": denied, "station-own": ok, "station-other": denied}
+		if assistantToo {
+			m["assistant"] = ok
+		}
+		return m
+	}
+	both := map[string]string{"admin": ok, "instructor": ok, "assistant": ok}
+	instructorOnly := map[string]string{"admin": ok, "instructor": ok, "assistant": denied}
+	anyStaff := map[string]string{"admin": ok, "instructor": ok, "assistant": ok, "instructor-other": ok, "assistant-other": ok}
+	st := func(f func(rpcpb.StationServiceClient) error) func(*grpc.ClientConn) error {
+		return func(c *grpc.ClientConn) error { return f(rpcpb.NewStationServiceClient(c)) }
+	}
+	in := func(f func(rpcpb.InstructorServiceClient) error) func(*grpc.ClientConn) error {
+		return func(c *grpc.ClientConn) error { return f(rpcpb.NewInstructorServiceClient(c)) }
+	}
+	sf := func(f func(rpcpb.StaffServiceClient) error) func(*grpc.ClientConn) error {
+		return func(c *grpc.ClientConn) error { return f(rpcpb.NewStaffServiceClient(c)) }
 	}
 	calls := []call{
-		{"JoinBench", func(c *grpc.ClientConn) error {
-			_, err := rpcpb.NewStationServiceClient(c).JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: "A1"})
+		{"JoinBench", st(func(c rpcpb.StationServiceClient) error {
+			_, err := c.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: "A1"})
 			return err
-		}, false, true},
-		{"ListExperiments", func(c *grpc.ClientConn) error {
-			_, err := rpcpb.NewStationServiceClient(c).ListExperiments(ctx, &pb.ListExperimentsRequest{})
+		}), public},
+		{"ListExperiments", st(func(c rpcpb.StationServiceClient) error {
+			_, err := c.ListExperiments(ctx, &pb.ListExperimentsRequest{})
 			return err
-		}, false, true},
-		{"SubmitReading", func(c *grpc.ClientConn) error {
+		}), public},
+		{"SubmitReading", st(func(c rpcpb.StationServiceClient) error {
 			n++
-			_, err := rpcpb.NewStationServiceClient(c).SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: own,
+			_, err := c.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: own,
 				ReadingId: "m" + string(rune('a'+n%26)) + string(rune('a'+n/26)), Values: values})
 			return err
-		}, true, false},
-		{"GetBenchState", func(c *grpc.ClientConn) error {
-			_, err := rpcpb.NewStationServiceClient(c).GetBenchState(ctx, &pb.GetBenchStateRequest{SessionId: sid, BenchId: own})
+		}), station(false)},
+		{"GetBenchState", st(func(c rpcpb.StationServiceClient) error {
+			_, err := c.GetBenchState(ctx, &pb.GetBenchStateRequest{SessionId: sid, BenchId: own})
 			return err
-		}, true, false},
-	}
-	in := func(name string, f func(rpcpb.InstructorServiceClient) error) call {
-		return call{name: name, do: func(c *grpc.ClientConn) error { return f(rpcpb.NewInstructorServiceClient(c)) }}
-	}
-	calls = append(calls,
-		in("CreateSession", func(c rpcpb.InstructorServiceClient) error {
-			_, err := c.CreateSession(ctx, &pb.CreateSessionRequest{Title: "x"})
+		}), station(true)},
+		{"CreateSession", in(func(c rpcpb.InstructorServiceClient) error {
+			_, err := c.CreateSession(ctx, &pb.CreateSessionRequest{Title: "x", Course: course})
 			return err
-		}),
-		in("ListSessions", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		{"ListSessions", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.ListSessions(ctx, &pb.ListSessionsRequest{})
 			return err
-		}),
-		in("SetBenches", func(c rpcpb.InstructorServiceClient) error {
+		}), anyStaff},
+		{"SetBenches", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sid})
 			return err
-		}),
-		in("WatchRoom", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		{"WatchRoom", in(func(c rpcpb.InstructorServiceClient) error {
 			s, err := c.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sid})
 			if err != nil {
 				return err
 			}
 			_, err = s.Recv()
 			return err
-		}),
-		in("GetBenchDetail", func(c rpcpb.InstructorServiceClient) error {
+		}), both},
+		{"GetBenchDetail", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.GetBenchDetail(ctx, &pb.GetBenchDetailRequest{SessionId: sid, BenchId: own})
 			return err
-		}),
-		in("UpdateSession", func(c rpcpb.InstructorServiceClient) error {
+		}), both},
+		{"UpdateSession", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.UpdateSession(ctx, &pb.UpdateSessionRequest{SessionId: sid})
 			return err
-		}),
-		in("AddNote", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		{"AddNote", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.AddNote(ctx, &pb.AddNoteRequest{SessionId: sid, BenchId: own, Text: "n"})
 			return err
-		}),
-		in("AcknowledgeAlert", func(c rpcpb.InstructorServiceClient) error {
+		}), both},
+		{"AcknowledgeAlert", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.AcknowledgeAlert(ctx, &pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: own})
 			return err
-		}),
-		in("SetGradingPolicy", func(c rpcpb.InstructorServiceClient) error {
+		}), both},
+		{"SetGradingPolicy", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.SetGradingPolicy(ctx, &pb.SetGradingPolicyRequest{SessionId: sid})
 			return err
-		}),
-		in("OverrideGrade", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		{"OverrideGrade", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.OverrideGrade(ctx, &pb.OverrideGradeRequest{SessionId: sid, BenchId: own, Points: 1, Reason: "r"})
 			return err
-		}),
-		in("Backup", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		// An instructor of another course backs up that course: allowed,
+		// and TestStaffScope checks what the copy holds.
+		{"Backup", in(func(c rpcpb.InstructorServiceClient) error {
 			s, err := c.Backup(ctx, &pb.BackupRequest{})
 			if err != nil {
 				return err
 			}
 			_, err = s.Recv()
 			return err
-		}),
-		in("CloseSession", func(c rpcpb.InstructorServiceClient) error {
-			_, err := c.CloseSession(ctx, &pb.CloseSessionRequest{SessionId: 999})
+		}), map[string]string{"admin": ok, "instructor": ok, "assistant": denied, "instructor-other": ok}},
+		{"CloseSession", in(func(c rpcpb.InstructorServiceClient) error {
+			_, err := c.CloseSession(ctx, &pb.CloseSessionRequest{SessionId: toClose.Session.SessionId})
 			return err
-		}),
-		in("Export", func(c rpcpb.InstructorServiceClient) error {
+		}), instructorOnly},
+		{"Export", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.Export(ctx, &pb.ExportRequest{SessionId: sid, Format: pb.ExportFormat_EXPORT_FORMAT_JSON})
 			return err
-		}),
-		in("SetGroupMembers", func(c rpcpb.InstructorServiceClient) error {
+		}), both},
+		{"SetGroupMembers", in(func(c rpcpb.InstructorServiceClient) error {
 			_, err := c.SetGroupMembers(ctx, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: own, Members: "Ines, Oren"})
 			return err
-		}),
-	)
-	denied := func(code codes.Code) bool { return code == codes.Unauthenticated || code == codes.PermissionDenied }
+		}), both},
+		{"AddStaff", sf(func(c rpcpb.StaffServiceClient) error {
+			n++
+			_, err := c.AddStaff(ctx, &pb.AddStaffRequest{Name: fmt.Sprintf("Helper %d", n), Roles: []*pb.CourseRole{{Course: course, Role: assistant}}})
+			return err
+		}), instructorOnly},
+		{"ListStaff", sf(func(c rpcpb.StaffServiceClient) error {
+			_, err := c.ListStaff(ctx, &pb.ListStaffRequest{})
+			return err
+		}), map[string]string{"admin": ok, "instructor": ok, "assistant": denied, "instructor-other": ok}},
+		{"RotateStaffKey", sf(func(c rpcpb.StaffServiceClient) error {
+			_, err := c.RotateStaffKey(ctx, &pb.RotateStaffKeyRequest{StaffId: spareID})
+			return err
+		}), instructorOnly},
+		{"RevokeStaff", sf(func(c rpcpb.StaffServiceClient) error {
+			_, err := c.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: spareID})
+			return err
+		}), instructorOnly},
+		{"WhoAmI", sf(func(c rpcpb.StaffServiceClient) error {
+			_, err := c.WhoAmI(ctx, &pb.WhoAmIRequest{})
+			return err
+		}), anyStaff},
+	}
 	cells := 0
 	for _, c := range calls {
-		for _, role := range []string{"none", "forged", "instructor", "station-own", "station-other"} {
+		for _, role := range roles {
 			cells++
-			code := status.Code(c.do(conns[role]))
-			var want string
-			switch {
-			case c.public:
-				want = "allowed"
-			case role == "instructor":
-				want = "allowed"
-			case c.station && role == "station-own":
-				want = "allowed"
-			case c.station && role == "station-other":
-				want = "PermissionDenied"
-			default:
-				want = "Unauthenticated"
+			want, set := c.want[role]
+			if !set {
+				switch role {
+				case "instructor-other", "assistant-other":
+					want = denied
+				default:
+					want = unauth
+				}
 			}
-			ok := want == "allowed" && !denied(code) || want == code.String()
-			if !ok {
+			code := status.Code(c.do(conns[role]))
+			got := code.String()
+			if code != codes.Unauthenticated && code != codes.PermissionDenied {
+				got = ok // allowed: the call ran, whatever it then answered
+			}
+			if got != want {
 				t.Errorf("%s as %s: %v, want %s", c.name, role, code, want)
 			}
 		}
@@ -184,16 +269,16 @@ func TestAuthorizationMatrix(t *testing.T) {
 	if err := calls[0].do(conns["none"]); !contains(fieldsOf(t, err), "join_code") {
 		t.Errorf("JoinBench on a closed session: %v, want a join_code violation", err)
 	}
-	if code := status.Code(calls[2].do(conns["instructor"])); code != codes.FailedPrecondition {
-		t.Errorf("SubmitReading on a closed session as the instructor: %v, want FailedPrecondition", code)
+	if code := status.Code(calls[2].do(conns["admin"])); code != codes.FailedPrecondition {
+		t.Errorf("SubmitReading on a closed session as the administrator: %v, want FailedPrecondition", code)
 	}
-	t.Logf("authorization matrix: %d cells (%d RPCs × 5 roles, plus 3 on a closed session)", cells, len(calls))
+	t.Logf("authorization matrix: %d cells (%d RPCs × %d callers, plus 3 on a closed session)", cells, len(calls), len(roles))
 }
 
 // TestGeneratedKeyIsShownOnceAndStoredHashed: with no key given, the first
 // start makes one; the file holds only its hash, and a restart shows none.
 func TestGeneratedKeyIsShownOnceAndStoredHashed(t *testing.T) {
-	r := startRigWith(t, Config{InstructorKey: "k-1"})
+	r := startRigWith(t, Config{AdminKey: "k-1"})
 	hash, _, err := r.db.Credentials(func() []byte { return nil })
 	if err != nil || string(hash) == "k-1" || len(hash) != 32 {
 		t.Errorf("stored %q, %v; want a 32-byte hash, never the key", hash, err)
@@ -203,7 +288,7 @@ func TestGeneratedKeyIsShownOnceAndStoredHashed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if srv.ShownKey() != "" || !srv.auth.isInstructor("k-1") {
+	if srv.ShownKey() != "" || !srv.auth.isAdmin("k-1") {
 		t.Errorf("a restart showed a key (%q) or lost the stored one", srv.ShownKey())
 	}
 	_ = net.IPv4len

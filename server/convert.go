@@ -17,7 +17,7 @@ func toleranceFromPB(t *pb.Tolerance) domain.Tolerance {
 func sessionToPB(s domain.Session) *pb.Session {
 	t := s.EffectiveTolerance()
 	out := &pb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, StationsSeeVerdicts: s.StationsSeeVerdicts,
-		GradingPolicyJson: s.GradingPolicy, Closed: s.Closed,
+		GradingPolicyJson: s.GradingPolicy, Closed: s.Closed, Course: s.Course,
 		Tolerance: &pb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent}}
 	if !s.CreatedAt.IsZero() {
 		out.CreatedAt = timestamppb.New(s.CreatedAt)

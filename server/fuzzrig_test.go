@@ -32,7 +32,7 @@ func fuzzRig(t *testing.T) *fuzzState {
 		if err != nil {
 			panic(err)
 		}
-		srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), InstructorKey: testKey})
+		srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), AdminKey: testKey})
 		if err != nil {
 			panic(err)
 		}

@@ -6,6 +6,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"sort"
 	"strings"
 	"unicode"
@@ -26,19 +27,41 @@ type instructorService struct {
 	s *Server
 }
 
-// CreateSession opens a lab section with its title, tolerance and whether stations see their verdicts,
-// and makes its join code.
+// CreateSession opens a lab section of a course with its title, tolerance and whether stations see
+// their verdicts, and makes its join code. An instructor of one course may leave the course out; the
+// administrator's key defaults it to the title.
 func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSessionRequest) (*pb.CreateSessionResponse, error) {
+	c, _ := callerOf(ctx)
 	title := strings.TrimSpace(req.GetTitle())
 	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) || strings.ContainsFunc(title, unicode.IsControl) {
 		return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
+	}
+	course := strings.TrimSpace(req.GetCourse())
+	if course == "" {
+		mine, all := c.courses(domain.ActSetUp)
+		switch {
+		case all:
+			course = title
+		case len(mine) == 1:
+			course = mine[0]
+		case len(mine) == 0:
+			return nil, status.Errorf(codes.PermissionDenied, "%s is an instructor of no course, and only instructors may %s", c.name(), domain.ActSetUp)
+		default:
+			return nil, domain.Invalid("course", "name the course: %s instructs %s", c.name(), strings.Join(mine, ", "))
+		}
+	}
+	if err := domain.ValidateCourse("course", course); err != nil {
+		return nil, err
+	}
+	if err := c.allows(domain.ActSetUp, course); err != nil {
+		return nil, err
 	}
 	tol := toleranceFromPB(req.GetTolerance())
 	if err := domain.ValidateTolerance("tolerance", tol); err != nil {
 		return nil, err
 	}
 	for range 5 {
-		s, err := in.s.db.CreateSession(domain.Session{Title: title, JoinCode: newJoinCode(), CreatedAt: in.s.now(),
+		s, err := in.s.db.CreateSession(domain.Session{Title: title, Course: course, JoinCode: newJoinCode(), CreatedAt: in.s.now(),
 			Tolerance: tol, StationsSeeVerdicts: req.GetStationsSeeVerdicts()})
 		if errors.Is(err, store.ErrConflict) {
 			continue // a join code clash: draw another
@@ -46,20 +69,26 @@ func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSes
 		if err != nil {
 			return nil, err
 		}
+		if err := in.s.audit(ctx, s.ID, 0, domain.NoteKindSessionEdited, fmt.Sprintf("created the session %q in course %q", s.Title, s.Course)); err != nil {
+			return nil, err
+		}
 		return &pb.CreateSessionResponse{Session: sessionToPB(s)}, nil
 	}
 	return nil, errors.New("server: no free join code after 5 draws")
 }
 
-// ListSessions lists every session on the server.
+// ListSessions lists the sessions of the caller's courses (every session for the administrator).
 func (in instructorService) ListSessions(ctx context.Context, req *pb.ListSessionsRequest) (*pb.ListSessionsResponse, error) {
+	c, _ := callerOf(ctx)
 	ss, err := in.s.db.Sessions()
 	if err != nil {
 		return nil, err
 	}
 	out := &pb.ListSessionsResponse{}
 	for _, s := range ss {
-		out.Sessions = append(out.Sessions, sessionToPB(s))
+		if c.allows(domain.ActWatch, s.Course) == nil {
+			out.Sessions = append(out.Sessions, sessionToPB(s))
+		}
 	}
 	return out, nil
 }
@@ -122,6 +151,13 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 		return nil, err
 	}
 	sortBenches(all)
+	set := make([]string, 0, len(benches))
+	for _, b := range benches {
+		set = append(set, b.Label)
+	}
+	if err := in.s.audit(ctx, req.GetSessionId(), 0, domain.NoteKindBenchesSet, fmt.Sprintf("set up %d bench(es): %s", len(benches), strings.Join(set, ", "))); err != nil {
+		return nil, err
+	}
 	out := &pb.SetBenchesResponse{}
 	for _, b := range all {
 		out.Benches = append(out.Benches, benchToPB(b))
@@ -144,6 +180,12 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	if err != nil {
 		return err
 	}
+	// A stream's request arrives after authorize ran: its course is
+	// checked here.
+	c, _ := callerOf(stream.Context())
+	if err := c.allows(domain.ActWatch, sess.Course); err != nil {
+		return err
+	}
 	// Subscribe before the snapshot so no change between the two is missed;
 	// a change already in the snapshot may arrive again, which is harmless.
 	w := s.hub.subscribe(id)
@@ -159,7 +201,7 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	for {
 		select {
 		case <-stream.Context().Done():
-			return stream.Context().Err()
+			return streamEnded(stream.Context())
 		case <-w.gone:
 			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
 		case <-w.ready:
@@ -222,6 +264,11 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 	if err != nil {
 		return nil, err
 	}
+	t := sess.EffectiveTolerance()
+	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindSessionEdited, fmt.Sprintf("title %q; tolerance |z| ≤ %g consistent, > %g off, %g %% good, %g %% acceptable; stations see verdicts: %v",
+		sess.Title, t.ZConsistent, t.ZOff, t.GoodPercent, t.AcceptablePercent, sess.StationsSeeVerdicts)); err != nil {
+		return nil, err
+	}
 	if err := in.s.rejudgeRoom(sess.ID); err != nil {
 		return nil, err
 	}
@@ -239,6 +286,13 @@ func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGra
 	}
 	sess.GradingPolicy = strings.TrimSpace(req.GetPolicyJson())
 	if sess, err = in.s.db.UpdateSession(sess); err != nil {
+		return nil, err
+	}
+	what := "set the default grading policy"
+	if p, err := export.ParsePolicy([]byte(sess.GradingPolicy)); err == nil && sess.GradingPolicy != "" {
+		what = fmt.Sprintf("set the grading policy %q", p.Name)
+	}
+	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindPolicySet, what); err != nil {
 		return nil, err
 	}
 	// A quiet bench is done or stalled by the policy's required readings.
@@ -265,13 +319,13 @@ func (in instructorService) OverrideGrade(ctx context.Context, req *pb.OverrideG
 		return nil, domain.Invalid("bench_id", "no bench %d in session %d", req.GetBenchId(), req.GetSessionId())
 	}
 	o := domain.Override{BenchID: req.GetBenchId(), Points: req.GetPoints(), Reason: strings.TrimSpace(req.GetReason()),
-		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now(), Previous: row.Grade.Final}
+		At: in.s.now(), Previous: row.Grade.Final}
 	if err := domain.ValidateOverride(o, row.Grade.Max); err != nil {
 		return nil, err
 	}
-	n := domain.Note{BenchID: o.BenchID, Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At,
+	n := domain.Note{BenchID: o.BenchID, Kind: domain.NoteKindGradeOverride, Text: o.Reason, At: o.At,
 		Points: o.Points, PreviousPoints: o.Previous}
-	note, err := in.s.note(req.GetSessionId(), n)
+	note, err := in.s.note(ctx, req.GetSessionId(), n)
 	if err != nil {
 		return nil, err
 	}
@@ -326,11 +380,34 @@ func (c *chunkWriter) Write(p []byte) (int, error) {
 	return len(p), nil
 }
 
-// Backup streams a consistent copy of the whole database file.
+// Backup streams a consistent copy of the database file: the whole file for the administrator, a
+// file of only their courses' sessions for an instructor.
 func (in instructorService) Backup(req *pb.BackupRequest, stream rpcpb.InstructorService_BackupServer) error {
+	c, _ := callerOf(stream.Context())
 	w := &chunkWriter{stream: stream, first: true}
 	bw := bufio.NewWriterSize(w, 256<<10)
-	if _, err := in.s.db.Backup(bw, func(n int64) { w.total = n }); err != nil {
+	size := func(n int64) { w.total = n }
+	mine, all := c.courses(domain.ActBackup)
+	if all {
+		if _, err := in.s.db.Backup(bw, size); err != nil {
+			return err
+		}
+		return bw.Flush()
+	}
+	if len(mine) == 0 {
+		return status.Errorf(codes.PermissionDenied, "%s is an instructor of no course, and only instructors and the administrator may %s", c.name(), domain.ActBackup)
+	}
+	ss, err := in.s.db.Sessions()
+	if err != nil {
+		return err
+	}
+	var ids []uint64
+	for _, s := range ss {
+		if slices.Contains(mine, s.Course) {
+			ids = append(ids, s.ID)
+		}
+	}
+	if _, err := in.s.db.BackupSessions(bw, ids, size); err != nil {
 		return err
 	}
 	return bw.Flush()
@@ -360,15 +437,17 @@ func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessi
 	if sess, err = in.s.db.UpdateSession(sess); err != nil {
 		return nil, err
 	}
+	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindClosed, "closed the session"); err != nil {
+		return nil, err
+	}
 	in.s.closed.Store(sess.ID, true)
 	return &pb.CloseSessionResponse{Session: sessionToPB(sess)}, nil
 }
 
 // AddNote adds an instructor's timestamped note to a bench.
 func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest) (*pb.AddNoteResponse, error) {
-	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindNote, Text: strings.TrimSpace(req.GetText()),
-		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}
-	note, err := in.s.note(req.GetSessionId(), n)
+	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindNote, Text: strings.TrimSpace(req.GetText()), At: in.s.now()}
+	note, err := in.s.note(ctx, req.GetSessionId(), n)
 	if err != nil {
 		return nil, err
 	}
@@ -377,9 +456,8 @@ func (in instructorService) AddNote(ctx context.Context, req *pb.AddNoteRequest)
 
 // AcknowledgeAlert records that an instructor saw a bench's unsafe alert, as a note by its author.
 func (in instructorService) AcknowledgeAlert(ctx context.Context, req *pb.AcknowledgeAlertRequest) (*pb.AcknowledgeAlertResponse, error) {
-	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindAcknowledged, Text: "unsafe alert acknowledged",
-		Author: strings.TrimSpace(req.GetAuthor()), At: in.s.now()}
-	note, err := in.s.note(req.GetSessionId(), n)
+	n := domain.Note{BenchID: req.GetBenchId(), Kind: domain.NoteKindAcknowledged, Text: "unsafe alert acknowledged", At: in.s.now()}
+	note, err := in.s.note(ctx, req.GetSessionId(), n)
 	if err != nil {
 		return nil, err
 	}
@@ -399,6 +477,9 @@ func (in instructorService) SetGroupMembers(ctx context.Context, req *pb.SetGrou
 		return nil, err
 	}
 	if err := in.s.setMembers(req.GetSessionId(), b.ID, members); err != nil {
+		return nil, err
+	}
+	if err := in.s.audit(ctx, req.GetSessionId(), b.ID, domain.NoteKindMembersSet, fmt.Sprintf("group members: %q", members)); err != nil {
 		return nil, err
 	}
 	b.Members = members

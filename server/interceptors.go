@@ -14,13 +14,13 @@ import (
 	"google.golang.org/grpc/status"
 )
 
-// instructorOnly lets through HTTP requests that carry the instructor key
+// adminOnly lets through HTTP requests that carry the administrator's key
 // as a bearer token.
-func (s *Server) instructorOnly(h http.Handler) http.Handler {
+func (s *Server) adminOnly(h http.Handler) http.Handler {
 	return http.HandlerFunc(func(w http.ResponseWriter, r *http.Request) {
 		tok, _ := strings.CutPrefix(r.Header.Get("Authorization"), "Bearer ")
-		if !s.auth.isInstructor(strings.TrimSpace(tok)) {
-			http.Error(w, "this needs the instructor key (Authorization: Bearer <key>)", http.StatusUnauthorized)
+		if !s.auth.isAdmin(strings.TrimSpace(tok)) {
+			http.Error(w, "this needs the administrator's key (Authorization: Bearer <key>)", http.StatusUnauthorized)
 			return
 		}
 		h.ServeHTTP(w, r)

@@ -49,10 +49,10 @@ type Config struct {
 	// last reading: then it leaves the cache (and its judge stops) until
 	// someone needs it again. Default 10 minutes.
 	RoomIdle time.Duration
-	// InstructorKey, when set, is the instructor's credential (its hash is
+	// AdminKey, when set, is the administrator's credential (its hash is
 	// stored). When empty and none is stored, New makes one: ShownKey
 	// returns it, to be shown once.
-	InstructorKey string
+	AdminKey string
 	// StationRate and StationBurst limit each bench's readings per second;
 	// zero means the defaults (5/s, bursts of 20).
 	StationRate  float64
@@ -75,7 +75,11 @@ type Server struct {
 	hub   *hub
 	rooms rooms
 	// closed remembers which sessions are closed (session id → bool).
-	closed  sync.Map
+	closed sync.Map
+	// courses remembers each session's course (session id → string).
+	courses sync.Map
+	// staff holds the staff accounts' keys (staff.go).
+	staff   *staffKeys
 	auth    *auth
 	shown   string
 	metrics *metrics
@@ -160,11 +164,14 @@ func New(cfg Config) (*Server, error) {
 	if s.stallCheck == 0 {
 		s.stallCheck = min(15*time.Second, s.roomIdle/2)
 	}
-	a, shown, err := setUpAuth(cfg.DB, cfg.InstructorKey)
+	a, shown, err := setUpAuth(cfg.DB, cfg.AdminKey)
 	if err != nil {
 		return nil, err
 	}
 	s.auth, s.shown, s.metrics = a, shown, newMetrics()
+	if s.staff, err = loadStaffKeys(cfg.DB); err != nil {
+		return nil, err
+	}
 	cfg.DB.OnCommit(s.metrics.commit)
 	s.auth.rate, s.auth.burst = rate.Limit(stationRateDefault), stationBurstDefault
 	if cfg.StationRate > 0 {
@@ -207,10 +214,11 @@ func New(cfg Config) (*Server, error) {
 	)
 	rpcpb.RegisterStationServiceServer(s.grpc, stationService{s: s})
 	rpcpb.RegisterInstructorServiceServer(s.grpc, instructorService{s: s})
+	rpcpb.RegisterStaffServiceServer(s.grpc, staffService{s: s})
 	s.health = health.NewServer()
 	healthpb.RegisterHealthServer(s.grpc, s.health)
 	reflection.Register(s.grpc)
-	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName} {
+	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName, rpcpb.StaffService_ServiceDesc.ServiceName} {
 		s.health.SetServingStatus(name, healthpb.HealthCheckResponse_SERVING)
 	}
 
@@ -221,10 +229,10 @@ func New(cfg Config) (*Server, error) {
 	mux := http.NewServeMux()
 	mux.HandleFunc("/metrics", s.serveMetrics)
 	mux.HandleFunc("/join.png", s.serveJoinQR)
-	// The Go runtime's profiles, for the instructor key only: they show
+	// The Go runtime's profiles, for the administrator's key only: they show
 	// what the server spends its CPU and memory on.
-	mux.Handle("/debug/pprof/", s.instructorOnly(http.HandlerFunc(pprof.Index)))
-	mux.Handle("/debug/pprof/profile", s.instructorOnly(http.HandlerFunc(pprof.Profile)))
+	mux.Handle("/debug/pprof/", s.adminOnly(http.HandlerFunc(pprof.Index)))
+	mux.Handle("/debug/pprof/profile", s.adminOnly(http.HandlerFunc(pprof.Profile)))
 	mux.Handle("/", web)
 	web = mux
 	// The browser speaks gRPC-Web over HTTP/1.1; vanguard translates it to
@@ -377,12 +385,12 @@ func (s *Server) checkStore() {
 		s.log.Error("database does not answer", "err", err)
 		st = healthpb.HealthCheckResponse_NOT_SERVING
 	}
-	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName} {
+	for _, name := range []string{"", rpcpb.StationService_ServiceDesc.ServiceName, rpcpb.InstructorService_ServiceDesc.ServiceName, rpcpb.StaffService_ServiceDesc.ServiceName} {
 		s.health.SetServingStatus(name, st)
 	}
 }
 
-// ShownKey is the instructor key New made because none was stored or given;
+// ShownKey is the administrator's key New made because none was stored or given;
 // empty otherwise. Show it once: only its hash is kept.
 func (s *Server) ShownKey() string { return s.shown }
 

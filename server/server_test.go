@@ -28,7 +28,7 @@ import (
 	"example.com/fluxroom/store"
 )
 
-// testKey is the instructor key of the test servers.
+// testKey is the administrator's key of the test servers.
 const testKey = "test-instructor-key-0123456789"
 
 type rig struct {
@@ -38,6 +38,8 @@ type rig struct {
 	instructor rpcpb.InstructorServiceClient
 	health     healthpb.HealthClient
 	addr       string
+	// conn is the client's connection, with the administrator's key.
+	conn *grpc.ClientConn
 }
 
 // startRig runs a real Server on a loopback port with a bbolt file in a temp
@@ -72,8 +74,8 @@ func startRigPrepared(t testing.TB, cfg Config, prepare func(*Server)) *rig {
 	if cfg.Logger == nil {
 		cfg.Logger = slog.New(slog.NewTextHandler(io.Discard, nil))
 	}
-	if cfg.InstructorKey == "" {
-		cfg.InstructorKey = testKey
+	if cfg.AdminKey == "" {
+		cfg.AdminKey = testKey
 	}
 	srv, err := New(cfg)
 	if err != nil {
@@ -89,7 +91,7 @@ func startRigPrepared(t testing.TB, cfg Config, prepare func(*Server)) *rig {
 	served := make(chan error, 1)
 	go func() { served <- srv.Serve(l) }()
 	conn, err := grpc.NewClient(l.Addr().String(), grpc.WithTransportCredentials(insecure.NewCredentials()),
-		grpc.WithPerRPCCredentials(bearer.Token(cfg.InstructorKey)))
+		grpc.WithPerRPCCredentials(bearer.Token(cfg.AdminKey)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -107,7 +109,7 @@ func startRigPrepared(t testing.TB, cfg Config, prepare func(*Server)) *rig {
 		db.Close()
 	})
 	return &rig{db: db, station: rpcpb.NewStationServiceClient(conn), instructor: rpcpb.NewInstructorServiceClient(conn),
-		health: healthpb.NewHealthClient(conn), addr: l.Addr().String(), srv: srv}
+		health: healthpb.NewHealthClient(conn), addr: l.Addr().String(), srv: srv, conn: conn}
 }
 
 func q(v float64, unit string) *pb.Quantity { return &pb.Quantity{Value: v, Unit: unit} }
@@ -598,7 +600,7 @@ func TestShutdownWithIdleConnections(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer db.Close()
-	srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), InstructorKey: testKey})
+	srv, err := New(Config{DB: db, Logger: slog.New(slog.NewTextHandler(io.Discard, nil)), AdminKey: testKey})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,6 +1,7 @@
 package server
 
 import (
+	"context"
 	"errors"
 	"maps"
 	"slices"
@@ -88,10 +89,11 @@ func (s *Server) checkSupersedes(sessionID, benchID uint64, readingID, supersede
 
 // note stores an audit-log entry and republishes the bench, whose alert
 // state may have changed.
-func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
+func (s *Server) note(ctx context.Context, sessionID uint64, n domain.Note) (*pb.Note, error) {
 	if _, err := s.bench(sessionID, n.BenchID); err != nil {
 		return nil, err
 	}
+	n.Author, n.StaffID = author(ctx)
 	if err := domain.ValidateNote(n); err != nil {
 		return nil, err
 	}
@@ -102,6 +104,20 @@ func (s *Server) note(sessionID uint64, n domain.Note) (*pb.Note, error) {
 		return nil, err
 	}
 	return noteToPB(n), nil
+}
+
+// author is who the audit log names for a staff call: the person, or the
+// administrator.
+func author(ctx context.Context) (name string, staffID uint64) {
+	c, _ := callerOf(ctx)
+	return c.name(), c.staff.ID
+}
+
+// audit records a change of a session (benchID 0) or of one bench in the
+// session's audit log, by the caller.
+func (s *Server) audit(ctx context.Context, sessionID, benchID uint64, kind, text string) error {
+	name, id := author(ctx)
+	return s.db.AppendNote(sessionID, domain.Note{BenchID: benchID, Kind: kind, Text: text, Author: name, StaffID: id, At: s.now()})
 }
 
 // rejudgeRoom reads a session's room back from the file and judges every

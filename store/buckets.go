@@ -14,7 +14,9 @@ import (
 //	   readings_by_session: appended in order, so pages fill; no id index
 //	   in the file (the writer keeps it in memory, see ids.go). About half
 //	   the file per reading.
-const SchemaVersion = 2
+//	3: staff accounts in bucket staff; every session has a course (older
+//	   ones take their title); audit events name the staff account.
+const SchemaVersion = 3
 
 // Buckets. Every one is created when the file is opened.
 var (
@@ -31,13 +33,16 @@ var (
 	// bucketEvents: eventKey → recordpb.Event, a session's audit log of
 	// notes and acknowledged alerts. Append-only.
 	bucketEvents = []byte("events")
+	// bucketStaff: staffKey → recordpb.Staff, the people who hold keys.
+	bucketStaff = []byte("staff")
 
-	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketEvents}
+	allBuckets = [][]byte{bucketMeta, bucketSessions, bucketJoinCodes, bucketBenches, bucketReadings, bucketEvents, bucketStaff}
 
 	keySchemaVersion = []byte("schema_version")
-	// keyInstructorKeyHash holds SHA-256 of the instructor key; the key
-	// itself is never stored.
-	keyInstructorKeyHash = []byte("instructor_key_sha256")
+	// keyAdminKeyHash holds SHA-256 of the administrator's key (before
+	// schema 3, the one instructor key, which the upgrade keeps as the
+	// administrator's); the key itself is never stored.
+	keyAdminKeyHash = []byte("instructor_key_sha256")
 	// keyStationSecret holds the HMAC key that signs station tokens.
 	keyStationSecret = []byte("station_token_secret")
 )
@@ -93,6 +98,9 @@ func decodeReadingKey(k []byte) (sessionID, benchID, seq uint64, err error) {
 	}
 	return binary.BigEndian.Uint64(k[0:8]), binary.BigEndian.Uint64(k[16:24]), binary.BigEndian.Uint64(k[8:16]), nil
 }
+
+// staffKey is the staff id, 8 bytes big-endian.
+func staffKey(staffID uint64) []byte { return u64(staffID) }
 
 // eventKey is session id (0–7) | sequence (8–15), big-endian.
 func eventKey(sessionID, seq uint64) []byte {

@@ -44,24 +44,24 @@ func sessionRecord(s domain.Session) *recordpb.Session {
 	t := s.Tolerance
 	return &recordpb.Session{SessionId: s.ID, Title: s.Title, JoinCode: s.JoinCode, CreatedUnixNano: unixNano(s.CreatedAt),
 		Tolerance:           &recordpb.Tolerance{ZConsistent: t.ZConsistent, ZOff: t.ZOff, GoodPercent: t.GoodPercent, AcceptablePercent: t.AcceptablePercent},
-		StationsSeeVerdicts: s.StationsSeeVerdicts, GradingPolicyJson: s.GradingPolicy, Closed: s.Closed}
+		StationsSeeVerdicts: s.StationsSeeVerdicts, GradingPolicyJson: s.GradingPolicy, Closed: s.Closed, Course: s.Course}
 }
 
 func sessionFromRecord(r *recordpb.Session) domain.Session {
 	t := r.GetTolerance()
 	return domain.Session{ID: r.GetSessionId(), Title: r.GetTitle(), JoinCode: r.GetJoinCode(), CreatedAt: fromUnixNano(r.GetCreatedUnixNano()),
 		Tolerance:           domain.Tolerance{ZConsistent: t.GetZConsistent(), ZOff: t.GetZOff(), GoodPercent: t.GetGoodPercent(), AcceptablePercent: t.GetAcceptablePercent()},
-		StationsSeeVerdicts: r.GetStationsSeeVerdicts(), GradingPolicy: r.GetGradingPolicyJson(), Closed: r.GetClosed()}
+		StationsSeeVerdicts: r.GetStationsSeeVerdicts(), GradingPolicy: r.GetGradingPolicyJson(), Closed: r.GetClosed(), Course: r.GetCourse()}
 }
 
 func eventRecord(n domain.Note) *recordpb.Event {
 	return &recordpb.Event{BenchId: n.BenchID, Kind: n.Kind, Text: n.Text, Author: n.Author, AtUnixNano: unixNano(n.At),
-		Points: n.Points, PreviousPoints: n.PreviousPoints}
+		Points: n.Points, PreviousPoints: n.PreviousPoints, StaffId: n.StaffID}
 }
 
 func noteFromRecord(r *recordpb.Event) domain.Note {
 	return domain.Note{BenchID: r.GetBenchId(), Kind: r.GetKind(), Text: r.GetText(), Author: r.GetAuthor(), At: fromUnixNano(r.GetAtUnixNano()),
-		Points: r.GetPoints(), PreviousPoints: r.GetPreviousPoints()}
+		Points: r.GetPoints(), PreviousPoints: r.GetPreviousPoints(), StaffID: r.GetStaffId()}
 }
 
 func benchRecord(b domain.Bench) *recordpb.Bench {
@@ -82,4 +82,22 @@ func readingRecord(r domain.Reading) *recordpb.Reading {
 func readingFromRecord(r *recordpb.Reading) domain.Reading {
 	return domain.Reading{ID: r.GetReadingId(), Values: quantitiesFromRecord(r.GetValues()),
 		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence(), Supersedes: r.GetSupersedes()}
+}
+
+func staffRecord(s domain.Staff, keyHash []byte) *recordpb.Staff {
+	roles := make(map[string]string, len(s.Roles))
+	for c, r := range s.Roles {
+		roles[c] = string(r)
+	}
+	return &recordpb.Staff{StaffId: s.ID, Name: s.Name, KeySha256: keyHash, Roles: roles, Revoked: s.Revoked,
+		CreatedUnixNano: unixNano(s.CreatedAt)}
+}
+
+func staffFromRecord(r *recordpb.Staff) domain.Staff {
+	roles := make(map[string]domain.Role, len(r.GetRoles()))
+	for c, role := range r.GetRoles() {
+		roles[c] = domain.Role(role)
+	}
+	return domain.Staff{ID: r.GetStaffId(), Name: r.GetName(), Roles: roles, Revoked: r.GetRevoked(),
+		CreatedAt: fromUnixNano(r.GetCreatedUnixNano())}
 }

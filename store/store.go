@@ -255,7 +255,7 @@ func (db *DB) prepare(tx *bbolt.Tx) error {
 func (db *DB) Credentials(newSecret func() []byte) (keyHash, stationSecret []byte, err error) {
 	err = db.bolt.Update(func(tx *bbolt.Tx) error {
 		meta := tx.Bucket(bucketMeta)
-		keyHash = append([]byte(nil), meta.Get(keyInstructorKeyHash)...)
+		keyHash = append([]byte(nil), meta.Get(keyAdminKeyHash)...)
 		stationSecret = append([]byte(nil), meta.Get(keyStationSecret)...)
 		if len(stationSecret) == 0 {
 			stationSecret = newSecret()
@@ -269,10 +269,10 @@ func (db *DB) Credentials(newSecret func() []byte) (keyHash, stationSecret []byt
 	return keyHash, stationSecret, nil
 }
 
-// SetInstructorKeyHash replaces the stored hash of the instructor key.
-func (db *DB) SetInstructorKeyHash(hash []byte) error {
+// SetAdminKeyHash replaces the stored hash of the instructor key.
+func (db *DB) SetAdminKeyHash(hash []byte) error {
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
-		return tx.Bucket(bucketMeta).Put(keyInstructorKeyHash, hash)
+		return tx.Bucket(bucketMeta).Put(keyAdminKeyHash, hash)
 	})
 	if err != nil {
 		return fmt.Errorf("store: set instructor key: %w", err)
@@ -387,10 +387,15 @@ func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
 	return out, nil
 }
 
-// AppendNote adds a note or acknowledgement to a session's audit log.
+// AppendNote adds an entry to a session's audit log: on one bench, or on
+// the session with BenchID 0.
 func (db *DB) AppendNote(sessionID uint64, n domain.Note) error {
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
-		if _, err := getBench(tx, sessionID, n.BenchID); err != nil {
+		if n.BenchID == 0 {
+			if _, err := getSession(tx, sessionID); err != nil {
+				return err
+			}
+		} else if _, err := getBench(tx, sessionID, n.BenchID); err != nil {
 			return err
 		}
 		ev := tx.Bucket(bucketEvents)

@@ -7,12 +7,53 @@ import (
 	"slices"
 
 	"go.etcd.io/bbolt"
+	"google.golang.org/protobuf/proto"
+
+	"example.com/fluxroom/proto/recordpb"
 )
 
 // upgrades[v] turns a file of schema version v into v+1, inside the
 // transaction that opens it.
 var upgrades = map[uint64]func(*bbolt.Tx) error{
 	1: upgradeReadingsBySession,
+	2: upgradeSessionCourses,
+}
+
+// upgradeSessionCourses gives every session a course, its title: a
+// department's first staff accounts are then given roles in the courses
+// their sessions already show. The instructor key stays where it was, as
+// the administrator's.
+func upgradeSessionCourses(tx *bbolt.Tx) error {
+	b := tx.Bucket(bucketSessions)
+	type kv struct{ k, v []byte }
+	var changed []kv
+	err := b.ForEach(func(k, v []byte) error {
+		var r recordpb.Session
+		if err := proto.Unmarshal(v, &r); err != nil {
+			return fmt.Errorf("decode session %x: %w", k, err)
+		}
+		if r.Course != "" {
+			return nil
+		}
+		r.Course = r.Title
+		nv, err := proto.Marshal(&r)
+		if err != nil {
+			return err
+		}
+		changed = append(changed, kv{slices.Clone(k), nv})
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	// Written after the walk: bbolt forbids changing a bucket while its
+	// ForEach runs.
+	for _, e := range changed {
+		if err := b.Put(e.k, e.v); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // v1 kept readings in bucket "readings" keyed session | bench | sequence,

@@ -213,7 +213,7 @@ func (f *MembersForm) Render() app.UI {
 func (f *MembersForm) submit(ctx app.Context, e app.Event) {
 	e.PreventDefault()
 	text, sid, bid := f.text, f.SessionID, f.BenchID
-	c := newAPI(baseURL()).withToken(instructorKey(ctx))
+	c := newAPI(baseURL()).withToken(storedKey(ctx))
 	ctx.Async(func() {
 		_, err := unary[pb.SetGroupMembersResponse](ctx, c, ProcSetGroupMembers, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: bid, Members: text})
 		ctx.Dispatch(func(app.Context) {
@@ -257,7 +257,7 @@ func (f *NoteForm) Render() app.UI {
 func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 	e.PreventDefault()
 	text, sid, bid := f.text, f.SessionID, f.BenchID
-	c := newAPI(baseURL()).withToken(instructorKey(ctx))
+	c := newAPI(baseURL()).withToken(storedKey(ctx))
 	ctx.Async(func() {
 		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
 		ctx.Dispatch(func(app.Context) {
@@ -307,7 +307,7 @@ func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
 		return
 	}
 	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason, Author: "instructor"}
-	c := newAPI(baseURL()).withToken(instructorKey(ctx))
+	c := newAPI(baseURL()).withToken(storedKey(ctx))
 	ctx.Async(func() {
 		res, err := unary[pb.OverrideGradeResponse](ctx, c, ProcOverrideGrade, req)
 		ctx.Dispatch(func(app.Context) {

@@ -12,7 +12,7 @@ const storageKey = "fluxroom.instructorKey"
 // instructorKey returns the key: from a "#key=…" fragment (which the
 // browser never sends to the server; it is then removed from the address
 // bar), else from local storage.
-func instructorKey(ctx app.Context) string {
+func storedKey(ctx app.Context) string {
 	u := app.Window().URL()
 	if k, ok := strings.CutPrefix(u.Fragment, "key="); ok && k != "" {
 		ctx.LocalStorage().Set(storageKey, k)

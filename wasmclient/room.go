@@ -69,7 +69,7 @@ func (r *Room) OnMount(ctx app.Context) {
 	setRootFontSize(r.largeType)
 	base := *u
 	base.Path, base.RawQuery, base.Fragment = "", "", ""
-	r.client = newAPI(base.String()).withToken(instructorKey(ctx))
+	r.client = newAPI(base.String()).withToken(storedKey(ctx))
 	ctx.Handle(actionOpenBench, func(ctx app.Context, a app.Action) {
 		if id, ok := a.Value.(uint64); ok {
 			r.openBench(ctx, id)

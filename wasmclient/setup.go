@@ -48,7 +48,7 @@ type setupCell struct {
 // OnMount loads the experiments, the sessions and, with ?session=N, that
 // session's benches.
 func (s *Setup) OnMount(ctx app.Context) {
-	s.client = newAPI(baseURL()).withToken(instructorKey(ctx))
+	s.client = newAPI(baseURL()).withToken(storedKey(ctx))
 	s.cells, s.errs = map[[2]int]*setupCell{}, map[string]string{}
 	s.rows, s.cols = 3, 5
 	c := s.client

@@ -101,7 +101,7 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	// The demo makes its own instructor key each run and puts it in the
 	// dashboard URL's fragment, which the browser keeps to itself.
 	key := newDemoKey()
-	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log, serverOptions{instructorKey: key})
+	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log, serverOptions{adminKey: key})
 	if err != nil {
 		return err
 	}

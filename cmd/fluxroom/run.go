@@ -185,7 +185,7 @@ type running struct {
 
 // serverOptions are what start needs beyond the database and address.
 type serverOptions struct {
-	instructorKey   string
+	adminKey        string
 	tlsCert, tlsKey string
 	// prepare, when set, is called on the server before it serves: a
 	// failpoints build installs its test hooks there (testFlags).
@@ -209,7 +209,7 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		db.Close()
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
-	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, InstructorKey: opts.instructorKey,
+	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, AdminKey: opts.adminKey,
 		StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle})
 	if err != nil {
 		db.Close()
@@ -353,7 +353,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 		return err
 	}
 	defer stopProfile()
-	r, err := m.start(*dbPath, *addr, log, serverOptions{instructorKey: *key, prepare: testHooks(log),
+	r, err := m.start(*dbPath, *addr, log, serverOptions{adminKey: *key, prepare: testHooks(log),
 		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey, roomIdle: *roomIdle})
 	if err != nil {
 		return err

@@ -34,7 +34,7 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 		t.Fatal(err)
 	}
 	t.Cleanup(func() { db.Close() })
-	s, err := db.CreateSession(domain.Session{Title: "Kestrel Vale Polytechnic · PHY 142 · Thursday", JoinCode: "K7Q2MX", CreatedAt: t0})
+	s, err := db.CreateSession(domain.Session{Title: "Kestrel Vale Polytechnic · PHY 142 · Thursday", Course: "PHY 142", JoinCode: "K7Q2MX", CreatedAt: t0})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -73,11 +73,11 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 				Values: map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 4.6, Unit: "N"}}})
 			db.AppendReading(s.ID, id, domain.Reading{ID: "A1-fix", Supersedes: "A1-slip", ReceivedAt: t0.Add(21 * time.Minute),
 				Values: map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 0.46, Unit: "N"}}})
-			db.AppendNote(s.ID, domain.Note{BenchID: id, Kind: domain.NoteKindNote, Text: "retook the 2 A point", Author: "TA", At: t0.Add(22 * time.Minute)})
+			db.AppendNote(s.ID, domain.Note{BenchID: id, Kind: domain.NoteKindNote, Text: "retook the 2 A point", Author: "Teo Vasquez-Lind", At: t0.Add(22 * time.Minute)})
 		}
 		if g.label == "A2" {
 			db.AppendNote(s.ID, domain.Note{BenchID: id, Kind: domain.NoteKindGradeOverride, Text: "sensor fault confirmed by staff",
-				Author: "instructor", At: t0.Add(2 * time.Hour), Points: 9.5, PreviousPoints: 9})
+				Author: "Rosalind Achterberg", At: t0.Add(2 * time.Hour), Points: 9.5, PreviousPoints: 9})
 		}
 	}
 	return db, s.ID
@@ -185,7 +185,7 @@ func TestRegradeKeepsOverrides(t *testing.T) {
 	}
 	for _, r := range s.Rows {
 		if r.Bench.Label == "A2" {
-			if r.Grade.Final != 9.5 || r.Grade.Override == nil || r.Grade.Override.Previous != 9 || r.Grade.Override.Author != "instructor" {
+			if r.Grade.Final != 9.5 || r.Grade.Override == nil || r.Grade.Override.Previous != 9 || r.Grade.Override.Author != "Rosalind Achterberg" {
 				t.Errorf("A2 after regrade: final %g, override %+v", r.Grade.Final, r.Grade.Override)
 			}
 		}

@@ -5,6 +5,7 @@ import (
 	"html/template"
 	"io"
 	"strings"
+	"time"
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/svgplot"
@@ -19,6 +20,8 @@ var reportPage = template.Must(template.New("report").Funcs(template.FuncMap{
 	"pts":     pts,
 	"pct":     func(v float64) string { return fmt.Sprintf("%+.1f %%", v) },
 	"benches": func(s Session, ids []uint64) string { return strings.Join(benchLabels(s.Labels, ids), ", ") },
+	"when":    func(t time.Time) string { return t.UTC().Format("2006-01-02 15:04") },
+	"audit":   auditLine,
 }).Parse(`<!DOCTYPE html>
 <html lang="en"><head><meta charset="utf-8"><title>{{.Session.Title}} — group reports</title>
 <style>
@@ -34,11 +37,15 @@ table { border-collapse: collapse; margin: .5rem 0; } td, th { border-bottom: 1p
 .safety { font-size: .85rem; color: #5b6472; }
 .room { page-break-after: always; break-after: page; max-width: 46rem; }
 </style></head><body>
-{{if .Findings}}<section class="room">
+{{if or .Findings .Notes}}<section class="room">
 <h1>{{.Session.Title}}</h1>
-<h2>Across the room (for the instructor)</h2>
+{{if .Findings}}<h2>Across the room (for the instructor)</h2>
 <ul>{{range .Findings}}<li><strong>{{benches $ .BenchIDs}}</strong> ({{.Experiment}}): {{.Message}} <code>{{.Code}}</code></li>{{end}}</ul>
-</section>
+{{end}}{{if .Notes}}<h2>Audit log (for the instructor)</h2>
+<table class="audit"><tr><th>when (UTC)</th><th>who</th><th>bench</th><th>what</th></tr>
+{{range .Notes}}<tr><td>{{when .At}}</td><td>{{.Author}}</td><td>{{index $.Labels .BenchID}}</td><td>{{audit .}}</td></tr>
+{{end}}</table>
+{{end}}</section>
 {{end}}{{range .Rows}}<section class="group">
 <h1>{{$.Session.Title}}</h1>
 <h2>Bench {{.Bench.Label}} · {{.Assessment.ExperimentTitle}}</h2>
@@ -57,12 +64,23 @@ table { border-collapse: collapse; margin: .5rem 0; } td, th { border-bottom: 1p
 <tr><td>data quality</td><td>{{pts .Grade.Quality}}</td></tr>
 {{if .Grade.Deductions}}<tr><td>safety deduction</td><td>−{{pts .Grade.Deductions}}</td></tr>{{end}}
 <tr><th>total</th><th>{{pts .Grade.Final}} of {{pts .Grade.Max}}</th></tr>
-{{with .Grade.Override}}<tr><td colspan="2">Adjusted by the instructor: {{.Reason}}</td></tr>{{end}}
+{{with .Grade.Override}}<tr><td colspan="2">Adjusted from {{pts .Previous}} to {{pts .Points}} points by {{.Author}} on {{when .At}}: {{.Reason}}</td></tr>{{end}}
 </table>
 <p class="safety">Lab work with high voltages, large currents, hot coils and strong magnets follows local codes, your institution's safety rules and the equipment maker's limits.</p>
 </section>
 {{end}}</body></html>
 `))
+
+// auditLine says what an audit log entry did, in words.
+func auditLine(n domain.Note) string {
+	switch n.Kind {
+	case domain.NoteKindGradeOverride:
+		return fmt.Sprintf("grade changed from %s to %s points: %s", pts(n.PreviousPoints), pts(n.Points), n.Text)
+	case domain.NoteKindNote:
+		return "note: " + n.Text
+	}
+	return n.Text
+}
 
 // WriteHTML writes the printable per-group report.
 func WriteHTML(w io.Writer, s Session) error {

@@ -13,12 +13,27 @@ type jsonExport struct {
 	Session struct {
 		ID        uint64    `json:"id"`
 		Title     string    `json:"title"`
+		Course    string    `json:"course"`
 		CreatedAt time.Time `json:"created_at"`
 	} `json:"session"`
 	Policy string      `json:"policy"`
 	Groups []jsonGroup `json:"groups"`
 	// RoomFindings are about the room as a whole, for the instructor.
 	RoomFindings []JSONFinding `json:"room_findings"`
+	// Audit is the session's audit log in order: every note,
+	// acknowledgement, override and change, with the person who made it.
+	Audit []jsonAudit `json:"audit"`
+}
+
+type jsonAudit struct {
+	At     time.Time `json:"at"`
+	Author string    `json:"author"`
+	Kind   string    `json:"kind"`
+	// Bench is empty for a change of the whole session.
+	Bench          string  `json:"bench,omitempty"`
+	Text           string  `json:"text"`
+	Points         float64 `json:"points,omitempty"`
+	PreviousPoints float64 `json:"previous_points,omitempty"`
 }
 
 // JSONFinding is a room finding as the JSON reports give it (the export's
@@ -95,17 +110,18 @@ type jsonReading struct {
 }
 
 type jsonNote struct {
-	Kind   string    `json:"kind"`
-	Text   string    `json:"text"`
-	Author string    `json:"author"`
-	At     time.Time `json:"at"`
-	Points float64   `json:"points,omitempty"`
+	Kind           string    `json:"kind"`
+	Text           string    `json:"text"`
+	Author         string    `json:"author"`
+	At             time.Time `json:"at"`
+	Points         float64   `json:"points,omitempty"`
+	PreviousPoints float64   `json:"previous_points,omitempty"`
 }
 
 // WriteJSON writes the whole graded session as one JSON document.
 func WriteJSON(w io.Writer, s Session) error {
 	var out jsonExport
-	out.Session.ID, out.Session.Title, out.Session.CreatedAt = s.Session.ID, s.Session.Title, s.Session.CreatedAt
+	out.Session.ID, out.Session.Title, out.Session.Course, out.Session.CreatedAt = s.Session.ID, s.Session.Title, s.Session.Course, s.Session.CreatedAt
 	out.Policy = s.Policy.Name
 	out.Groups = []jsonGroup{}
 	for _, r := range s.Rows {
@@ -124,7 +140,7 @@ func WriteJSON(w io.Writer, s Session) error {
 			jg.Diagnoses = append(jg.Diagnoses, jsonDiagnosis{d.Code, d.Cause, d.Evidence, d.Action, alts, d.ReadingID})
 		}
 		if o := g.Override; o != nil {
-			jg.Grade.Override = &jsonNote{Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At, Points: o.Points}
+			jg.Grade.Override = &jsonNote{Kind: domain.NoteKindGradeOverride, Text: o.Reason, Author: o.Author, At: o.At, Points: o.Points, PreviousPoints: o.Previous}
 		}
 		gone := domain.Superseded(r.Readings)
 		for _, rd := range r.Readings {
@@ -132,12 +148,17 @@ func WriteJSON(w io.Writer, s Session) error {
 		}
 		for _, n := range s.Notes {
 			if n.BenchID == r.Bench.ID {
-				jg.Notes = append(jg.Notes, jsonNote{n.Kind, n.Text, n.Author, n.At, n.Points})
+				jg.Notes = append(jg.Notes, jsonNote{n.Kind, n.Text, n.Author, n.At, n.Points, n.PreviousPoints})
 			}
 		}
 		out.Groups = append(out.Groups, jg)
 	}
 	out.RoomFindings = JSONFindings(s.Findings, s.Labels)
+	out.Audit = []jsonAudit{}
+	for _, n := range s.Notes {
+		out.Audit = append(out.Audit, jsonAudit{At: n.At, Author: n.Author, Kind: n.Kind, Bench: s.Labels[n.BenchID], Text: n.Text,
+			Points: n.Points, PreviousPoints: n.PreviousPoints})
+	}
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
 	return enc.Encode(out)

@@ -154,6 +154,60 @@ func (ExportFormat) EnumDescriptor() ([]byte, []int) {
 	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{1}
 }
 
+// StaffRole is what a person may do in one course.
+type StaffRole int32
+
+const (
+	StaffRole_STAFF_ROLE_UNSPECIFIED StaffRole = 0
+	// Sets up sessions and benches, grades, overrides, exports, backs up the
+	// course's sessions, and manages the course's assistants.
+	StaffRole_STAFF_ROLE_INSTRUCTOR StaffRole = 1
+	// Watches rooms, acknowledges alerts, adds notes, corrects group members
+	// and exports; changes no grade, policy or set-up.
+	StaffRole_STAFF_ROLE_ASSISTANT StaffRole = 2
+)
+
+// Enum value maps for StaffRole.
+var (
+	StaffRole_name = map[int32]string{
+		0: "STAFF_ROLE_UNSPECIFIED",
+		1: "STAFF_ROLE_INSTRUCTOR",
+		2: "STAFF_ROLE_ASSISTANT",
+	}
+	StaffRole_value = map[string]int32{
+		"STAFF_ROLE_UNSPECIFIED": 0,
+		"STAFF_ROLE_INSTRUCTOR":  1,
+		"STAFF_ROLE_ASSISTANT":   2,
+	}
+)
+
+func (x StaffRole) Enum() *StaffRole {
+	p := new(StaffRole)
+	*p = x
+	return p
+}
+
+func (x StaffRole) String() string {
+	return protoimpl.X.EnumStringOf(x.Descriptor(), protoreflect.EnumNumber(x))
+}
+
+func (StaffRole) Descriptor() protoreflect.EnumDescriptor {
+	return file_fluxroom_v1_messages_proto_enumTypes[2].Descriptor()
+}
+
+func (StaffRole) Type() protoreflect.EnumType {
+	return &file_fluxroom_v1_messages_proto_enumTypes[2]
+}
+
+func (x StaffRole) Number() protoreflect.EnumNumber {
+	return protoreflect.EnumNumber(x)
+}
+
+// Deprecated: Use StaffRole.Descriptor instead.
+func (StaffRole) EnumDescriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{2}
+}
+
 // Quantity is a value exactly as a person typed it, with its unit.
 // The server converts to SI; it never stores the converted value in place of
 // what was typed.
@@ -237,7 +291,10 @@ type Session struct {
 	// empty for the default.
 	GradingPolicyJson string `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
 	// A closed session takes no more readings and its join code stops working.
-	Closed        bool `protobuf:"varint,8,opt,name=closed,proto3" json:"closed,omitempty"`
+	Closed bool `protobuf:"varint,8,opt,name=closed,proto3" json:"closed,omitempty"`
+	// The course the session belongs to: staff see and change only their
+	// courses' sessions (README.md, "Who may do what").
+	Course        string `protobuf:"bytes,9,opt,name=course,proto3" json:"course,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -326,6 +383,13 @@ func (x *Session) GetClosed() bool {
 		return x.Closed
 	}
 	return false
+}
+
+func (x *Session) GetCourse() string {
+	if x != nil {
+		return x.Course
+	}
+	return ""
 }
 
 // Tolerance is a course's rule for verdicts: consistent when |z| ≤
@@ -2685,8 +2749,11 @@ type CreateSessionRequest struct {
 	Title               string                 `protobuf:"bytes,1,opt,name=title,proto3" json:"title,omitempty"`
 	Tolerance           *Tolerance             `protobuf:"bytes,2,opt,name=tolerance,proto3" json:"tolerance,omitempty"`
 	StationsSeeVerdicts bool                   `protobuf:"varint,3,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
-	unknownFields       protoimpl.UnknownFields
-	sizeCache           protoimpl.SizeCache
+	// The course it belongs to. An instructor of one course may leave it
+	// empty; the administrator's key defaults to the title.
+	Course        string `protobuf:"bytes,4,opt,name=course,proto3" json:"course,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *CreateSessionRequest) Reset() {
@@ -2738,6 +2805,13 @@ func (x *CreateSessionRequest) GetStationsSeeVerdicts() bool {
 		return x.StationsSeeVerdicts
 	}
 	return false
+}
+
+func (x *CreateSessionRequest) GetCourse() string {
+	if x != nil {
+		return x.Course
+	}
+	return ""
 }
 
 type CreateSessionResponse struct {
@@ -3737,6 +3811,613 @@ func (x *SetGroupMembersResponse) GetBench() *Bench {
 	return nil
 }
 
+// CourseRole is one course and a person's role in it.
+type CourseRole struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Course        string                 `protobuf:"bytes,1,opt,name=course,proto3" json:"course,omitempty"`
+	Role          StaffRole              `protobuf:"varint,2,opt,name=role,proto3,enum=fluxroom.v1.StaffRole" json:"role,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *CourseRole) Reset() {
+	*x = CourseRole{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *CourseRole) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*CourseRole) ProtoMessage() {}
+
+func (x *CourseRole) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use CourseRole.ProtoReflect.Descriptor instead.
+func (*CourseRole) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{54}
+}
+
+func (x *CourseRole) GetCourse() string {
+	if x != nil {
+		return x.Course
+	}
+	return ""
+}
+
+func (x *CourseRole) GetRole() StaffRole {
+	if x != nil {
+		return x.Role
+	}
+	return StaffRole_STAFF_ROLE_UNSPECIFIED
+}
+
+// StaffMember is a person's account. Its key is never stored or shown
+// again after AddStaff or RotateStaffKey return it.
+type StaffMember struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	StaffId       uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	Name          string                 `protobuf:"bytes,2,opt,name=name,proto3" json:"name,omitempty"`
+	Roles         []*CourseRole          `protobuf:"bytes,3,rep,name=roles,proto3" json:"roles,omitempty"`
+	Revoked       bool                   `protobuf:"varint,4,opt,name=revoked,proto3" json:"revoked,omitempty"`
+	CreatedAt     *timestamppb.Timestamp `protobuf:"bytes,5,opt,name=created_at,json=createdAt,proto3" json:"created_at,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *StaffMember) Reset() {
+	*x = StaffMember{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *StaffMember) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*StaffMember) ProtoMessage() {}
+
+func (x *StaffMember) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use StaffMember.ProtoReflect.Descriptor instead.
+func (*StaffMember) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{55}
+}
+
+func (x *StaffMember) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
+	}
+	return 0
+}
+
+func (x *StaffMember) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *StaffMember) GetRoles() []*CourseRole {
+	if x != nil {
+		return x.Roles
+	}
+	return nil
+}
+
+func (x *StaffMember) GetRevoked() bool {
+	if x != nil {
+		return x.Revoked
+	}
+	return false
+}
+
+func (x *StaffMember) GetCreatedAt() *timestamppb.Timestamp {
+	if x != nil {
+		return x.CreatedAt
+	}
+	return nil
+}
+
+type AddStaffRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Name          string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Roles         []*CourseRole          `protobuf:"bytes,2,rep,name=roles,proto3" json:"roles,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AddStaffRequest) Reset() {
+	*x = AddStaffRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AddStaffRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AddStaffRequest) ProtoMessage() {}
+
+func (x *AddStaffRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AddStaffRequest.ProtoReflect.Descriptor instead.
+func (*AddStaffRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{56}
+}
+
+func (x *AddStaffRequest) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *AddStaffRequest) GetRoles() []*CourseRole {
+	if x != nil {
+		return x.Roles
+	}
+	return nil
+}
+
+type AddStaffResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Staff *StaffMember           `protobuf:"bytes,1,opt,name=staff,proto3" json:"staff,omitempty"`
+	// The person's key, shown this once; the server keeps only its hash.
+	Key           string `protobuf:"bytes,2,opt,name=key,proto3" json:"key,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *AddStaffResponse) Reset() {
+	*x = AddStaffResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *AddStaffResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*AddStaffResponse) ProtoMessage() {}
+
+func (x *AddStaffResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use AddStaffResponse.ProtoReflect.Descriptor instead.
+func (*AddStaffResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{57}
+}
+
+func (x *AddStaffResponse) GetStaff() *StaffMember {
+	if x != nil {
+		return x.Staff
+	}
+	return nil
+}
+
+func (x *AddStaffResponse) GetKey() string {
+	if x != nil {
+		return x.Key
+	}
+	return ""
+}
+
+type ListStaffRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListStaffRequest) Reset() {
+	*x = ListStaffRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListStaffRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListStaffRequest) ProtoMessage() {}
+
+func (x *ListStaffRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListStaffRequest.ProtoReflect.Descriptor instead.
+func (*ListStaffRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{58}
+}
+
+type ListStaffResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Staff         []*StaffMember         `protobuf:"bytes,1,rep,name=staff,proto3" json:"staff,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *ListStaffResponse) Reset() {
+	*x = ListStaffResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *ListStaffResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*ListStaffResponse) ProtoMessage() {}
+
+func (x *ListStaffResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use ListStaffResponse.ProtoReflect.Descriptor instead.
+func (*ListStaffResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{59}
+}
+
+func (x *ListStaffResponse) GetStaff() []*StaffMember {
+	if x != nil {
+		return x.Staff
+	}
+	return nil
+}
+
+type RevokeStaffRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	StaffId       uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RevokeStaffRequest) Reset() {
+	*x = RevokeStaffRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RevokeStaffRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RevokeStaffRequest) ProtoMessage() {}
+
+func (x *RevokeStaffRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RevokeStaffRequest.ProtoReflect.Descriptor instead.
+func (*RevokeStaffRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{60}
+}
+
+func (x *RevokeStaffRequest) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
+	}
+	return 0
+}
+
+type RevokeStaffResponse struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Staff         *StaffMember           `protobuf:"bytes,1,opt,name=staff,proto3" json:"staff,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RevokeStaffResponse) Reset() {
+	*x = RevokeStaffResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RevokeStaffResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RevokeStaffResponse) ProtoMessage() {}
+
+func (x *RevokeStaffResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RevokeStaffResponse.ProtoReflect.Descriptor instead.
+func (*RevokeStaffResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{61}
+}
+
+func (x *RevokeStaffResponse) GetStaff() *StaffMember {
+	if x != nil {
+		return x.Staff
+	}
+	return nil
+}
+
+type RotateStaffKeyRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	StaffId       uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RotateStaffKeyRequest) Reset() {
+	*x = RotateStaffKeyRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RotateStaffKeyRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RotateStaffKeyRequest) ProtoMessage() {}
+
+func (x *RotateStaffKeyRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RotateStaffKeyRequest.ProtoReflect.Descriptor instead.
+func (*RotateStaffKeyRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{62}
+}
+
+func (x *RotateStaffKeyRequest) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
+	}
+	return 0
+}
+
+type RotateStaffKeyResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Staff *StaffMember           `protobuf:"bytes,1,opt,name=staff,proto3" json:"staff,omitempty"`
+	// The new key, shown this once; the old one stops working at once.
+	Key           string `protobuf:"bytes,2,opt,name=key,proto3" json:"key,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RotateStaffKeyResponse) Reset() {
+	*x = RotateStaffKeyResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RotateStaffKeyResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RotateStaffKeyResponse) ProtoMessage() {}
+
+func (x *RotateStaffKeyResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RotateStaffKeyResponse.ProtoReflect.Descriptor instead.
+func (*RotateStaffKeyResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{63}
+}
+
+func (x *RotateStaffKeyResponse) GetStaff() *StaffMember {
+	if x != nil {
+		return x.Staff
+	}
+	return nil
+}
+
+func (x *RotateStaffKeyResponse) GetKey() string {
+	if x != nil {
+		return x.Key
+	}
+	return ""
+}
+
+type WhoAmIRequest struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *WhoAmIRequest) Reset() {
+	*x = WhoAmIRequest{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *WhoAmIRequest) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*WhoAmIRequest) ProtoMessage() {}
+
+func (x *WhoAmIRequest) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use WhoAmIRequest.ProtoReflect.Descriptor instead.
+func (*WhoAmIRequest) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{64}
+}
+
+// WhoAmIResponse is the caller as the server knows it.
+type WhoAmIResponse struct {
+	state protoimpl.MessageState `protogen:"open.v1"`
+	Name  string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	// The server administrator's key: every course, and staff accounts.
+	Administrator bool          `protobuf:"varint,2,opt,name=administrator,proto3" json:"administrator,omitempty"`
+	Roles         []*CourseRole `protobuf:"bytes,3,rep,name=roles,proto3" json:"roles,omitempty"`
+	StaffId       uint64        `protobuf:"varint,4,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *WhoAmIResponse) Reset() {
+	*x = WhoAmIResponse{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *WhoAmIResponse) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*WhoAmIResponse) ProtoMessage() {}
+
+func (x *WhoAmIResponse) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use WhoAmIResponse.ProtoReflect.Descriptor instead.
+func (*WhoAmIResponse) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{65}
+}
+
+func (x *WhoAmIResponse) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *WhoAmIResponse) GetAdministrator() bool {
+	if x != nil {
+		return x.Administrator
+	}
+	return false
+}
+
+func (x *WhoAmIResponse) GetRoles() []*CourseRole {
+	if x != nil {
+		return x.Roles
+	}
+	return nil
+}
+
+func (x *WhoAmIResponse) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
+	}
+	return 0
+}
+
 var File_fluxroom_v1_messages_proto protoreflect.FileDescriptor
 
 const file_fluxroom_v1_messages_proto_rawDesc = "" +
@@ -3745,7 +4426,7 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xc8\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xe0\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -3756,7 +4437,8 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\ttolerance\x18\x05 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
 	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
 	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\x12\x16\n" +
-	"\x06closed\x18\b \x01(\bR\x06closed\"\x95\x01\n" +
+	"\x06closed\x18\b \x01(\bR\x06closed\x12\x16\n" +
+	"\x06course\x18\t \x01(\tR\x06course\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
@@ -3966,11 +4648,12 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x16\n" +
 	"\x06author\x18\x03 \x01(\tR\x06author\"A\n" +
 	"\x18AcknowledgeAlertResponse\x12%\n" +
-	"\x04note\x18\x01 \x01(\v2\x11.fluxroom.v1.NoteR\x04note\"\x96\x01\n" +
+	"\x04note\x18\x01 \x01(\v2\x11.fluxroom.v1.NoteR\x04note\"\xae\x01\n" +
 	"\x14CreateSessionRequest\x12\x14\n" +
 	"\x05title\x18\x01 \x01(\tR\x05title\x124\n" +
 	"\ttolerance\x18\x02 \x01(\v2\x16.fluxroom.v1.ToleranceR\ttolerance\x122\n" +
-	"\x15stations_see_verdicts\x18\x03 \x01(\bR\x13stationsSeeVerdicts\"G\n" +
+	"\x15stations_see_verdicts\x18\x03 \x01(\bR\x13stationsSeeVerdicts\x12\x16\n" +
+	"\x06course\x18\x04 \x01(\tR\x06course\"G\n" +
 	"\x15CreateSessionResponse\x12.\n" +
 	"\asession\x18\x01 \x01(\v2\x14.fluxroom.v1.SessionR\asession\"\x15\n" +
 	"\x13ListSessionsRequest\"H\n" +
@@ -4032,7 +4715,42 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\bbench_id\x18\x02 \x01(\x04R\abenchId\x12\x18\n" +
 	"\amembers\x18\x03 \x01(\tR\amembers\"C\n" +
 	"\x17SetGroupMembersResponse\x12(\n" +
-	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench*\x9e\x01\n" +
+	"\x05bench\x18\x01 \x01(\v2\x12.fluxroom.v1.BenchR\x05bench\"P\n" +
+	"\n" +
+	"CourseRole\x12\x16\n" +
+	"\x06course\x18\x01 \x01(\tR\x06course\x12*\n" +
+	"\x04role\x18\x02 \x01(\x0e2\x16.fluxroom.v1.StaffRoleR\x04role\"\xc0\x01\n" +
+	"\vStaffMember\x12\x19\n" +
+	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\x12\x12\n" +
+	"\x04name\x18\x02 \x01(\tR\x04name\x12-\n" +
+	"\x05roles\x18\x03 \x03(\v2\x17.fluxroom.v1.CourseRoleR\x05roles\x12\x18\n" +
+	"\arevoked\x18\x04 \x01(\bR\arevoked\x129\n" +
+	"\n" +
+	"created_at\x18\x05 \x01(\v2\x1a.google.protobuf.TimestampR\tcreatedAt\"T\n" +
+	"\x0fAddStaffRequest\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12-\n" +
+	"\x05roles\x18\x02 \x03(\v2\x17.fluxroom.v1.CourseRoleR\x05roles\"T\n" +
+	"\x10AddStaffResponse\x12.\n" +
+	"\x05staff\x18\x01 \x01(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\x12\x10\n" +
+	"\x03key\x18\x02 \x01(\tR\x03key\"\x12\n" +
+	"\x10ListStaffRequest\"C\n" +
+	"\x11ListStaffResponse\x12.\n" +
+	"\x05staff\x18\x01 \x03(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\"/\n" +
+	"\x12RevokeStaffRequest\x12\x19\n" +
+	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\"E\n" +
+	"\x13RevokeStaffResponse\x12.\n" +
+	"\x05staff\x18\x01 \x01(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\"2\n" +
+	"\x15RotateStaffKeyRequest\x12\x19\n" +
+	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\"Z\n" +
+	"\x16RotateStaffKeyResponse\x12.\n" +
+	"\x05staff\x18\x01 \x01(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\x12\x10\n" +
+	"\x03key\x18\x02 \x01(\tR\x03key\"\x0f\n" +
+	"\rWhoAmIRequest\"\x94\x01\n" +
+	"\x0eWhoAmIResponse\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x12$\n" +
+	"\radministrator\x18\x02 \x01(\bR\radministrator\x12-\n" +
+	"\x05roles\x18\x03 \x03(\v2\x17.fluxroom.v1.CourseRoleR\x05roles\x12\x19\n" +
+	"\bstaff_id\x18\x04 \x01(\x04R\astaffId*\x9e\x01\n" +
 	"\aVerdict\x12\x17\n" +
 	"\x13VERDICT_UNSPECIFIED\x10\x00\x12\x15\n" +
 	"\x11VERDICT_NEED_DATA\x10\x01\x12\x16\n" +
@@ -4046,7 +4764,11 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x1bEXPORT_FORMAT_GRADEBOOK_CSV\x10\x01\x12\x1e\n" +
 	"\x1aEXPORT_FORMAT_READINGS_CSV\x10\x02\x12\x16\n" +
 	"\x12EXPORT_FORMAT_JSON\x10\x03\x12\x16\n" +
-	"\x12EXPORT_FORMAT_HTML\x10\x04B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
+	"\x12EXPORT_FORMAT_HTML\x10\x04*\\\n" +
+	"\tStaffRole\x12\x1a\n" +
+	"\x16STAFF_ROLE_UNSPECIFIED\x10\x00\x12\x19\n" +
+	"\x15STAFF_ROLE_INSTRUCTOR\x10\x01\x12\x18\n" +
+	"\x14STAFF_ROLE_ASSISTANT\x10\x02B2Z0example.com/fluxroom/proto/fluxroompb;fluxroompbb\x06proto3"
 
 var (
 	file_fluxroom_v1_messages_proto_rawDescOnce sync.Once
@@ -4060,133 +4782,155 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 	return file_fluxroom_v1_messages_proto_rawDescData
 }
 
-var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 2)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 57)
+var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 3)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 69)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
-	(*Quantity)(nil),                 // 2: fluxroom.v1.Quantity
-	(*Session)(nil),                  // 3: fluxroom.v1.Session
-	(*Tolerance)(nil),                // 4: fluxroom.v1.Tolerance
-	(*QuantitySpec)(nil),             // 5: fluxroom.v1.QuantitySpec
-	(*ExperimentSpec)(nil),           // 6: fluxroom.v1.ExperimentSpec
-	(*Note)(nil),                     // 7: fluxroom.v1.Note
-	(*Bench)(nil),                    // 8: fluxroom.v1.Bench
-	(*Reading)(nil),                  // 9: fluxroom.v1.Reading
-	(*Diagnosis)(nil),                // 10: fluxroom.v1.Diagnosis
-	(*BudgetItem)(nil),               // 11: fluxroom.v1.BudgetItem
-	(*RoomFinding)(nil),              // 12: fluxroom.v1.RoomFinding
-	(*RoomFindings)(nil),             // 13: fluxroom.v1.RoomFindings
-	(*Fit)(nil),                      // 14: fluxroom.v1.Fit
-	(*BenchState)(nil),               // 15: fluxroom.v1.BenchState
-	(*BenchDetail)(nil),              // 16: fluxroom.v1.BenchDetail
-	(*Plot)(nil),                     // 17: fluxroom.v1.Plot
-	(*PlotPoint)(nil),                // 18: fluxroom.v1.PlotPoint
-	(*RoomSnapshot)(nil),             // 19: fluxroom.v1.RoomSnapshot
-	(*JoinBenchRequest)(nil),         // 20: fluxroom.v1.JoinBenchRequest
-	(*JoinBenchResponse)(nil),        // 21: fluxroom.v1.JoinBenchResponse
-	(*CloseSessionRequest)(nil),      // 22: fluxroom.v1.CloseSessionRequest
-	(*CloseSessionResponse)(nil),     // 23: fluxroom.v1.CloseSessionResponse
-	(*SubmitReadingRequest)(nil),     // 24: fluxroom.v1.SubmitReadingRequest
-	(*SubmitReadingResponse)(nil),    // 25: fluxroom.v1.SubmitReadingResponse
-	(*GetBenchStateRequest)(nil),     // 26: fluxroom.v1.GetBenchStateRequest
-	(*GetBenchStateResponse)(nil),    // 27: fluxroom.v1.GetBenchStateResponse
-	(*ListExperimentsRequest)(nil),   // 28: fluxroom.v1.ListExperimentsRequest
-	(*ListExperimentsResponse)(nil),  // 29: fluxroom.v1.ListExperimentsResponse
-	(*UpdateSessionRequest)(nil),     // 30: fluxroom.v1.UpdateSessionRequest
-	(*UpdateSessionResponse)(nil),    // 31: fluxroom.v1.UpdateSessionResponse
-	(*AddNoteRequest)(nil),           // 32: fluxroom.v1.AddNoteRequest
-	(*AddNoteResponse)(nil),          // 33: fluxroom.v1.AddNoteResponse
-	(*AcknowledgeAlertRequest)(nil),  // 34: fluxroom.v1.AcknowledgeAlertRequest
-	(*AcknowledgeAlertResponse)(nil), // 35: fluxroom.v1.AcknowledgeAlertResponse
-	(*CreateSessionRequest)(nil),     // 36: fluxroom.v1.CreateSessionRequest
-	(*CreateSessionResponse)(nil),    // 37: fluxroom.v1.CreateSessionResponse
-	(*ListSessionsRequest)(nil),      // 38: fluxroom.v1.ListSessionsRequest
-	(*ListSessionsResponse)(nil),     // 39: fluxroom.v1.ListSessionsResponse
-	(*SetBenchesRequest)(nil),        // 40: fluxroom.v1.SetBenchesRequest
-	(*SetBenchesResponse)(nil),       // 41: fluxroom.v1.SetBenchesResponse
-	(*WatchRoomRequest)(nil),         // 42: fluxroom.v1.WatchRoomRequest
-	(*WatchRoomResponse)(nil),        // 43: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),    // 44: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil),   // 45: fluxroom.v1.GetBenchDetailResponse
-	(*SetGradingPolicyRequest)(nil),  // 46: fluxroom.v1.SetGradingPolicyRequest
-	(*SetGradingPolicyResponse)(nil), // 47: fluxroom.v1.SetGradingPolicyResponse
-	(*OverrideGradeRequest)(nil),     // 48: fluxroom.v1.OverrideGradeRequest
-	(*OverrideGradeResponse)(nil),    // 49: fluxroom.v1.OverrideGradeResponse
-	(*ExportRequest)(nil),            // 50: fluxroom.v1.ExportRequest
-	(*ExportResponse)(nil),           // 51: fluxroom.v1.ExportResponse
-	(*BackupRequest)(nil),            // 52: fluxroom.v1.BackupRequest
-	(*BackupChunk)(nil),              // 53: fluxroom.v1.BackupChunk
-	(*SetGroupMembersRequest)(nil),   // 54: fluxroom.v1.SetGroupMembersRequest
-	(*SetGroupMembersResponse)(nil),  // 55: fluxroom.v1.SetGroupMembersResponse
-	nil,                              // 56: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 57: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 58: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 59: google.protobuf.Timestamp
+	(StaffRole)(0),                   // 2: fluxroom.v1.StaffRole
+	(*Quantity)(nil),                 // 3: fluxroom.v1.Quantity
+	(*Session)(nil),                  // 4: fluxroom.v1.Session
+	(*Tolerance)(nil),                // 5: fluxroom.v1.Tolerance
+	(*QuantitySpec)(nil),             // 6: fluxroom.v1.QuantitySpec
+	(*ExperimentSpec)(nil),           // 7: fluxroom.v1.ExperimentSpec
+	(*Note)(nil),                     // 8: fluxroom.v1.Note
+	(*Bench)(nil),                    // 9: fluxroom.v1.Bench
+	(*Reading)(nil),                  // 10: fluxroom.v1.Reading
+	(*Diagnosis)(nil),                // 11: fluxroom.v1.Diagnosis
+	(*BudgetItem)(nil),               // 12: fluxroom.v1.BudgetItem
+	(*RoomFinding)(nil),              // 13: fluxroom.v1.RoomFinding
+	(*RoomFindings)(nil),             // 14: fluxroom.v1.RoomFindings
+	(*Fit)(nil),                      // 15: fluxroom.v1.Fit
+	(*BenchState)(nil),               // 16: fluxroom.v1.BenchState
+	(*BenchDetail)(nil),              // 17: fluxroom.v1.BenchDetail
+	(*Plot)(nil),                     // 18: fluxroom.v1.Plot
+	(*PlotPoint)(nil),                // 19: fluxroom.v1.PlotPoint
+	(*RoomSnapshot)(nil),             // 20: fluxroom.v1.RoomSnapshot
+	(*JoinBenchRequest)(nil),         // 21: fluxroom.v1.JoinBenchRequest
+	(*JoinBenchResponse)(nil),        // 22: fluxroom.v1.JoinBenchResponse
+	(*CloseSessionRequest)(nil),      // 23: fluxroom.v1.CloseSessionRequest
+	(*CloseSessionResponse)(nil),     // 24: fluxroom.v1.CloseSessionResponse
+	(*SubmitReadingRequest)(nil),     // 25: fluxroom.v1.SubmitReadingRequest
+	(*SubmitReadingResponse)(nil),    // 26: fluxroom.v1.SubmitReadingResponse
+	(*GetBenchStateRequest)(nil),     // 27: fluxroom.v1.GetBenchStateRequest
+	(*GetBenchStateResponse)(nil),    // 28: fluxroom.v1.GetBenchStateResponse
+	(*ListExperimentsRequest)(nil),   // 29: fluxroom.v1.ListExperimentsRequest
+	(*ListExperimentsResponse)(nil),  // 30: fluxroom.v1.ListExperimentsResponse
+	(*UpdateSessionRequest)(nil),     // 31: fluxroom.v1.UpdateSessionRequest
+	(*UpdateSessionResponse)(nil),    // 32: fluxroom.v1.UpdateSessionResponse
+	(*AddNoteRequest)(nil),           // 33: fluxroom.v1.AddNoteRequest
+	(*AddNoteResponse)(nil),          // 34: fluxroom.v1.AddNoteResponse
+	(*AcknowledgeAlertRequest)(nil),  // 35: fluxroom.v1.AcknowledgeAlertRequest
+	(*AcknowledgeAlertResponse)(nil), // 36: fluxroom.v1.AcknowledgeAlertResponse
+	(*CreateSessionRequest)(nil),     // 37: fluxroom.v1.CreateSessionRequest
+	(*CreateSessionResponse)(nil),    // 38: fluxroom.v1.CreateSessionResponse
+	(*ListSessionsRequest)(nil),      // 39: fluxroom.v1.ListSessionsRequest
+	(*ListSessionsResponse)(nil),     // 40: fluxroom.v1.ListSessionsResponse
+	(*SetBenchesRequest)(nil),        // 41: fluxroom.v1.SetBenchesRequest
+	(*SetBenchesResponse)(nil),       // 42: fluxroom.v1.SetBenchesResponse
+	(*WatchRoomRequest)(nil),         // 43: fluxroom.v1.WatchRoomRequest
+	(*WatchRoomResponse)(nil),        // 44: fluxroom.v1.WatchRoomResponse
+	(*GetBenchDetailRequest)(nil),    // 45: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 46: fluxroom.v1.GetBenchDetailResponse
+	(*SetGradingPolicyRequest)(nil),  // 47: fluxroom.v1.SetGradingPolicyRequest
+	(*SetGradingPolicyResponse)(nil), // 48: fluxroom.v1.SetGradingPolicyResponse
+	(*OverrideGradeRequest)(nil),     // 49: fluxroom.v1.OverrideGradeRequest
+	(*OverrideGradeResponse)(nil),    // 50: fluxroom.v1.OverrideGradeResponse
+	(*ExportRequest)(nil),            // 51: fluxroom.v1.ExportRequest
+	(*ExportResponse)(nil),           // 52: fluxroom.v1.ExportResponse
+	(*BackupRequest)(nil),            // 53: fluxroom.v1.BackupRequest
+	(*BackupChunk)(nil),              // 54: fluxroom.v1.BackupChunk
+	(*SetGroupMembersRequest)(nil),   // 55: fluxroom.v1.SetGroupMembersRequest
+	(*SetGroupMembersResponse)(nil),  // 56: fluxroom.v1.SetGroupMembersResponse
+	(*CourseRole)(nil),               // 57: fluxroom.v1.CourseRole
+	(*StaffMember)(nil),              // 58: fluxroom.v1.StaffMember
+	(*AddStaffRequest)(nil),          // 59: fluxroom.v1.AddStaffRequest
+	(*AddStaffResponse)(nil),         // 60: fluxroom.v1.AddStaffResponse
+	(*ListStaffRequest)(nil),         // 61: fluxroom.v1.ListStaffRequest
+	(*ListStaffResponse)(nil),        // 62: fluxroom.v1.ListStaffResponse
+	(*RevokeStaffRequest)(nil),       // 63: fluxroom.v1.RevokeStaffRequest
+	(*RevokeStaffResponse)(nil),      // 64: fluxroom.v1.RevokeStaffResponse
+	(*RotateStaffKeyRequest)(nil),    // 65: fluxroom.v1.RotateStaffKeyRequest
+	(*RotateStaffKeyResponse)(nil),   // 66: fluxroom.v1.RotateStaffKeyResponse
+	(*WhoAmIRequest)(nil),            // 67: fluxroom.v1.WhoAmIRequest
+	(*WhoAmIResponse)(nil),           // 68: fluxroom.v1.WhoAmIResponse
+	nil,                              // 69: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 70: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 71: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 72: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	59, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
-	4,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
-	5,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
-	5,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	59, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	56, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	57, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	59, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
-	12, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
-	8,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
+	72, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	5,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
+	6,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
+	6,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
+	72, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	69, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	70, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	72, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	13, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
+	9,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
-	10, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	59, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
-	2,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
-	2,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
-	11, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
-	15, // 16: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
-	9,  // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
-	14, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
-	7,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
-	17, // 20: fluxroom.v1.BenchDetail.plot:type_name -> fluxroom.v1.Plot
-	18, // 21: fluxroom.v1.Plot.points:type_name -> fluxroom.v1.PlotPoint
-	18, // 22: fluxroom.v1.Plot.theory:type_name -> fluxroom.v1.PlotPoint
-	18, // 23: fluxroom.v1.Plot.fit:type_name -> fluxroom.v1.PlotPoint
-	18, // 24: fluxroom.v1.Plot.band_low:type_name -> fluxroom.v1.PlotPoint
-	18, // 25: fluxroom.v1.Plot.band_high:type_name -> fluxroom.v1.PlotPoint
-	3,  // 26: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
-	15, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
-	12, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
-	8,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
-	3,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
-	58, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	9,  // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
-	15, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
-	9,  // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
-	17, // 35: fluxroom.v1.GetBenchStateResponse.plot:type_name -> fluxroom.v1.Plot
-	6,  // 36: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
-	4,  // 37: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 38: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 39: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
-	7,  // 40: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
-	4,  // 41: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
-	3,  // 42: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
-	3,  // 43: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
-	8,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
-	8,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
-	19, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	15, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	13, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	16, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	3,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
-	7,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	11, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
+	72, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	3,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
+	3,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
+	12, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
+	16, // 16: fluxroom.v1.BenchDetail.state:type_name -> fluxroom.v1.BenchState
+	10, // 17: fluxroom.v1.BenchDetail.readings:type_name -> fluxroom.v1.Reading
+	15, // 18: fluxroom.v1.BenchDetail.fit:type_name -> fluxroom.v1.Fit
+	8,  // 19: fluxroom.v1.BenchDetail.notes:type_name -> fluxroom.v1.Note
+	18, // 20: fluxroom.v1.BenchDetail.plot:type_name -> fluxroom.v1.Plot
+	19, // 21: fluxroom.v1.Plot.points:type_name -> fluxroom.v1.PlotPoint
+	19, // 22: fluxroom.v1.Plot.theory:type_name -> fluxroom.v1.PlotPoint
+	19, // 23: fluxroom.v1.Plot.fit:type_name -> fluxroom.v1.PlotPoint
+	19, // 24: fluxroom.v1.Plot.band_low:type_name -> fluxroom.v1.PlotPoint
+	19, // 25: fluxroom.v1.Plot.band_high:type_name -> fluxroom.v1.PlotPoint
+	4,  // 26: fluxroom.v1.RoomSnapshot.session:type_name -> fluxroom.v1.Session
+	16, // 27: fluxroom.v1.RoomSnapshot.benches:type_name -> fluxroom.v1.BenchState
+	13, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
+	9,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
+	4,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
+	71, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	10, // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
+	16, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
+	10, // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
+	18, // 35: fluxroom.v1.GetBenchStateResponse.plot:type_name -> fluxroom.v1.Plot
+	7,  // 36: fluxroom.v1.ListExperimentsResponse.experiments:type_name -> fluxroom.v1.ExperimentSpec
+	5,  // 37: fluxroom.v1.UpdateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	4,  // 38: fluxroom.v1.UpdateSessionResponse.session:type_name -> fluxroom.v1.Session
+	8,  // 39: fluxroom.v1.AddNoteResponse.note:type_name -> fluxroom.v1.Note
+	8,  // 40: fluxroom.v1.AcknowledgeAlertResponse.note:type_name -> fluxroom.v1.Note
+	5,  // 41: fluxroom.v1.CreateSessionRequest.tolerance:type_name -> fluxroom.v1.Tolerance
+	4,  // 42: fluxroom.v1.CreateSessionResponse.session:type_name -> fluxroom.v1.Session
+	4,  // 43: fluxroom.v1.ListSessionsResponse.sessions:type_name -> fluxroom.v1.Session
+	9,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
+	9,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
+	20, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
+	16, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
+	14, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
+	17, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	4,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	8,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
 	1,  // 52: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	8,  // 53: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
-	2,  // 54: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 55: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	2,  // 56: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	57, // [57:57] is the sub-list for method output_type
-	57, // [57:57] is the sub-list for method input_type
-	57, // [57:57] is the sub-list for extension type_name
-	57, // [57:57] is the sub-list for extension extendee
-	0,  // [0:57] is the sub-list for field type_name
+	9,  // 53: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
+	2,  // 54: fluxroom.v1.CourseRole.role:type_name -> fluxroom.v1.StaffRole
+	57, // 55: fluxroom.v1.StaffMember.roles:type_name -> fluxroom.v1.CourseRole
+	72, // 56: fluxroom.v1.StaffMember.created_at:type_name -> google.protobuf.Timestamp
+	57, // 57: fluxroom.v1.AddStaffRequest.roles:type_name -> fluxroom.v1.CourseRole
+	58, // 58: fluxroom.v1.AddStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	58, // 59: fluxroom.v1.ListStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	58, // 60: fluxroom.v1.RevokeStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	58, // 61: fluxroom.v1.RotateStaffKeyResponse.staff:type_name -> fluxroom.v1.StaffMember
+	57, // 62: fluxroom.v1.WhoAmIResponse.roles:type_name -> fluxroom.v1.CourseRole
+	3,  // 63: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	3,  // 64: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	3,  // 65: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	66, // [66:66] is the sub-list for method output_type
+	66, // [66:66] is the sub-list for method input_type
+	66, // [66:66] is the sub-list for extension type_name
+	66, // [66:66] is the sub-list for extension extendee
+	0,  // [0:66] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -4204,8 +4948,8 @@ func file_fluxroom_v1_messages_proto_init() {
 		File: protoimpl.DescBuilder{
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
-			NumEnums:      2,
-			NumMessages:   57,
+			NumEnums:      3,
+			NumMessages:   69,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

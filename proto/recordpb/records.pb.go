@@ -96,8 +96,10 @@ type Session struct {
 	StationsSeeVerdicts bool                   `protobuf:"varint,6,opt,name=stations_see_verdicts,json=stationsSeeVerdicts,proto3" json:"stations_see_verdicts,omitempty"`
 	GradingPolicyJson   string                 `protobuf:"bytes,7,opt,name=grading_policy_json,json=gradingPolicyJson,proto3" json:"grading_policy_json,omitempty"`
 	Closed              bool                   `protobuf:"varint,8,opt,name=closed,proto3" json:"closed,omitempty"`
-	unknownFields       protoimpl.UnknownFields
-	sizeCache           protoimpl.SizeCache
+	// Set from the title by the upgrade to schema 3 for older sessions.
+	Course        string `protobuf:"bytes,9,opt,name=course,proto3" json:"course,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Session) Reset() {
@@ -186,6 +188,13 @@ func (x *Session) GetClosed() bool {
 	return false
 }
 
+func (x *Session) GetCourse() string {
+	if x != nil {
+		return x.Course
+	}
+	return ""
+}
+
 type Tolerance struct {
 	state             protoimpl.MessageState `protogen:"open.v1"`
 	ZConsistent       float64                `protobuf:"fixed64,1,opt,name=z_consistent,json=zConsistent,proto3" json:"z_consistent,omitempty"`
@@ -254,8 +263,9 @@ func (x *Tolerance) GetAcceptablePercent() float64 {
 	return 0
 }
 
-// Event is one entry of a session's audit log: a note or an acknowledged
-// alert.
+// Event is one entry of a session's audit log: a note, an acknowledged
+// alert, a grade override or a change of the session (its benches, policy,
+// tolerance, group members, closing), with the person who made it.
 type Event struct {
 	state          protoimpl.MessageState `protogen:"open.v1"`
 	BenchId        uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
@@ -265,8 +275,11 @@ type Event struct {
 	AtUnixNano     int64                  `protobuf:"varint,5,opt,name=at_unix_nano,json=atUnixNano,proto3" json:"at_unix_nano,omitempty"`
 	Points         float64                `protobuf:"fixed64,6,opt,name=points,proto3" json:"points,omitempty"`
 	PreviousPoints float64                `protobuf:"fixed64,7,opt,name=previous_points,json=previousPoints,proto3" json:"previous_points,omitempty"`
-	unknownFields  protoimpl.UnknownFields
-	sizeCache      protoimpl.SizeCache
+	// The staff account that made the change; 0 for the administrator's key
+	// (and for every event written before schema 3).
+	StaffId       uint64 `protobuf:"varint,8,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
 }
 
 func (x *Event) Reset() {
@@ -344,6 +357,13 @@ func (x *Event) GetPoints() float64 {
 func (x *Event) GetPreviousPoints() float64 {
 	if x != nil {
 		return x.PreviousPoints
+	}
+	return 0
+}
+
+func (x *Event) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
 	}
 	return 0
 }
@@ -516,6 +536,92 @@ func (x *Reading) GetSupersedes() string {
 	return ""
 }
 
+// Staff is a person's account. Only the SHA-256 of the key is kept.
+type Staff struct {
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	StaffId   uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	Name      string                 `protobuf:"bytes,2,opt,name=name,proto3" json:"name,omitempty"`
+	KeySha256 []byte                 `protobuf:"bytes,3,opt,name=key_sha256,json=keySha256,proto3" json:"key_sha256,omitempty"`
+	// course → "instructor" or "assistant".
+	Roles           map[string]string `protobuf:"bytes,4,rep,name=roles,proto3" json:"roles,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	Revoked         bool              `protobuf:"varint,5,opt,name=revoked,proto3" json:"revoked,omitempty"`
+	CreatedUnixNano int64             `protobuf:"varint,6,opt,name=created_unix_nano,json=createdUnixNano,proto3" json:"created_unix_nano,omitempty"`
+	unknownFields   protoimpl.UnknownFields
+	sizeCache       protoimpl.SizeCache
+}
+
+func (x *Staff) Reset() {
+	*x = Staff{}
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *Staff) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*Staff) ProtoMessage() {}
+
+func (x *Staff) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use Staff.ProtoReflect.Descriptor instead.
+func (*Staff) Descriptor() ([]byte, []int) {
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{6}
+}
+
+func (x *Staff) GetStaffId() uint64 {
+	if x != nil {
+		return x.StaffId
+	}
+	return 0
+}
+
+func (x *Staff) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *Staff) GetKeySha256() []byte {
+	if x != nil {
+		return x.KeySha256
+	}
+	return nil
+}
+
+func (x *Staff) GetRoles() map[string]string {
+	if x != nil {
+		return x.Roles
+	}
+	return nil
+}
+
+func (x *Staff) GetRevoked() bool {
+	if x != nil {
+		return x.Revoked
+	}
+	return false
+}
+
+func (x *Staff) GetCreatedUnixNano() int64 {
+	if x != nil {
+		return x.CreatedUnixNano
+	}
+	return 0
+}
+
 var File_fluxroom_record_v1_records_proto protoreflect.FileDescriptor
 
 const file_fluxroom_record_v1_records_proto_rawDesc = "" +
@@ -524,7 +630,7 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xc0\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xd8\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -534,12 +640,13 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\ttolerance\x18\x05 \x01(\v2\x1d.fluxroom.record.v1.ToleranceR\ttolerance\x122\n" +
 	"\x15stations_see_verdicts\x18\x06 \x01(\bR\x13stationsSeeVerdicts\x12.\n" +
 	"\x13grading_policy_json\x18\a \x01(\tR\x11gradingPolicyJson\x12\x16\n" +
-	"\x06closed\x18\b \x01(\bR\x06closed\"\x95\x01\n" +
+	"\x06closed\x18\b \x01(\bR\x06closed\x12\x16\n" +
+	"\x06course\x18\t \x01(\tR\x06course\"\x95\x01\n" +
 	"\tTolerance\x12!\n" +
 	"\fz_consistent\x18\x01 \x01(\x01R\vzConsistent\x12\x13\n" +
 	"\x05z_off\x18\x02 \x01(\x01R\x04zOff\x12!\n" +
 	"\fgood_percent\x18\x03 \x01(\x01R\vgoodPercent\x12-\n" +
-	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\xc5\x01\n" +
+	"\x12acceptable_percent\x18\x04 \x01(\x01R\x11acceptablePercent\"\xe0\x01\n" +
 	"\x05Event\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x12\n" +
 	"\x04kind\x18\x02 \x01(\tR\x04kind\x12\x12\n" +
@@ -548,7 +655,8 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\fat_unix_nano\x18\x05 \x01(\x03R\n" +
 	"atUnixNano\x12\x16\n" +
 	"\x06points\x18\x06 \x01(\x01R\x06points\x12'\n" +
-	"\x0fprevious_points\x18\a \x01(\x01R\x0epreviousPoints\"\xc0\x02\n" +
+	"\x0fprevious_points\x18\a \x01(\x01R\x0epreviousPoints\x12\x19\n" +
+	"\bstaff_id\x18\b \x01(\x04R\astaffId\"\xc0\x02\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -573,7 +681,19 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"supersedes\x1aW\n" +
 	"\vValuesEntry\x12\x10\n" +
 	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
-	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01B.Z,example.com/fluxroom/proto/recordpb;recordpbb\x06proto3"
+	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\x91\x02\n" +
+	"\x05Staff\x12\x19\n" +
+	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\x12\x12\n" +
+	"\x04name\x18\x02 \x01(\tR\x04name\x12\x1d\n" +
+	"\n" +
+	"key_sha256\x18\x03 \x01(\fR\tkeySha256\x12:\n" +
+	"\x05roles\x18\x04 \x03(\v2$.fluxroom.record.v1.Staff.RolesEntryR\x05roles\x12\x18\n" +
+	"\arevoked\x18\x05 \x01(\bR\arevoked\x12*\n" +
+	"\x11created_unix_nano\x18\x06 \x01(\x03R\x0fcreatedUnixNano\x1a8\n" +
+	"\n" +
+	"RolesEntry\x12\x10\n" +
+	"\x03key\x18\x01 \x01(\tR\x03key\x12\x14\n" +
+	"\x05value\x18\x02 \x01(\tR\x05value:\x028\x01B.Z,example.com/fluxroom/proto/recordpb;recordpbb\x06proto3"
 
 var (
 	file_fluxroom_record_v1_records_proto_rawDescOnce sync.Once
@@ -587,7 +707,7 @@ func file_fluxroom_record_v1_records_proto_rawDescGZIP() []byte {
 	return file_fluxroom_record_v1_records_proto_rawDescData
 }
 
-var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 8)
+var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 10)
 var file_fluxroom_record_v1_records_proto_goTypes = []any{
 	(*Quantity)(nil),  // 0: fluxroom.record.v1.Quantity
 	(*Session)(nil),   // 1: fluxroom.record.v1.Session
@@ -595,20 +715,23 @@ var file_fluxroom_record_v1_records_proto_goTypes = []any{
 	(*Event)(nil),     // 3: fluxroom.record.v1.Event
 	(*Bench)(nil),     // 4: fluxroom.record.v1.Bench
 	(*Reading)(nil),   // 5: fluxroom.record.v1.Reading
-	nil,               // 6: fluxroom.record.v1.Bench.ConstantsEntry
-	nil,               // 7: fluxroom.record.v1.Reading.ValuesEntry
+	(*Staff)(nil),     // 6: fluxroom.record.v1.Staff
+	nil,               // 7: fluxroom.record.v1.Bench.ConstantsEntry
+	nil,               // 8: fluxroom.record.v1.Reading.ValuesEntry
+	nil,               // 9: fluxroom.record.v1.Staff.RolesEntry
 }
 var file_fluxroom_record_v1_records_proto_depIdxs = []int32{
 	2, // 0: fluxroom.record.v1.Session.tolerance:type_name -> fluxroom.record.v1.Tolerance
-	6, // 1: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.Bench.ConstantsEntry
-	7, // 2: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.Reading.ValuesEntry
-	0, // 3: fluxroom.record.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.record.v1.Quantity
-	0, // 4: fluxroom.record.v1.Reading.ValuesEntry.value:type_name -> fluxroom.record.v1.Quantity
-	5, // [5:5] is the sub-list for method output_type
-	5, // [5:5] is the sub-list for method input_type
-	5, // [5:5] is the sub-list for extension type_name
-	5, // [5:5] is the sub-list for extension extendee
-	0, // [0:5] is the sub-list for field type_name
+	7, // 1: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.Bench.ConstantsEntry
+	8, // 2: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.Reading.ValuesEntry
+	9, // 3: fluxroom.record.v1.Staff.roles:type_name -> fluxroom.record.v1.Staff.RolesEntry
+	0, // 4: fluxroom.record.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.record.v1.Quantity
+	0, // 5: fluxroom.record.v1.Reading.ValuesEntry.value:type_name -> fluxroom.record.v1.Quantity
+	6, // [6:6] is the sub-list for method output_type
+	6, // [6:6] is the sub-list for method input_type
+	6, // [6:6] is the sub-list for extension type_name
+	6, // [6:6] is the sub-list for extension extendee
+	0, // [0:6] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_record_v1_records_proto_init() }
@@ -622,7 +745,7 @@ func file_fluxroom_record_v1_records_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_record_v1_records_proto_rawDesc), len(file_fluxroom_record_v1_records_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   8,
+			NumMessages:   10,
 			NumExtensions: 0,
 			NumServices:   0,
 		},

@@ -51,7 +51,13 @@ const file_fluxroom_v1_service_proto_rawDesc = "" +
 	"\rOverrideGrade\x12!.fluxroom.v1.OverrideGradeRequest\x1a\".fluxroom.v1.OverrideGradeResponse\x12A\n" +
 	"\x06Export\x12\x1a.fluxroom.v1.ExportRequest\x1a\x1b.fluxroom.v1.ExportResponse\x12@\n" +
 	"\x06Backup\x12\x1a.fluxroom.v1.BackupRequest\x1a\x18.fluxroom.v1.BackupChunk0\x01\x12\\\n" +
-	"\x0fSetGroupMembers\x12#.fluxroom.v1.SetGroupMembersRequest\x1a$.fluxroom.v1.SetGroupMembersResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
+	"\x0fSetGroupMembers\x12#.fluxroom.v1.SetGroupMembersRequest\x1a$.fluxroom.v1.SetGroupMembersResponse2\x93\x03\n" +
+	"\fStaffService\x12G\n" +
+	"\bAddStaff\x12\x1c.fluxroom.v1.AddStaffRequest\x1a\x1d.fluxroom.v1.AddStaffResponse\x12J\n" +
+	"\tListStaff\x12\x1d.fluxroom.v1.ListStaffRequest\x1a\x1e.fluxroom.v1.ListStaffResponse\x12P\n" +
+	"\vRevokeStaff\x12\x1f.fluxroom.v1.RevokeStaffRequest\x1a .fluxroom.v1.RevokeStaffResponse\x12Y\n" +
+	"\x0eRotateStaffKey\x12\".fluxroom.v1.RotateStaffKeyRequest\x1a#.fluxroom.v1.RotateStaffKeyResponse\x12A\n" +
+	"\x06WhoAmI\x12\x1a.fluxroom.v1.WhoAmIRequest\x1a\x1b.fluxroom.v1.WhoAmIResponseB(Z&example.com/fluxroom/proto/rpcpb;rpcpbb\x06proto3"
 
 var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.JoinBenchRequest)(nil),         // 0: fluxroom.v1.JoinBenchRequest
@@ -72,24 +78,34 @@ var file_fluxroom_v1_service_proto_goTypes = []any{
 	(*fluxroompb.ExportRequest)(nil),            // 15: fluxroom.v1.ExportRequest
 	(*fluxroompb.BackupRequest)(nil),            // 16: fluxroom.v1.BackupRequest
 	(*fluxroompb.SetGroupMembersRequest)(nil),   // 17: fluxroom.v1.SetGroupMembersRequest
-	(*fluxroompb.JoinBenchResponse)(nil),        // 18: fluxroom.v1.JoinBenchResponse
-	(*fluxroompb.SubmitReadingResponse)(nil),    // 19: fluxroom.v1.SubmitReadingResponse
-	(*fluxroompb.GetBenchStateResponse)(nil),    // 20: fluxroom.v1.GetBenchStateResponse
-	(*fluxroompb.ListExperimentsResponse)(nil),  // 21: fluxroom.v1.ListExperimentsResponse
-	(*fluxroompb.CreateSessionResponse)(nil),    // 22: fluxroom.v1.CreateSessionResponse
-	(*fluxroompb.ListSessionsResponse)(nil),     // 23: fluxroom.v1.ListSessionsResponse
-	(*fluxroompb.SetBenchesResponse)(nil),       // 24: fluxroom.v1.SetBenchesResponse
-	(*fluxroompb.WatchRoomResponse)(nil),        // 25: fluxroom.v1.WatchRoomResponse
-	(*fluxroompb.GetBenchDetailResponse)(nil),   // 26: fluxroom.v1.GetBenchDetailResponse
-	(*fluxroompb.UpdateSessionResponse)(nil),    // 27: fluxroom.v1.UpdateSessionResponse
-	(*fluxroompb.CloseSessionResponse)(nil),     // 28: fluxroom.v1.CloseSessionResponse
-	(*fluxroompb.AddNoteResponse)(nil),          // 29: fluxroom.v1.AddNoteResponse
-	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 30: fluxroom.v1.AcknowledgeAlertResponse
-	(*fluxroompb.SetGradingPolicyResponse)(nil), // 31: fluxroom.v1.SetGradingPolicyResponse
-	(*fluxroompb.OverrideGradeResponse)(nil),    // 32: fluxroom.v1.OverrideGradeResponse
-	(*fluxroompb.ExportResponse)(nil),           // 33: fluxroom.v1.ExportResponse
-	(*fluxroompb.BackupChunk)(nil),              // 34: fluxroom.v1.BackupChunk
-	(*fluxroompb.SetGroupMembersResponse)(nil),  // 35: fluxroom.v1.SetGroupMembersResponse
+	(*fluxroompb.AddStaffRequest)(nil),          // 18: fluxroom.v1.AddStaffRequest
+	(*fluxroompb.ListStaffRequest)(nil),         // 19: fluxroom.v1.ListStaffRequest
+	(*fluxroompb.RevokeStaffRequest)(nil),       // 20: fluxroom.v1.RevokeStaffRequest
+	(*fluxroompb.RotateStaffKeyRequest)(nil),    // 21: fluxroom.v1.RotateStaffKeyRequest
+	(*fluxroompb.WhoAmIRequest)(nil),            // 22: fluxroom.v1.WhoAmIRequest
+	(*fluxroompb.JoinBenchResponse)(nil),        // 23: fluxroom.v1.JoinBenchResponse
+	(*fluxroompb.SubmitReadingResponse)(nil),    // 24: fluxroom.v1.SubmitReadingResponse
+	(*fluxroompb.GetBenchStateResponse)(nil),    // 25: fluxroom.v1.GetBenchStateResponse
+	(*fluxroompb.ListExperimentsResponse)(nil),  // 26: fluxroom.v1.ListExperimentsResponse
+	(*fluxroompb.CreateSessionResponse)(nil),    // 27: fluxroom.v1.CreateSessionResponse
+	(*fluxroompb.ListSessionsResponse)(nil),     // 28: fluxroom.v1.ListSessionsResponse
+	(*fluxroompb.SetBenchesResponse)(nil),       // 29: fluxroom.v1.SetBenchesResponse
+	(*fluxroompb.WatchRoomResponse)(nil),        // 30: fluxroom.v1.WatchRoomResponse
+	(*fluxroompb.GetBenchDetailResponse)(nil),   // 31: fluxroom.v1.GetBenchDetailResponse
+	(*fluxroompb.UpdateSessionResponse)(nil),    // 32: fluxroom.v1.UpdateSessionResponse
+	(*fluxroompb.CloseSessionResponse)(nil),     // 33: fluxroom.v1.CloseSessionResponse
+	(*fluxroompb.AddNoteResponse)(nil),          // 34: fluxroom.v1.AddNoteResponse
+	(*fluxroompb.AcknowledgeAlertResponse)(nil), // 35: fluxroom.v1.AcknowledgeAlertResponse
+	(*fluxroompb.SetGradingPolicyResponse)(nil), // 36: fluxroom.v1.SetGradingPolicyResponse
+	(*fluxroompb.OverrideGradeResponse)(nil),    // 37: fluxroom.v1.OverrideGradeResponse
+	(*fluxroompb.ExportResponse)(nil),           // 38: fluxroom.v1.ExportResponse
+	(*fluxroompb.BackupChunk)(nil),              // 39: fluxroom.v1.BackupChunk
+	(*fluxroompb.SetGroupMembersResponse)(nil),  // 40: fluxroom.v1.SetGroupMembersResponse
+	(*fluxroompb.AddStaffResponse)(nil),         // 41: fluxroom.v1.AddStaffResponse
+	(*fluxroompb.ListStaffResponse)(nil),        // 42: fluxroom.v1.ListStaffResponse
+	(*fluxroompb.RevokeStaffResponse)(nil),      // 43: fluxroom.v1.RevokeStaffResponse
+	(*fluxroompb.RotateStaffKeyResponse)(nil),   // 44: fluxroom.v1.RotateStaffKeyResponse
+	(*fluxroompb.WhoAmIResponse)(nil),           // 45: fluxroom.v1.WhoAmIResponse
 }
 var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	0,  // 0: fluxroom.v1.StationService.JoinBench:input_type -> fluxroom.v1.JoinBenchRequest
@@ -110,26 +126,36 @@ var file_fluxroom_v1_service_proto_depIdxs = []int32{
 	15, // 15: fluxroom.v1.InstructorService.Export:input_type -> fluxroom.v1.ExportRequest
 	16, // 16: fluxroom.v1.InstructorService.Backup:input_type -> fluxroom.v1.BackupRequest
 	17, // 17: fluxroom.v1.InstructorService.SetGroupMembers:input_type -> fluxroom.v1.SetGroupMembersRequest
-	18, // 18: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
-	19, // 19: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
-	20, // 20: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
-	21, // 21: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
-	22, // 22: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
-	23, // 23: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
-	24, // 24: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
-	25, // 25: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
-	26, // 26: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
-	27, // 27: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
-	28, // 28: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
-	29, // 29: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
-	30, // 30: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
-	31, // 31: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
-	32, // 32: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
-	33, // 33: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
-	34, // 34: fluxroom.v1.InstructorService.Backup:output_type -> fluxroom.v1.BackupChunk
-	35, // 35: fluxroom.v1.InstructorService.SetGroupMembers:output_type -> fluxroom.v1.SetGroupMembersResponse
-	18, // [18:36] is the sub-list for method output_type
-	0,  // [0:18] is the sub-list for method input_type
+	18, // 18: fluxroom.v1.StaffService.AddStaff:input_type -> fluxroom.v1.AddStaffRequest
+	19, // 19: fluxroom.v1.StaffService.ListStaff:input_type -> fluxroom.v1.ListStaffRequest
+	20, // 20: fluxroom.v1.StaffService.RevokeStaff:input_type -> fluxroom.v1.RevokeStaffRequest
+	21, // 21: fluxroom.v1.StaffService.RotateStaffKey:input_type -> fluxroom.v1.RotateStaffKeyRequest
+	22, // 22: fluxroom.v1.StaffService.WhoAmI:input_type -> fluxroom.v1.WhoAmIRequest
+	23, // 23: fluxroom.v1.StationService.JoinBench:output_type -> fluxroom.v1.JoinBenchResponse
+	24, // 24: fluxroom.v1.StationService.SubmitReading:output_type -> fluxroom.v1.SubmitReadingResponse
+	25, // 25: fluxroom.v1.StationService.GetBenchState:output_type -> fluxroom.v1.GetBenchStateResponse
+	26, // 26: fluxroom.v1.StationService.ListExperiments:output_type -> fluxroom.v1.ListExperimentsResponse
+	27, // 27: fluxroom.v1.InstructorService.CreateSession:output_type -> fluxroom.v1.CreateSessionResponse
+	28, // 28: fluxroom.v1.InstructorService.ListSessions:output_type -> fluxroom.v1.ListSessionsResponse
+	29, // 29: fluxroom.v1.InstructorService.SetBenches:output_type -> fluxroom.v1.SetBenchesResponse
+	30, // 30: fluxroom.v1.InstructorService.WatchRoom:output_type -> fluxroom.v1.WatchRoomResponse
+	31, // 31: fluxroom.v1.InstructorService.GetBenchDetail:output_type -> fluxroom.v1.GetBenchDetailResponse
+	32, // 32: fluxroom.v1.InstructorService.UpdateSession:output_type -> fluxroom.v1.UpdateSessionResponse
+	33, // 33: fluxroom.v1.InstructorService.CloseSession:output_type -> fluxroom.v1.CloseSessionResponse
+	34, // 34: fluxroom.v1.InstructorService.AddNote:output_type -> fluxroom.v1.AddNoteResponse
+	35, // 35: fluxroom.v1.InstructorService.AcknowledgeAlert:output_type -> fluxroom.v1.AcknowledgeAlertResponse
+	36, // 36: fluxroom.v1.InstructorService.SetGradingPolicy:output_type -> fluxroom.v1.SetGradingPolicyResponse
+	37, // 37: fluxroom.v1.InstructorService.OverrideGrade:output_type -> fluxroom.v1.OverrideGradeResponse
+	38, // 38: fluxroom.v1.InstructorService.Export:output_type -> fluxroom.v1.ExportResponse
+	39, // 39: fluxroom.v1.InstructorService.Backup:output_type -> fluxroom.v1.BackupChunk
+	40, // 40: fluxroom.v1.InstructorService.SetGroupMembers:output_type -> fluxroom.v1.SetGroupMembersResponse
+	41, // 41: fluxroom.v1.StaffService.AddStaff:output_type -> fluxroom.v1.AddStaffResponse
+	42, // 42: fluxroom.v1.StaffService.ListStaff:output_type -> fluxroom.v1.ListStaffResponse
+	43, // 43: fluxroom.v1.StaffService.RevokeStaff:output_type -> fluxroom.v1.RevokeStaffResponse
+	44, // 44: fluxroom.v1.StaffService.RotateStaffKey:output_type -> fluxroom.v1.RotateStaffKeyResponse
+	45, // 45: fluxroom.v1.StaffService.WhoAmI:output_type -> fluxroom.v1.WhoAmIResponse
+	23, // [23:46] is the sub-list for method output_type
+	0,  // [0:23] is the sub-list for method input_type
 	0,  // [0:0] is the sub-list for extension type_name
 	0,  // [0:0] is the sub-list for extension extendee
 	0,  // [0:0] is the sub-list for field type_name
@@ -148,7 +174,7 @@ func file_fluxroom_v1_service_proto_init() {
 			NumEnums:      0,
 			NumMessages:   0,
 			NumExtensions: 0,
-			NumServices:   2,
+			NumServices:   3,
 		},
 		GoTypes:           file_fluxroom_v1_service_proto_goTypes,
 		DependencyIndexes: file_fluxroom_v1_service_proto_depIdxs,

@@ -281,8 +281,10 @@ const (
 //
 // For semantics around ctx use and closing/ending streaming RPCs, please refer to https://pkg.go.dev/google.golang.org/grpc/?tab=doc#ClientConn.NewStream.
 //
-// InstructorService is used by the instructor's dashboard; every call needs
-// the instructor key as "authorization: Bearer <key>".
+// InstructorService is used by the dashboard; every call needs a staff key
+// or the administrator's key as "authorization: Bearer <key>", and is
+// allowed by the caller's role in the session's course (README.md, "Who may
+// do what").
 type InstructorServiceClient interface {
 	CreateSession(ctx context.Context, in *fluxroompb.CreateSessionRequest, opts ...grpc.CallOption) (*fluxroompb.CreateSessionResponse, error)
 	ListSessions(ctx context.Context, in *fluxroompb.ListSessionsRequest, opts ...grpc.CallOption) (*fluxroompb.ListSessionsResponse, error)
@@ -482,8 +484,10 @@ func (c *instructorServiceClient) SetGroupMembers(ctx context.Context, in *fluxr
 // All implementations must embed UnimplementedInstructorServiceServer
 // for forward compatibility.
 //
-// InstructorService is used by the instructor's dashboard; every call needs
-// the instructor key as "authorization: Bearer <key>".
+// InstructorService is used by the dashboard; every call needs a staff key
+// or the administrator's key as "authorization: Bearer <key>", and is
+// allowed by the caller's role in the session's course (README.md, "Who may
+// do what").
 type InstructorServiceServer interface {
 	CreateSession(context.Context, *fluxroompb.CreateSessionRequest) (*fluxroompb.CreateSessionResponse, error)
 	ListSessions(context.Context, *fluxroompb.ListSessionsRequest) (*fluxroompb.ListSessionsResponse, error)
@@ -890,5 +894,275 @@ var InstructorService_ServiceDesc = grpc.ServiceDesc{
 			ServerStreams: true,
 		},
 	},
+	Metadata: "fluxroom/v1/service.proto",
+}
+
+const (
+	StaffService_AddStaff_FullMethodName       = "/fluxroom.v1.StaffService/AddStaff"
+	StaffService_ListStaff_FullMethodName      = "/fluxroom.v1.StaffService/ListStaff"
+	StaffService_RevokeStaff_FullMethodName    = "/fluxroom.v1.StaffService/RevokeStaff"
+	StaffService_RotateStaffKey_FullMethodName = "/fluxroom.v1.StaffService/RotateStaffKey"
+	StaffService_WhoAmI_FullMethodName         = "/fluxroom.v1.StaffService/WhoAmI"
+)
+
+// StaffServiceClient is the client API for StaffService service.
+//
+// For semantics around ctx use and closing/ending streaming RPCs, please refer to https://pkg.go.dev/google.golang.org/grpc/?tab=doc#ClientConn.NewStream.
+//
+// StaffService manages staff accounts: the administrator's key manages
+// everyone; an instructor manages the assistants of their own courses.
+type StaffServiceClient interface {
+	// AddStaff creates an account and returns its key, shown once.
+	AddStaff(ctx context.Context, in *fluxroompb.AddStaffRequest, opts ...grpc.CallOption) (*fluxroompb.AddStaffResponse, error)
+	// ListStaff lists the accounts the caller may manage.
+	ListStaff(ctx context.Context, in *fluxroompb.ListStaffRequest, opts ...grpc.CallOption) (*fluxroompb.ListStaffResponse, error)
+	// RevokeStaff stops an account's key at once, open room streams too.
+	RevokeStaff(ctx context.Context, in *fluxroompb.RevokeStaffRequest, opts ...grpc.CallOption) (*fluxroompb.RevokeStaffResponse, error)
+	// RotateStaffKey gives an account a new key; the old one stops at once.
+	RotateStaffKey(ctx context.Context, in *fluxroompb.RotateStaffKeyRequest, opts ...grpc.CallOption) (*fluxroompb.RotateStaffKeyResponse, error)
+	// WhoAmI says whose key this is and what it may do.
+	WhoAmI(ctx context.Context, in *fluxroompb.WhoAmIRequest, opts ...grpc.CallOption) (*fluxroompb.WhoAmIResponse, error)
+}
+
+type staffServiceClient struct {
+	cc grpc.ClientConnInterface
+}
+
+func NewStaffServiceClient(cc grpc.ClientConnInterface) StaffServiceClient {
+	return &staffServiceClient{cc}
+}
+
+func (c *staffServiceClient) AddStaff(ctx context.Context, in *fluxroompb.AddStaffRequest, opts ...grpc.CallOption) (*fluxroompb.AddStaffResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.AddStaffResponse)
+	err := c.cc.Invoke(ctx, StaffService_AddStaff_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *staffServiceClient) ListStaff(ctx context.Context, in *fluxroompb.ListStaffRequest, opts ...grpc.CallOption) (*fluxroompb.ListStaffResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.ListStaffResponse)
+	err := c.cc.Invoke(ctx, StaffService_ListStaff_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *staffServiceClient) RevokeStaff(ctx context.Context, in *fluxroompb.RevokeStaffRequest, opts ...grpc.CallOption) (*fluxroompb.RevokeStaffResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.RevokeStaffResponse)
+	err := c.cc.Invoke(ctx, StaffService_RevokeStaff_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *staffServiceClient) RotateStaffKey(ctx context.Context, in *fluxroompb.RotateStaffKeyRequest, opts ...grpc.CallOption) (*fluxroompb.RotateStaffKeyResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.RotateStaffKeyResponse)
+	err := c.cc.Invoke(ctx, StaffService_RotateStaffKey_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+func (c *staffServiceClient) WhoAmI(ctx context.Context, in *fluxroompb.WhoAmIRequest, opts ...grpc.CallOption) (*fluxroompb.WhoAmIResponse, error) {
+	cOpts := append([]grpc.CallOption{grpc.StaticMethod()}, opts...)
+	out := new(fluxroompb.WhoAmIResponse)
+	err := c.cc.Invoke(ctx, StaffService_WhoAmI_FullMethodName, in, out, cOpts...)
+	if err != nil {
+		return nil, err
+	}
+	return out, nil
+}
+
+// StaffServiceServer is the server API for StaffService service.
+// All implementations must embed UnimplementedStaffServiceServer
+// for forward compatibility.
+//
+// StaffService manages staff accounts: the administrator's key manages
+// everyone; an instructor manages the assistants of their own courses.
+type StaffServiceServer interface {
+	// AddStaff creates an account and returns its key, shown once.
+	AddStaff(context.Context, *fluxroompb.AddStaffRequest) (*fluxroompb.AddStaffResponse, error)
+	// ListStaff lists the accounts the caller may manage.
+	ListStaff(context.Context, *fluxroompb.ListStaffRequest) (*fluxroompb.ListStaffResponse, error)
+	// RevokeStaff stops an account's key at once, open room streams too.
+	RevokeStaff(context.Context, *fluxroompb.RevokeStaffRequest) (*fluxroompb.RevokeStaffResponse, error)
+	// RotateStaffKey gives an account a new key; the old one stops at once.
+	RotateStaffKey(context.Context, *fluxroompb.RotateStaffKeyRequest) (*fluxroompb.RotateStaffKeyResponse, error)
+	// WhoAmI says whose key this is and what it may do.
+	WhoAmI(context.Context, *fluxroompb.WhoAmIRequest) (*fluxroompb.WhoAmIResponse, error)
+	mustEmbedUnimplementedStaffServiceServer()
+}
+
+// UnimplementedStaffServiceServer must be embedded to have
+// forward compatible implementations.
+//
+// NOTE: this should be embedded by value instead of pointer to avoid a nil
+// pointer dereference when methods are called.
+type UnimplementedStaffServiceServer struct{}
+
+func (UnimplementedStaffServiceServer) AddStaff(context.Context, *fluxroompb.AddStaffRequest) (*fluxroompb.AddStaffResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method AddStaff not implemented")
+}
+func (UnimplementedStaffServiceServer) ListStaff(context.Context, *fluxroompb.ListStaffRequest) (*fluxroompb.ListStaffResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method ListStaff not implemented")
+}
+func (UnimplementedStaffServiceServer) RevokeStaff(context.Context, *fluxroompb.RevokeStaffRequest) (*fluxroompb.RevokeStaffResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RevokeStaff not implemented")
+}
+func (UnimplementedStaffServiceServer) RotateStaffKey(context.Context, *fluxroompb.RotateStaffKeyRequest) (*fluxroompb.RotateStaffKeyResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method RotateStaffKey not implemented")
+}
+func (UnimplementedStaffServiceServer) WhoAmI(context.Context, *fluxroompb.WhoAmIRequest) (*fluxroompb.WhoAmIResponse, error) {
+	return nil, status.Error(codes.Unimplemented, "method WhoAmI not implemented")
+}
+func (UnimplementedStaffServiceServer) mustEmbedUnimplementedStaffServiceServer() {}
+func (UnimplementedStaffServiceServer) testEmbeddedByValue()                      {}
+
+// UnsafeStaffServiceServer may be embedded to opt out of forward compatibility for this service.
+// Use of this interface is not recommended, as added methods to StaffServiceServer will
+// result in compilation errors.
+type UnsafeStaffServiceServer interface {
+	mustEmbedUnimplementedStaffServiceServer()
+}
+
+func RegisterStaffServiceServer(s grpc.ServiceRegistrar, srv StaffServiceServer) {
+	// If the following call panics, it indicates UnimplementedStaffServiceServer was
+	// embedded by pointer and is nil.  This will cause panics if an
+	// unimplemented method is ever invoked, so we test this at initialization
+	// time to prevent it from happening at runtime later due to I/O.
+	if t, ok := srv.(interface{ testEmbeddedByValue() }); ok {
+		t.testEmbeddedByValue()
+	}
+	s.RegisterService(&StaffService_ServiceDesc, srv)
+}
+
+func _StaffService_AddStaff_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.AddStaffRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StaffServiceServer).AddStaff(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StaffService_AddStaff_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StaffServiceServer).AddStaff(ctx, req.(*fluxroompb.AddStaffRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _StaffService_ListStaff_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.ListStaffRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StaffServiceServer).ListStaff(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StaffService_ListStaff_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StaffServiceServer).ListStaff(ctx, req.(*fluxroompb.ListStaffRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _StaffService_RevokeStaff_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.RevokeStaffRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StaffServiceServer).RevokeStaff(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StaffService_RevokeStaff_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StaffServiceServer).RevokeStaff(ctx, req.(*fluxroompb.RevokeStaffRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _StaffService_RotateStaffKey_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.RotateStaffKeyRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StaffServiceServer).RotateStaffKey(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StaffService_RotateStaffKey_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StaffServiceServer).RotateStaffKey(ctx, req.(*fluxroompb.RotateStaffKeyRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+func _StaffService_WhoAmI_Handler(srv interface{}, ctx context.Context, dec func(interface{}) error, interceptor grpc.UnaryServerInterceptor) (interface{}, error) {
+	in := new(fluxroompb.WhoAmIRequest)
+	if err := dec(in); err != nil {
+		return nil, err
+	}
+	if interceptor == nil {
+		return srv.(StaffServiceServer).WhoAmI(ctx, in)
+	}
+	info := &grpc.UnaryServerInfo{
+		Server:     srv,
+		FullMethod: StaffService_WhoAmI_FullMethodName,
+	}
+	handler := func(ctx context.Context, req interface{}) (interface{}, error) {
+		return srv.(StaffServiceServer).WhoAmI(ctx, req.(*fluxroompb.WhoAmIRequest))
+	}
+	return interceptor(ctx, in, info, handler)
+}
+
+// StaffService_ServiceDesc is the grpc.ServiceDesc for StaffService service.
+// It's only intended for direct use with grpc.RegisterService,
+// and not to be introspected or modified (even as a copy)
+var StaffService_ServiceDesc = grpc.ServiceDesc{
+	ServiceName: "fluxroom.v1.StaffService",
+	HandlerType: (*StaffServiceServer)(nil),
+	Methods: []grpc.MethodDesc{
+		{
+			MethodName: "AddStaff",
+			Handler:    _StaffService_AddStaff_Handler,
+		},
+		{
+			MethodName: "ListStaff",
+			Handler:    _StaffService_ListStaff_Handler,
+		},
+		{
+			MethodName: "RevokeStaff",
+			Handler:    _StaffService_RevokeStaff_Handler,
+		},
+		{
+			MethodName: "RotateStaffKey",
+			Handler:    _StaffService_RotateStaffKey_Handler,
+		},
+		{
+			MethodName: "WhoAmI",
+			Handler:    _StaffService_WhoAmI_Handler,
+		},
+	},
+	Streams:  []grpc.StreamDesc{},
 	Metadata: "fluxroom/v1/service.proto",
 }

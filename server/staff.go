@@ -1,0 +1,334 @@
+package server
+
+import (
+	"context"
+	"crypto/sha256"
+	"errors"
+	"fmt"
+	"maps"
+	"slices"
+	"strings"
+	"sync"
+
+	"google.golang.org/grpc/codes"
+	"google.golang.org/grpc/status"
+	"google.golang.org/protobuf/types/known/timestamppb"
+
+	"example.com/fluxroom/domain"
+	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
+	"example.com/fluxroom/store"
+)
+
+// caller is the person behind a staff call: the administrator's key, or a
+// staff account.
+type caller struct {
+	admin bool
+	staff domain.Staff
+}
+
+// adminName is how the audit log names the administrator's key.
+const adminName = "administrator"
+
+func (c caller) name() string {
+	if c.admin {
+		return adminName
+	}
+	return c.staff.Name
+}
+
+// allows returns nil when the caller may take the action in the course,
+// else PermissionDenied with the reason.
+func (c caller) allows(a domain.Action, course string) error {
+	if c.admin {
+		return nil
+	}
+	if ok, why := c.staff.Allows(a, course); !ok {
+		return status.Error(codes.PermissionDenied, why)
+	}
+	return nil
+}
+
+// courses says which courses the caller may take the action in; all is
+// true for the administrator.
+func (c caller) courses(a domain.Action) (courses []string, all bool) {
+	if c.admin {
+		return nil, true
+	}
+	return c.staff.Courses(a), false
+}
+
+type callerKey struct{}
+
+// callerOf returns the caller authorize found for a staff call.
+func callerOf(ctx context.Context) (caller, bool) {
+	c, ok := ctx.Value(callerKey{}).(caller)
+	return c, ok
+}
+
+// staffKeys is the server's view of the staff accounts: every key's hash
+// to its account, and each account's open streams, ended when its key is
+// revoked or replaced. Only the StaffService changes accounts, under mu,
+// writing the file first.
+type staffKeys struct {
+	mu      sync.RWMutex
+	byHash  map[[32]byte]uint64
+	byID    map[uint64]store.StaffAccount
+	streams map[uint64]map[*int]context.CancelCauseFunc
+}
+
+func loadStaffKeys(db *store.DB) (*staffKeys, error) {
+	all, err := db.StaffAccounts()
+	if err != nil {
+		return nil, err
+	}
+	k := &staffKeys{byHash: map[[32]byte]uint64{}, byID: map[uint64]store.StaffAccount{}, streams: map[uint64]map[*int]context.CancelCauseFunc{}}
+	for _, a := range all {
+		k.put(a)
+	}
+	return k, nil
+}
+
+// put records an account as stored; call with mu held (or before sharing).
+func (k *staffKeys) put(a store.StaffAccount) {
+	if old, ok := k.byID[a.ID]; ok {
+		delete(k.byHash, [32]byte(old.KeyHash))
+	}
+	k.byID[a.ID] = a
+	if len(a.KeyHash) == sha256.Size {
+		k.byHash[[32]byte(a.KeyHash)] = a.ID
+	}
+}
+
+// lookup finds the account of a key's hash, revoked ones too.
+func (k *staffKeys) lookup(hash [32]byte) (domain.Staff, bool) {
+	k.mu.RLock()
+	defer k.mu.RUnlock()
+	id, ok := k.byHash[hash]
+	if !ok {
+		return domain.Staff{}, false
+	}
+	return k.byID[id].Staff, true
+}
+
+// watch ties a stream's context to the account: it ends, with the reason,
+// when the account's key stops working.
+func (k *staffKeys) watch(ctx context.Context, staffID uint64) (context.Context, func()) {
+	ctx, cancel := context.WithCancelCause(ctx)
+	tag := new(int)
+	k.mu.Lock()
+	if k.streams[staffID] == nil {
+		k.streams[staffID] = map[*int]context.CancelCauseFunc{}
+	}
+	k.streams[staffID][tag] = cancel
+	k.mu.Unlock()
+	return ctx, func() {
+		k.mu.Lock()
+		delete(k.streams[staffID], tag)
+		k.mu.Unlock()
+		cancel(nil)
+	}
+}
+
+// endStreams ends every open stream of an account; call with mu held.
+func (k *staffKeys) endStreams(staffID uint64, why string) {
+	for _, cancel := range k.streams[staffID] {
+		cancel(status.Error(codes.Unauthenticated, why))
+	}
+	delete(k.streams, staffID)
+}
+
+type staffService struct {
+	rpcpb.UnimplementedStaffServiceServer
+	s *Server
+}
+
+func roleFromPB(r pb.StaffRole) domain.Role {
+	switch r {
+	case pb.StaffRole_STAFF_ROLE_INSTRUCTOR:
+		return domain.RoleInstructor
+	case pb.StaffRole_STAFF_ROLE_ASSISTANT:
+		return domain.RoleAssistant
+	}
+	return ""
+}
+
+func roleToPB(r domain.Role) pb.StaffRole {
+	switch r {
+	case domain.RoleInstructor:
+		return pb.StaffRole_STAFF_ROLE_INSTRUCTOR
+	case domain.RoleAssistant:
+		return pb.StaffRole_STAFF_ROLE_ASSISTANT
+	}
+	return pb.StaffRole_STAFF_ROLE_UNSPECIFIED
+}
+
+func rolesToPB(roles map[string]domain.Role) []*pb.CourseRole {
+	var out []*pb.CourseRole
+	for _, c := range slices.Sorted(maps.Keys(roles)) {
+		out = append(out, &pb.CourseRole{Course: c, Role: roleToPB(roles[c])})
+	}
+	return out
+}
+
+func staffToPB(s domain.Staff) *pb.StaffMember {
+	m := &pb.StaffMember{StaffId: s.ID, Name: s.Name, Roles: rolesToPB(s.Roles), Revoked: s.Revoked}
+	if !s.CreatedAt.IsZero() {
+		m.CreatedAt = timestamppb.New(s.CreatedAt)
+	}
+	return m
+}
+
+// staffCaller is the caller of a StaffService call.
+func staffCaller(ctx context.Context) (caller, error) {
+	c, ok := callerOf(ctx)
+	if !ok {
+		return caller{}, status.Error(codes.Unauthenticated, "this call needs a staff key or the administrator's key")
+	}
+	return c, nil
+}
+
+// AddStaff creates an account with a name and a role per course, and returns its key once. The
+// administrator adds anyone; an instructor adds assistants to their own courses.
+func (ss staffService) AddStaff(ctx context.Context, req *pb.AddStaffRequest) (*pb.AddStaffResponse, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return nil, err
+	}
+	st := domain.Staff{Name: strings.TrimSpace(req.GetName()), Roles: map[string]domain.Role{}, CreatedAt: ss.s.now()}
+	field := map[string]string{}
+	var vs []domain.FieldViolation
+	for i, r := range req.GetRoles() {
+		course := strings.TrimSpace(r.GetCourse())
+		f := fmt.Sprintf("roles[%d]", i)
+		if _, dup := st.Roles[course]; dup {
+			vs = append(vs, domain.FieldViolation{Field: f + ".course", Reason: fmt.Sprintf("course %q is given twice", course)})
+		}
+		st.Roles[course], field[course] = roleFromPB(r.GetRole()), f
+	}
+	if err := domain.ValidateStaff(st, func(course string) string { return field[course] }); err != nil {
+		var ve *domain.ValidationError
+		errors.As(err, &ve)
+		vs = append(vs, ve.Violations...)
+	}
+	if len(vs) > 0 {
+		return nil, &domain.ValidationError{Violations: vs}
+	}
+	if !c.admin {
+		if ok, why := c.staff.MayManage(st.Roles); !ok {
+			return nil, status.Error(codes.PermissionDenied, why)
+		}
+	}
+	k := ss.s.staff
+	k.mu.Lock()
+	defer k.mu.Unlock()
+	for _, a := range k.byID {
+		if !a.Revoked && strings.EqualFold(a.Name, st.Name) {
+			return nil, status.Errorf(codes.AlreadyExists, "name: %q already has an account (id %d); the audit log names people, so each name is one person", a.Name, a.ID)
+		}
+	}
+	key := newKey()
+	hash := hashKey(key)
+	if st, err = ss.s.db.AddStaff(st, hash); err != nil {
+		return nil, err
+	}
+	k.put(store.StaffAccount{Staff: st, KeyHash: hash})
+	ss.s.log.Info("staff added", "staff_id", st.ID, "name", st.Name, "by", c.name())
+	return &pb.AddStaffResponse{Staff: staffToPB(st), Key: key}, nil
+}
+
+// ListStaff lists the accounts the caller may manage: all of them for the administrator, the
+// people with a role in an instructor's own courses for an instructor.
+func (ss staffService) ListStaff(ctx context.Context, req *pb.ListStaffRequest) (*pb.ListStaffResponse, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return nil, err
+	}
+	mine, all := c.courses(domain.ActManageAssistants)
+	if !all && len(mine) == 0 {
+		return nil, status.Errorf(codes.PermissionDenied, "%s is an instructor of no course, and only instructors and the administrator may list staff", c.name())
+	}
+	k := ss.s.staff
+	k.mu.RLock()
+	defer k.mu.RUnlock()
+	out := &pb.ListStaffResponse{}
+	for _, id := range slices.Sorted(maps.Keys(k.byID)) {
+		a := k.byID[id]
+		if all || slices.ContainsFunc(mine, func(course string) bool { _, ok := a.Roles[course]; return ok }) {
+			out.Staff = append(out.Staff, staffToPB(a.Staff))
+		}
+	}
+	return out, nil
+}
+
+// target finds the account a call names and checks the caller may manage it; self lets a person
+// act on their own account. Call with k.mu held.
+func (ss staffService) target(c caller, id uint64, self bool) (store.StaffAccount, error) {
+	a, ok := ss.s.staff.byID[id]
+	if !ok {
+		return store.StaffAccount{}, domain.Invalid("staff_id", "no staff account %d", id)
+	}
+	if c.admin || self && c.staff.ID == id {
+		return a, nil
+	}
+	if ok, why := c.staff.MayManage(a.Roles); !ok {
+		return store.StaffAccount{}, status.Errorf(codes.PermissionDenied, "%s may not change the account of %s: %s", c.name(), a.Name, why)
+	}
+	return a, nil
+}
+
+// RevokeStaff stops an account's key at once: its next call is refused and its open room streams
+// end. The account stays, so the audit log still names the person.
+func (ss staffService) RevokeStaff(ctx context.Context, req *pb.RevokeStaffRequest) (*pb.RevokeStaffResponse, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return nil, err
+	}
+	k := ss.s.staff
+	k.mu.Lock()
+	defer k.mu.Unlock()
+	a, err := ss.target(c, req.GetStaffId(), false)
+	if err != nil {
+		return nil, err
+	}
+	if a, err = ss.s.db.UpdateStaff(a.ID, true, nil); err != nil {
+		return nil, err
+	}
+	k.put(a)
+	k.endStreams(a.ID, fmt.Sprintf("the key of %s was revoked by %s", a.Name, c.name()))
+	ss.s.log.Info("staff revoked", "staff_id", a.ID, "name", a.Name, "by", c.name())
+	return &pb.RevokeStaffResponse{Staff: staffToPB(a.Staff)}, nil
+}
+
+// RotateStaffKey gives an account a new key, shown once; the old key stops at once, open streams
+// too. A revoked account comes back with the new key. Anyone may rotate their own key.
+func (ss staffService) RotateStaffKey(ctx context.Context, req *pb.RotateStaffKeyRequest) (*pb.RotateStaffKeyResponse, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return nil, err
+	}
+	k := ss.s.staff
+	k.mu.Lock()
+	defer k.mu.Unlock()
+	a, err := ss.target(c, req.GetStaffId(), true)
+	if err != nil {
+		return nil, err
+	}
+	key := newKey()
+	if a, err = ss.s.db.UpdateStaff(a.ID, false, hashKey(key)); err != nil {
+		return nil, err
+	}
+	k.put(a)
+	k.endStreams(a.ID, fmt.Sprintf("the key of %s was replaced by %s; use the new one", a.Name, c.name()))
+	ss.s.log.Info("staff key rotated", "staff_id", a.ID, "name", a.Name, "by", c.name())
+	return &pb.RotateStaffKeyResponse{Staff: staffToPB(a.Staff), Key: key}, nil
+}
+
+// WhoAmI says whose key the call carries and what it may do.
+func (ss staffService) WhoAmI(ctx context.Context, req *pb.WhoAmIRequest) (*pb.WhoAmIResponse, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return nil, err
+	}
+	return &pb.WhoAmIResponse{Name: c.name(), Administrator: c.admin, Roles: rolesToPB(c.staff.Roles), StaffId: c.staff.ID}, nil
+}
