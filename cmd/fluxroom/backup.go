@@ -18,7 +18,7 @@ import (
 func (m *Main) backupCmd(ctx context.Context, args []string) error {
 	fs := m.newFlags("backup")
 	addr := fs.String("server", "", "a running server, host:port (hot backup)")
-	key := fs.String("instructor-key", "", "the instructor key, for --server")
+	key := keyFlag(fs)
 	dbPath := fs.String("db", "", "the database file, when no server is running")
 	out := fs.String("out", "", "the backup file to write")
 	client := addClientFlags(fs)
@@ -26,7 +26,7 @@ func (m *Main) backupCmd(ctx context.Context, args []string) error {
 		return err
 	}
 	if *out == "" || (*addr == "") == (*dbPath == "") {
-		return usageError{"backup: give --out and one of --server (with --instructor-key) or --db"}
+		return usageError{"backup: give --out and one of --server (with --key) or --db"}
 	}
 	tmp := *out + ".partial"
 	f, err := os.Create(tmp)

@@ -46,7 +46,7 @@ func TestHotBackupAndRestore(t *testing.T) {
 			send(i)
 		}
 	}()
-	err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"backup", "--server", p.addr, "--instructor-key", testKey, "--out", out})
+	err := NewMain(io.Discard, io.Discard).Run(ctx, []string{"backup", "--server", p.addr, "--key", testKey, "--out", out})
 	wg.Wait()
 	if err != nil {
 		t.Fatal(err)

@@ -29,8 +29,16 @@ func addClientFlags(fs *flag.FlagSet) clientFlags {
 	}
 }
 
-// dial connects to addr; key, when set, is sent as the instructor's bearer
-// token with every call.
+// keyFlag registers --key, the caller's staff key or the administrator's,
+// and --instructor-key, its name before staff accounts, on the same value.
+func keyFlag(fs *flag.FlagSet) *string {
+	k := fs.String("key", "", "your staff key, or the administrator's key, for --server")
+	fs.StringVar(k, "instructor-key", "", "the same as --key (its name before staff accounts)")
+	return k
+}
+
+// dial connects to addr; key, when set, is sent as the bearer token with
+// every call.
 func (c clientFlags) dial(addr, key string) (*grpc.ClientConn, error) {
 	creds := insecure.NewCredentials()
 	if *c.tls || *c.tlsCA != "" {

@@ -95,7 +95,7 @@ func startProgram(t testing.TB, web, dbPath, addr string, extra ...string) *prog
 	ctx, cancel := context.WithCancel(context.Background())
 	p := &program{cancel: cancel, done: make(chan error, 1)}
 	go func() {
-		p.done <- m.Run(ctx, append([]string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--instructor-key", testKey}, extra...))
+		p.done <- m.Run(ctx, append([]string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--admin-key", testKey}, extra...))
 	}()
 	select {
 	case a := <-ready:

@@ -21,7 +21,7 @@ func (m *Main) exportCmd(ctx context.Context, args []string) error {
 	fs := m.newFlags("export")
 	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "the bbolt database file, when no server runs")
 	addr := fs.String("server", "", "a running server, host:port: export over its Export RPC")
-	key := fs.String("instructor-key", "", "the instructor key, for --server")
+	key := keyFlag(fs)
 	client := addClientFlags(fs)
 	session := fs.Uint64("session", 0, "the session id (fluxroom export --db … lists them when left out)")
 	format := fs.String("format", "csv", "csv (gradebook), readings, json or html")
@@ -146,7 +146,7 @@ func (m *Main) exportFromServer(ctx context.Context, client clientFlags, addr, k
 	case session == 0:
 		return usageError{"export --server: --session is required"}
 	case key == "":
-		return usageError{"export --server: --instructor-key is required"}
+		return usageError{"export --server: --key is required (your staff key or the administrator's)"}
 	}
 	conn, err := client.dial(addr, key)
 	if err != nil {

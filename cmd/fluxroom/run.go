@@ -69,7 +69,8 @@ Commands:
   submit  send a readings CSV to a live session: fluxroom submit --server HOST:PORT --code CODE --bench LABEL FILE.csv
   export  write a session's gradebook, readings, JSON or report: fluxroom export --db FILE --session N --format csv|readings|json|html --out FILE
   catalogue list every diagnosis code with its cause and suggested action
-  backup  copy the database while serving: fluxroom backup --server HOST:PORT --instructor-key KEY --out FILE (or --db FILE)
+  backup  copy the database while serving: fluxroom backup --server HOST:PORT --key KEY --out FILE (or --db FILE)
+  staff   staff accounts: fluxroom staff add|list|revoke|rotate|whoami --server HOST:PORT --key KEY ...
   restore put a checked backup in place (server stopped): fluxroom restore --from FILE --db FILE
   version print the version
   help    show this text
@@ -102,6 +103,8 @@ func (m *Main) Run(ctx context.Context, args []string) error {
 		return m.backupCmd(ctx, args[1:])
 	case "restore":
 		return m.restoreCmd(ctx, args[1:])
+	case "staff":
+		return m.staffCmd(ctx, args[1:])
 	case "version":
 		return m.versionCmd(ctx, args[1:])
 	case "help", "-h", "--help":
@@ -304,8 +307,11 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	dbPath := fs.String("db", "fluxroom-data/fluxroom.db", "bbolt database file (created if missing)")
 	addr := fs.String("addr", "127.0.0.1:8080", "host:port to listen on, for gRPC and the dashboard")
 	level := fs.String("log-level", "info", "log level: debug, info, warn or error")
-	key := fs.String("instructor-key", "", "the instructor's credential (default: the one stored, or a new one shown once)")
-	keyFile := fs.String("instructor-key-file", "", "read the instructor key from this file")
+	key := fs.String("admin-key", "", "the administrator's key (default: the one stored, or a new one shown once)")
+	keyFile := fs.String("admin-key-file", "", "read the administrator's key from this file")
+	// Their names before staff accounts, on the same values.
+	fs.StringVar(key, "instructor-key", "", "the same as --admin-key")
+	fs.StringVar(keyFile, "instructor-key-file", "", "the same as --admin-key-file")
 	tlsCert := fs.String("tls-cert", "", "TLS certificate file (PEM); with --tls-key, serves gRPC and the dashboard over TLS")
 	tlsKey := fs.String("tls-key", "", "TLS private key file (PEM)")
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
@@ -325,12 +331,12 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if *keyFile != "" {
 		b, err := os.ReadFile(*keyFile)
 		if err != nil {
-			return fmt.Errorf("--instructor-key-file: %w", err)
+			return fmt.Errorf("--admin-key-file: %w", err)
 		}
 		*key = strings.TrimSpace(string(b))
 	}
 	if *key != "" && len(*key) < 16 {
-		return usageError{"--instructor-key must be at least 16 characters"}
+		return usageError{"--admin-key must be at least 16 characters"}
 	}
 	if *gcPercent <= 0 {
 		return usageError{"--gc-percent must be positive"}
@@ -363,7 +369,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 		scheme = "https"
 	}
 	if r.key != "" {
-		fmt.Fprintf(m.Stderr, "\nNew instructor key (shown once; only its hash is stored):\n\n    %s\n\nOpen the dashboard with it: %s://%s/#key=%s\n\n", r.key, scheme, r.addr, r.key)
+		fmt.Fprintf(m.Stderr, "\nNew administrator's key (shown once; only its hash is stored):\n\n    %s\n\nOpen the dashboard with it: %s://%s/#key=%s\nGive instructors their own keys: fluxroom staff add --help\n\n", r.key, scheme, r.addr, r.key)
 	}
 	if !r.tls {
 		warnPlaintext(log, r.addr)
