@@ -26,6 +26,11 @@ const (
 	ProcSetGradingPolicy = "/fluxroom.v1.InstructorService/SetGradingPolicy"
 	ProcOverrideGrade    = "/fluxroom.v1.InstructorService/OverrideGrade"
 	ProcExport           = "/fluxroom.v1.InstructorService/Export"
+	ProcAddStaff         = "/fluxroom.v1.StaffService/AddStaff"
+	ProcListStaff        = "/fluxroom.v1.StaffService/ListStaff"
+	ProcRevokeStaff      = "/fluxroom.v1.StaffService/RevokeStaff"
+	ProcRotateStaffKey   = "/fluxroom.v1.StaffService/RotateStaffKey"
+	ProcWhoAmI           = "/fluxroom.v1.StaffService/WhoAmI"
 	ProcJoinBench        = "/fluxroom.v1.StationService/JoinBench"
 	ProcSubmitReading    = "/fluxroom.v1.StationService/SubmitReading"
 	ProcGetBenchState    = "/fluxroom.v1.StationService/GetBenchState"
@@ -51,7 +56,8 @@ const (
 // app.wasm about a third smaller.
 type api struct {
 	base string
-	// token is the instructor key or the station token, sent as
+	// token is a staff key, the administrator's key or the station token,
+	// sent as
 	// "authorization: Bearer <token>".
 	token string
 }
@@ -84,7 +90,7 @@ func codeName(c int) string {
 	case codeDataLoss:
 		return "data loss"
 	case codeUnauthenticated:
-		return "needs the instructor key"
+		return "needs a staff key"
 	case codePermission:
 		return "not allowed"
 	case codeExhausted:

@@ -85,7 +85,9 @@ func (r *Room) renderDetail() app.UI {
 					})),
 					&MembersForm{SessionID: r.sessionID(), BenchID: r.open, Members: st.GetBench().GetMembers()},
 					&NoteForm{SessionID: r.sessionID(), BenchID: r.open},
-					&OverrideForm{SessionID: r.sessionID(), BenchID: r.open},
+					// Grades are the course instructors' (the server refuses
+					// anyone else); an assistant is not shown the form.
+					app.If(r.who.instructs(r.session.GetCourse()), &OverrideForm{SessionID: r.sessionID(), BenchID: r.open}),
 				),
 			),
 		)
@@ -259,7 +261,7 @@ func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 	text, sid, bid := f.text, f.SessionID, f.BenchID
 	c := newAPI(baseURL()).withToken(storedKey(ctx))
 	ctx.Async(func() {
-		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text, Author: "instructor"})
+		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text})
 		ctx.Dispatch(func(app.Context) {
 			if err != nil {
 				f.status = saveFailed(err, "text")
@@ -306,7 +308,7 @@ func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
 		f.status = "points must be a number"
 		return
 	}
-	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason, Author: "instructor"}
+	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason}
 	c := newAPI(baseURL()).withToken(storedKey(ctx))
 	ctx.Async(func() {
 		res, err := unary[pb.OverrideGradeResponse](ctx, c, ProcOverrideGrade, req)

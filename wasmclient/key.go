@@ -6,7 +6,9 @@ import (
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 )
 
-// storageKey keeps the instructor key in this browser's local storage.
+// storageKey keeps the staff key (or the administrator's) in this
+// browser's local storage. Its name predates staff accounts; keeping it
+// keeps browsers signed in across the upgrade.
 const storageKey = "fluxroom.instructorKey"
 
 // instructorKey returns the key: from a "#key=…" fragment (which the
@@ -25,8 +27,8 @@ func storedKey(ctx app.Context) string {
 	return k
 }
 
-// KeyPrompt asks for the instructor key when the server refused the one
-// this browser has (or it has none).
+// KeyPrompt asks for a key when the server refused the one this browser
+// has (or it has none).
 type KeyPrompt struct {
 	app.Compo
 	key string
@@ -39,8 +41,8 @@ func (p *KeyPrompt) Render() app.UI {
 		ctx.LocalStorage().Set(storageKey, strings.TrimSpace(p.key))
 		ctx.Reload()
 	}).Body(
-		app.Label().For("instructor-key").Text("Instructor key (fluxroom serve printed it at first start)"),
-		app.Input().ID("instructor-key").Type("password").AutoComplete(false).
+		app.Label().For("staff-key").Text("Your staff key (from your instructor or the server's administrator), or the administrator's key"),
+		app.Input().ID("staff-key").Type("password").AutoComplete(false).
 			OnInput(func(ctx app.Context, e app.Event) { p.key = ctx.JSSrc().Get("value").String() }),
 		app.Button().Type("submit").Text("Use this key"),
 	)

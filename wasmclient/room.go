@@ -51,6 +51,11 @@ type Room struct {
 	detailPlot string
 	// detailErr says why the detail could not be loaded.
 	detailErr string
+
+	// who holds this browser's key; sessions are the ones it may watch,
+	// for the picker.
+	who      *who
+	sessions []*pb.Session
 }
 
 // OnMount starts the room stream and the clock that ages the tiles. Both
@@ -84,6 +89,18 @@ func (r *Room) OnMount(ctx app.Context) {
 	client := r.client
 	ctx.Async(func() { r.watch(ctx, client, sessionID) })
 	ctx.Async(func() {
+		w, err1 := fetchWho(ctx, client)
+		list, err2 := unary[pb.ListSessionsResponse](ctx, client, ProcListSessions, &pb.ListSessionsRequest{})
+		ctx.Dispatch(func(app.Context) {
+			if err1 == nil {
+				r.who = w
+			}
+			if err2 == nil {
+				r.sessions = list.Sessions
+			}
+		})
+	})
+	ctx.Async(func() {
 		t := time.NewTicker(time.Second)
 		defer t.Stop()
 		for {
@@ -107,7 +124,7 @@ func (r *Room) watch(ctx app.Context, c *api, sessionID uint64) {
 			return
 		}
 		if codeOf(err) == codeUnauthenticated {
-			ctx.Dispatch(func(app.Context) { r.needKey = true; r.link = "needs the instructor key" })
+			ctx.Dispatch(func(app.Context) { r.needKey = true; r.link = "needs a staff key" })
 			return
 		}
 		wait := backoff
@@ -225,8 +242,30 @@ func (r *Room) acknowledge(ctx app.Context, id uint64) {
 	sid, c := r.session.SessionId, r.client
 	ctx.Async(func() {
 		unary[pb.AcknowledgeAlertResponse](ctx, c, ProcAcknowledgeAlert,
-			&pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: id, Author: "instructor"})
+			&pb.AcknowledgeAlertRequest{SessionId: sid, BenchId: id})
 	})
+}
+
+// renderPicker lists the sessions this key may watch, newest first, to
+// switch rooms; with one session there is nothing to pick.
+func (r *Room) renderPicker() app.UI {
+	if len(r.sessions) < 2 {
+		return app.Span()
+	}
+	return app.Label().Class("picker").Body(
+		app.Span().Text("Room: "),
+		app.Select().ID("session-pick").OnChange(func(ctx app.Context, e app.Event) {
+			// A full load: the room's stream and state start afresh.
+			app.Window().Get("location").Set("href", "/?session="+ctx.JSSrc().Get("value").String())
+		}).Body(app.Range(r.sessions).Slice(func(i int) app.UI {
+			s := r.sessions[i]
+			label := s.Title
+			if s.Course != "" && s.Course != s.Title {
+				label = s.Course + " · " + s.Title
+			}
+			return app.Option().Value(strconv.FormatUint(s.SessionId, 10)).Selected(s.SessionId == r.sessionID()).Text(label)
+		})),
+	)
 }
 
 // Render draws the header, the unsafe banner, the room grid, the findings
@@ -273,7 +312,8 @@ func (r *Room) Render() app.UI {
 					ctx.LocalStorage().Set("fluxroom.largeType", r.largeType)
 					setRootFontSize(r.largeType)
 				}),
-				app.A().Href(fmt.Sprintf("/setup?session=%d", r.sessionID())).Text("Set up"),
+				app.If(r.who.instructsAny(), app.A().ID("to-setup").Href(fmt.Sprintf("/setup?session=%d", r.sessionID())).Text("Set up")),
+				r.renderPicker(),
 				app.Span().Class("exports").Body(
 					app.Span().Text("Export:"),
 					exportButton(r, "gradebook", pb.ExportFormat_EXPORT_FORMAT_GRADEBOOK_CSV),
@@ -284,6 +324,7 @@ func (r *Room) Render() app.UI {
 				app.A().Href("/station").Text("Station page"),
 			),
 			app.Div().Class("link").ID("link").Attr("data-link", r.link).Text(r.link),
+			whoBar(r.who),
 		),
 		app.If(r.needKey, &KeyPrompt{}),
 		r.renderUnsafe(),

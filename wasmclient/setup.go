@@ -24,9 +24,9 @@ type Setup struct {
 	specs    map[string]*pb.ExperimentSpec
 	specIDs  []string
 
-	// The form: title and tolerance as typed.
-	title, zc, zo, good, acceptable string
-	seeVerdicts                     bool
+	// The form: course, title and tolerance as typed.
+	course, title, zc, zo, good, acceptable string
+	seeVerdicts                             bool
 
 	policy     string
 	needKey    bool
@@ -35,6 +35,7 @@ type Setup struct {
 	selected   [2]int
 	status     string
 	errs       map[string]string
+	who        *who
 }
 
 // setupCell is one grid position: a bench or nothing.
@@ -59,6 +60,7 @@ func (s *Setup) OnMount(ctx app.Context) {
 	ctx.Async(func() {
 		ex, err1 := unary[pb.ListExperimentsResponse](ctx, c, ProcListExperiments, &pb.ListExperimentsRequest{})
 		ss, err2 := unary[pb.ListSessionsResponse](ctx, c, ProcListSessions, &pb.ListSessionsRequest{})
+		w, _ := fetchWho(ctx, c)
 		var snap *pb.RoomSnapshot
 		if sid != 0 {
 			snap = firstSnapshot(ctx, c, sid)
@@ -77,7 +79,10 @@ func (s *Setup) OnMount(ctx app.Context) {
 				s.specs[e.Id] = e
 				s.specIDs = append(s.specIDs, e.Id)
 			}
-			s.sessions = ss.Sessions
+			s.sessions, s.who = ss.Sessions, w
+			if mine := w.instructedCourses(); len(mine) > 0 {
+				s.course = mine[0]
+			}
 			if snap != nil {
 				s.load(snap)
 			}
@@ -100,7 +105,7 @@ func firstSnapshot(ctx app.Context, c *api, sid uint64) *pb.RoomSnapshot {
 
 func (s *Setup) load(snap *pb.RoomSnapshot) {
 	s.session = snap.Session
-	s.title = snap.Session.Title
+	s.title, s.course = snap.Session.Title, snap.Session.Course
 	t := snap.Session.GetTolerance()
 	s.zc, s.zo = fmt.Sprint(t.GetZConsistent()), fmt.Sprint(t.GetZOff())
 	s.good, s.acceptable = fmt.Sprint(t.GetGoodPercent()), fmt.Sprint(t.GetAcceptablePercent())
@@ -130,14 +135,14 @@ func (s *Setup) tolerance() *pb.Tolerance {
 // saveSession creates the session, or updates its title and rules.
 func (s *Setup) saveSession(ctx app.Context, e app.Event) {
 	e.PreventDefault()
-	c, title, tol, see := s.client, s.title, s.tolerance(), s.seeVerdicts
+	c, course, title, tol, see := s.client, strings.TrimSpace(s.course), s.title, s.tolerance(), s.seeVerdicts
 	existing := s.session
 	ctx.Async(func() {
 		var sess *pb.Session
 		var err error
 		if existing == nil {
 			var res *pb.CreateSessionResponse
-			res, err = unary[pb.CreateSessionResponse](ctx, c, ProcCreateSession, &pb.CreateSessionRequest{Title: title, Tolerance: tol, StationsSeeVerdicts: see})
+			res, err = unary[pb.CreateSessionResponse](ctx, c, ProcCreateSession, &pb.CreateSessionRequest{Title: title, Course: course, Tolerance: tol, StationsSeeVerdicts: see})
 			if err == nil {
 				sess = res.Session
 			}
@@ -265,7 +270,8 @@ func (s *Setup) Render() app.UI {
 		),
 		app.If(s.needKey, &KeyPrompt{}),
 		app.Form().ID("session-form").OnSubmit(s.saveSession).Body(
-			field("title", "Course and section", s.errs["title"], app.Input().ID("title").Value(s.title).
+			s.renderCourse(),
+			field("title", "Section", s.errs["title"], app.Input().ID("title").Value(s.title).
 				OnInput(func(ctx app.Context, e app.Event) { s.title = ctx.JSSrc().Get("value").String() })),
 			app.FieldSet().Body(
 				app.Legend().Text("Tolerance profile (empty or 0: the defaults 2, 3, 5 %, 10 %)"),
@@ -291,12 +297,32 @@ func (s *Setup) Render() app.UI {
 			app.Button().Type("submit").ID("save-policy").Text("Save policy"),
 		)),
 		app.P().Class("status").ID("setup-status").Text(s.status),
+		app.If(s.who.instructsAny(), &StaffPanel{Who: s.who}),
 		app.H2().Text("Sessions"),
 		app.Ul().Body(app.Range(s.sessions).Slice(func(i int) app.UI {
 			ss := s.sessions[i]
 			return app.Li().Body(app.A().Href(fmt.Sprintf("/setup?session=%d", ss.SessionId)).Text(ss.Title + " (" + ss.JoinCode + ")"))
 		})),
 	)
+}
+
+// renderCourse is the session's course: fixed once the session exists;
+// for a new one, typed (the administrator's key: empty uses the title) or
+// picked from the courses the person instructs.
+func (s *Setup) renderCourse() app.UI {
+	if s.session != nil {
+		return app.P().Class("course").ID("course").Text("Course: " + s.session.Course)
+	}
+	mine := s.who.instructedCourses()
+	if s.who != nil && !s.who.admin && len(mine) > 0 {
+		return field("course", "Course", s.errs["course"], app.Select().ID("course").OnChange(func(ctx app.Context, e app.Event) {
+			s.course = ctx.JSSrc().Get("value").String()
+		}).Body(app.Range(mine).Slice(func(i int) app.UI {
+			return app.Option().Value(mine[i]).Selected(mine[i] == s.course).Text(mine[i])
+		})))
+	}
+	return field("course", "Course (empty: the same as the section)", s.errs["course"], app.Input().ID("course").Value(s.course).
+		OnInput(func(ctx app.Context, e app.Event) { s.course = ctx.JSSrc().Get("value").String() }))
 }
 
 func (s *Setup) savePolicy(ctx app.Context, e app.Event) {

@@ -196,13 +196,19 @@ func screenshot(t testing.TB, ctx context.Context, name string) {
 
 func q(v float64, unit string) *pb.Quantity { return &pb.Quantity{Value: v, Unit: unit} }
 
-// testKey is the instructor key the tests start the program with.
+// testKey is the administrator's key the tests start the program with.
 const testKey = "test-instructor-key-0123456789"
 
-// dialInstructor is a native gRPC client with the instructor key.
+// dialInstructor is a native gRPC client with the administrator's key.
 func dialInstructor(t testing.TB, addr string) *grpc.ClientConn {
 	t.Helper()
-	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(testKey)))
+	return dialKey(t, addr, testKey)
+}
+
+// dialKey is a native gRPC client sending key with every call.
+func dialKey(t testing.TB, addr, key string) *grpc.ClientConn {
+	t.Helper()
+	conn, err := grpc.NewClient(addr, grpc.WithTransportCredentials(insecure.NewCredentials()), grpc.WithPerRPCCredentials(bearer.Token(key)))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -1,0 +1,198 @@
+package wasmclient
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/maxence-charriere/go-app/v9/pkg/app"
+
+	pb "example.com/fluxroom/proto/fluxroompb"
+)
+
+// StaffPanel is where an instructor manages their courses' assistants
+// (and the administrator everyone): who holds a key, a new account, a
+// new key, a revoked one. A new key is shown once, here.
+type StaffPanel struct {
+	app.Compo
+	Who *who
+
+	client *api
+	staff  []*pb.StaffMember
+	// The new account's form.
+	name, course string
+	role         pb.StaffRole
+	// shown is the key just made, with whose it is; gone at the next
+	// change.
+	shownKey, shownFor string
+	status             string
+	errs               map[string]string
+}
+
+// OnMount loads the accounts the key may manage.
+func (p *StaffPanel) OnMount(ctx app.Context) {
+	p.client = newAPI(baseURL()).withToken(storedKey(ctx))
+	p.role = pb.StaffRole_STAFF_ROLE_ASSISTANT
+	if mine := p.Who.instructedCourses(); len(mine) > 0 {
+		p.course = mine[0]
+	}
+	p.reload(ctx)
+}
+
+func (p *StaffPanel) reload(ctx app.Context) {
+	c := p.client
+	ctx.Async(func() {
+		list, err := listStaff(ctx, c)
+		ctx.Dispatch(func(app.Context) {
+			if err != nil {
+				p.status = "cannot list staff: " + err.Error()
+				return
+			}
+			p.staff = list
+		})
+	})
+}
+
+// listStaff reads the accounts; called on the goroutine of the change
+// before it, so the list shown is the one after it.
+func listStaff(ctx context.Context, c *api) ([]*pb.StaffMember, error) {
+	res, err := unary[pb.ListStaffResponse](ctx, c, ProcListStaff, &pb.ListStaffRequest{})
+	if err != nil {
+		return nil, err
+	}
+	return res.Staff, nil
+}
+
+func (p *StaffPanel) add(ctx app.Context, e app.Event) {
+	e.PreventDefault()
+	c := p.client
+	req := &pb.AddStaffRequest{Name: p.name, Roles: []*pb.CourseRole{{Course: p.course, Role: p.role}}}
+	ctx.Async(func() {
+		res, err := unary[pb.AddStaffResponse](ctx, c, ProcAddStaff, req)
+		var list []*pb.StaffMember
+		if err == nil {
+			list, _ = listStaff(ctx, c)
+		}
+		ctx.Dispatch(func(app.Context) {
+			p.errs = fieldMessages(err)
+			if err != nil {
+				p.status, p.shownKey = "not added: "+err.Error(), ""
+				return
+			}
+			p.name, p.status, p.staff = "", "", list
+			p.shownKey, p.shownFor = res.Key, res.Staff.Name
+		})
+	})
+}
+
+func (p *StaffPanel) revoke(ctx app.Context, m *pb.StaffMember) {
+	c := p.client
+	ctx.Async(func() {
+		_, err := unary[pb.RevokeStaffResponse](ctx, c, ProcRevokeStaff, &pb.RevokeStaffRequest{StaffId: m.StaffId})
+		var list []*pb.StaffMember
+		if err == nil {
+			list, _ = listStaff(ctx, c)
+		}
+		ctx.Dispatch(func(app.Context) {
+			p.shownKey = ""
+			if err != nil {
+				p.status = "not revoked: " + err.Error()
+				return
+			}
+			p.status, p.staff = fmt.Sprintf("%s's key was revoked: it stopped working at once, open rooms too", m.Name), list
+		})
+	})
+}
+
+func (p *StaffPanel) rotate(ctx app.Context, m *pb.StaffMember) {
+	c := p.client
+	ctx.Async(func() {
+		res, err := unary[pb.RotateStaffKeyResponse](ctx, c, ProcRotateStaffKey, &pb.RotateStaffKeyRequest{StaffId: m.StaffId})
+		var list []*pb.StaffMember
+		if err == nil {
+			list, _ = listStaff(ctx, c)
+		}
+		ctx.Dispatch(func(app.Context) {
+			if err != nil {
+				p.status, p.shownKey = "no new key: "+err.Error(), ""
+				return
+			}
+			p.shownKey, p.shownFor, p.status, p.staff = res.Key, res.Staff.Name, "", list
+		})
+	})
+}
+
+// Render draws the list, the new key when one was just made, and the form.
+func (p *StaffPanel) Render() app.UI {
+	mine := p.Who.instructedCourses()
+	var course app.UI
+	if p.Who != nil && p.Who.admin {
+		course = app.Input().ID("staff-course").Value(p.course).
+			OnInput(func(ctx app.Context, e app.Event) { p.course = ctx.JSSrc().Get("value").String() })
+	} else {
+		course = app.Select().ID("staff-course").OnChange(func(ctx app.Context, e app.Event) {
+			p.course = ctx.JSSrc().Get("value").String()
+		}).Body(app.Range(mine).Slice(func(i int) app.UI {
+			return app.Option().Value(mine[i]).Selected(mine[i] == p.course).Text(mine[i])
+		}))
+	}
+	return app.Section().Class("staff").ID("staff").Body(
+		app.H2().Text("Staff"),
+		app.P().Class("hint").Text("Each person has their own key; the audit log names them. Assistants watch rooms, acknowledge alerts, add notes, correct group members and export; grades, policy and set-up stay with the course's instructors."),
+		app.Table().ID("staff-list").Body(
+			app.Tr().Body(app.Th().Text("name"), app.Th().Text("roles"), app.Th().Text("key"), app.Th()),
+			app.Range(p.staff).Slice(func(i int) app.UI {
+				m := p.staff[i]
+				state := "active"
+				if m.Revoked {
+					state = "revoked"
+				}
+				return app.Tr().Attr("data-staff", m.Name).Body(
+					app.Td().Text(m.Name),
+					app.Td().Text(rolesLine(m.Roles)),
+					app.Td().Class("state").Text(state),
+					app.Td().Body(
+						app.If(p.Who.manages(m, true), app.Button().Class("rotate").Text("New key").OnClick(func(ctx app.Context, e app.Event) { p.rotate(ctx, m) })),
+						app.If(!m.Revoked && p.Who.manages(m, false), app.Button().Class("revoke").Text("Revoke").OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m) })),
+					),
+				)
+			}),
+		),
+		app.If(p.shownKey != "", app.Div().Class("new-key").ID("new-key").Attr("role", "status").Body(
+			app.P().Text(fmt.Sprintf("Key of %s, shown this once (only its hash is stored). Give it to them in person or by a private message:", p.shownFor)),
+			app.Code().ID("new-key-value").Text(p.shownKey),
+			app.P().Body(app.Text("Their dashboard: "), app.Code().ID("new-key-link").Text(baseURL()+"/#key="+p.shownKey)),
+		)),
+		app.Form().ID("staff-form").OnSubmit(p.add).Body(
+			field("name", "Name", p.errs["name"], app.Input().ID("staff-name").Value(p.name).
+				OnInput(func(ctx app.Context, e app.Event) { p.name = ctx.JSSrc().Get("value").String() })),
+			field("course", "Course", p.errs["roles[0].course"], course),
+			app.If(p.Who != nil && p.Who.admin, app.Select().ID("staff-role").OnChange(func(ctx app.Context, e app.Event) {
+				p.role = pb.StaffRole_STAFF_ROLE_ASSISTANT
+				if ctx.JSSrc().Get("value").String() == "instructor" {
+					p.role = pb.StaffRole_STAFF_ROLE_INSTRUCTOR
+				}
+			}).Body(
+				app.Option().Value("assistant").Selected(p.role == pb.StaffRole_STAFF_ROLE_ASSISTANT).Text("assistant"),
+				app.Option().Value("instructor").Selected(p.role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR).Text("instructor"),
+			)),
+			app.Button().Type("submit").ID("add-staff").Text("Add and make a key"),
+		),
+		app.P().Class("status").ID("staff-status").Text(p.status),
+	)
+}
+
+// rolesLine is "assistant of PHY 214, instructor of PHY 118".
+func rolesLine(roles []*pb.CourseRole) string {
+	out := ""
+	for i, r := range roles {
+		if i > 0 {
+			out += ", "
+		}
+		role := "assistant"
+		if r.Role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR {
+			role = "instructor"
+		}
+		out += role + " of " + r.Course
+	}
+	return out
+}
