@@ -98,7 +98,7 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
-	// The demo makes its own instructor key each run and puts it in the
+	// The demo makes its own administrator's key each run and puts it in the
 	// dashboard URL's fragment, which the browser keeps to itself.
 	key := newDemoKey()
 	r, err := m.start(filepath.Join(*dataDir, "demo.db"), *addr, log, serverOptions{adminKey: key})
@@ -135,7 +135,12 @@ func (m *Main) demo(ctx context.Context, args []string) error {
 	if err != nil {
 		return err
 	}
+	asstKey, err := demoAssistant(ctx, rpcpb.NewStaffServiceClient(conn), sess.Course)
+	if err != nil {
+		return err
+	}
 	fmt.Fprintf(m.Stdout, "%s\njoin code %s · %d benches\ndashboard: http://%s/?session=%d#key=%s\n", sess.Title, sess.JoinCode, len(class), r.addr, sess.SessionId, key)
+	fmt.Fprintf(m.Stdout, "the same room as the course's assistant, %s: http://%s/#key=%s\n", demoAssistantName, r.addr, asstKey)
 	fmt.Fprintln(m.Stdout, "Simulated groups with a seeded mistake:")
 	for _, b := range class {
 		if b.mistake != "" {
@@ -203,7 +208,35 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 	return nil
 }
 
-// newDemoKey is a fresh instructor key for one demo run.
+// demoAssistantName is the demo course's teaching assistant (invented).
+const demoAssistantName = "Ines Valdés-Okafor"
+
+// demoAssistant gives the demo course's assistant a key for this run: a
+// new account the first time, a new key on the same account after, as a
+// department would.
+func demoAssistant(ctx context.Context, c rpcpb.StaffServiceClient, course string) (string, error) {
+	list, err := c.ListStaff(ctx, &pb.ListStaffRequest{})
+	if err != nil {
+		return "", fmt.Errorf("demo assistant: %w", err)
+	}
+	for _, m := range list.Staff {
+		if m.Name == demoAssistantName {
+			res, err := c.RotateStaffKey(ctx, &pb.RotateStaffKeyRequest{StaffId: m.StaffId})
+			if err != nil {
+				return "", fmt.Errorf("demo assistant: %w", err)
+			}
+			return res.Key, nil
+		}
+	}
+	res, err := c.AddStaff(ctx, &pb.AddStaffRequest{Name: demoAssistantName,
+		Roles: []*pb.CourseRole{{Course: course, Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}})
+	if err != nil {
+		return "", fmt.Errorf("demo assistant: %w", err)
+	}
+	return res.Key, nil
+}
+
+// newDemoKey is a fresh administrator's key for one demo run.
 func newDemoKey() string {
 	b := make([]byte, 18)
 	crand.Read(b)

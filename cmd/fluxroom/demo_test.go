@@ -48,6 +48,9 @@ func TestDemoRunsAClass(t *testing.T) {
 	if !regexp.MustCompile(`dashboard: http://127\.0\.0\.1:\d+/\?session=1`).MatchString(text) {
 		t.Errorf("demo printed no dashboard URL:\n%s", text)
 	}
+	if !regexp.MustCompile(`as the course's assistant, Ines Valdés-Okafor: http://127\.0\.0\.1:\d+/#key=\S+`).MatchString(text) {
+		t.Errorf("demo printed no assistant's URL:\n%s", text)
+	}
 	last := text[strings.LastIndex(text, "— room at"):]
 	lines := map[string]string{}
 	for _, l := range strings.Split(last, "\n")[1:] {
