@@ -13,6 +13,7 @@ import (
 
 	"example.com/fluxroom/domain"
 	pb "example.com/fluxroom/proto/fluxroompb"
+	"example.com/fluxroom/proto/rpcpb"
 )
 
 // TestBadInputCatalogue sends well over a hundred bad requests across every
@@ -240,6 +241,33 @@ func TestBadInputCatalogue(t *testing.T) {
 			return err
 		})
 	}
+	// Staff accounts and a session's course.
+	staff := rpcpb.NewStaffServiceClient(r.conn)
+	for name, req := range map[string]*pb.AddStaffRequest{
+		"no name":                 {Roles: []*pb.CourseRole{{Course: "PHY 1", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}},
+		"name on two lines":       {Name: "Ann\nBo", Roles: []*pb.CourseRole{{Course: "PHY 1", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}},
+		"name of 81 characters":   {Name: strings.Repeat("n", 81), Roles: []*pb.CourseRole{{Course: "PHY 1", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}},
+		"no role":                 {Name: "Ann Bo"},
+		"no course":               {Name: "Ann Bo", Roles: []*pb.CourseRole{{Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}},
+		"unspecified role":        {Name: "Ann Bo", Roles: []*pb.CourseRole{{Course: "PHY 1"}}},
+		"a role outside the enum": {Name: "Ann Bo", Roles: []*pb.CourseRole{{Course: "PHY 1", Role: 7}}},
+		"one course twice":        {Name: "Ann Bo", Roles: []*pb.CourseRole{{Course: "PHY 1", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}, {Course: "PHY 1", Role: pb.StaffRole_STAFF_ROLE_INSTRUCTOR}}},
+		"course with a tab":       {Name: "Ann Bo", Roles: []*pb.CourseRole{{Course: "PHY\t1", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}},
+	} {
+		add("staff: "+name, func() error { _, err := staff.AddStaff(ctx, req); return err })
+	}
+	add("revoke an unknown account", func() error {
+		_, err := staff.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: 99})
+		return err
+	})
+	add("rotate an unknown account", func() error {
+		_, err := staff.RotateStaffKey(ctx, &pb.RotateStaffKeyRequest{StaffId: 99})
+		return err
+	})
+	add("session: course of 81 characters", func() error {
+		_, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: "t", Course: strings.Repeat("c", 81)})
+		return err
+	})
 	add("watch an unknown session", func() error {
 		s, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: 5555})
 		if err != nil {
@@ -284,7 +312,7 @@ func submit2(ctx context.Context, r *rig, sid, bid uint64, id string, v map[stri
 	return r.station.SubmitReading(ctx, &pb.SubmitReadingRequest{SessionId: sid, BenchId: bid, ReadingId: id, Values: v})
 }
 
-type counts struct{ sessions, benches, readings, notes int }
+type counts struct{ sessions, benches, readings, notes, staff int }
 
 func snapshotCounts(t *testing.T, r *rig, sid uint64) counts {
 	t.Helper()
@@ -293,7 +321,8 @@ func snapshotCounts(t *testing.T, r *rig, sid uint64) counts {
 	if err != nil {
 		t.Fatal(err)
 	}
-	c := counts{sessions: len(ss), benches: len(d.Benches), notes: len(d.Notes)}
+	all, _ := r.db.StaffAccounts()
+	c := counts{sessions: len(ss), benches: len(d.Benches), notes: len(d.Notes), staff: len(all)}
 	for _, rs := range d.Readings {
 		c.readings += len(rs)
 	}
