@@ -628,14 +628,17 @@ func (x *ExperimentSpec) GetMinReadings() int32 {
 	return 0
 }
 
-// Note is an instructor's note or acknowledgement on a bench, kept in the
-// session's audit log.
+// Note is one entry of a session's audit log: a note, acknowledgement or
+// grade override on a bench, or a change of the session (bench_id 0).
 type Note struct {
 	state   protoimpl.MessageState `protogen:"open.v1"`
 	BenchId uint64                 `protobuf:"varint,1,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	// "note", "acknowledged" or "grade_override".
-	Kind   string                 `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
-	Text   string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	// "note", "acknowledged", "grade_override", "benches_set", "policy_set",
+	// "session_edited", "members_set" or "session_closed".
+	Kind string `protobuf:"bytes,2,opt,name=kind,proto3" json:"kind,omitempty"`
+	Text string `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	// The person whose key made the change ("administrator" for the
+	// administrator's key).
 	Author string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
 	At     *timestamppb.Timestamp `protobuf:"bytes,5,opt,name=at,proto3" json:"at,omitempty"`
 	// For a grade override: the new points and the points before.
@@ -2529,11 +2532,12 @@ func (x *UpdateSessionResponse) GetSession() *Session {
 }
 
 type AddNoteRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	Text          string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
-	Author        string                 `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId   uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Text      string                 `protobuf:"bytes,3,opt,name=text,proto3" json:"text,omitempty"`
+	// Ignored: the audit log names the person whose key makes the call.
+	Author        string `protobuf:"bytes,4,opt,name=author,proto3" json:"author,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -2641,10 +2645,11 @@ func (x *AddNoteResponse) GetNote() *Note {
 }
 
 type AcknowledgeAlertRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	Author        string                 `protobuf:"bytes,3,opt,name=author,proto3" json:"author,omitempty"`
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId   uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	// Ignored: the audit log names the person whose key makes the call.
+	Author        string `protobuf:"bytes,3,opt,name=author,proto3" json:"author,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -3385,12 +3390,13 @@ func (x *SetGradingPolicyResponse) GetSession() *Session {
 }
 
 type OverrideGradeRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	SessionId     uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
-	BenchId       uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
-	Points        float64                `protobuf:"fixed64,3,opt,name=points,proto3" json:"points,omitempty"`
-	Reason        string                 `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
-	Author        string                 `protobuf:"bytes,5,opt,name=author,proto3" json:"author,omitempty"`
+	state     protoimpl.MessageState `protogen:"open.v1"`
+	SessionId uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
+	BenchId   uint64                 `protobuf:"varint,2,opt,name=bench_id,json=benchId,proto3" json:"bench_id,omitempty"`
+	Points    float64                `protobuf:"fixed64,3,opt,name=points,proto3" json:"points,omitempty"`
+	Reason    string                 `protobuf:"bytes,4,opt,name=reason,proto3" json:"reason,omitempty"`
+	// Ignored: the audit log names the person whose key makes the call.
+	Author        string `protobuf:"bytes,5,opt,name=author,proto3" json:"author,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
