@@ -32,13 +32,51 @@ func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
 	return b, nil
 }
 
-// benchCache holds benches read from the file. Every write of a session's
-// benches calls forget, which also bumps the session's generation, so a
-// read that raced with the write is not cached.
+// sessionBenches is a session's benches in id order, as JoinBench looks a
+// label up among them: from the cache, read from the file once per change
+// of the session's benches rather than decoding every bench at every join.
+func (s *Server) sessionBenches(sessionID uint64) ([]domain.Bench, error) {
+	if bs, ok := s.benches.list(sessionID); ok {
+		return bs, nil
+	}
+	gen := s.benches.generation(sessionID)
+	bs, err := s.db.Benches(sessionID)
+	if err != nil {
+		return nil, err
+	}
+	s.benches.putList(sessionID, bs, gen)
+	return bs, nil
+}
+
+// benchCache holds benches read from the file, one by one and whole
+// sessions' lists. Every write of a session's benches calls forget, which
+// also bumps the session's generation, so a read that raced with the write
+// is not cached.
 type benchCache struct {
 	mu  sync.RWMutex
 	m   map[[2]uint64]domain.Bench
+	all map[uint64][]domain.Bench
 	gen map[uint64]uint64
+}
+
+// list returns a session's cached benches; treat them as read-only.
+func (c *benchCache) list(sessionID uint64) ([]domain.Bench, bool) {
+	c.mu.RLock()
+	defer c.mu.RUnlock()
+	bs, ok := c.all[sessionID]
+	return bs, ok
+}
+
+func (c *benchCache) putList(sessionID uint64, bs []domain.Bench, gen uint64) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	if c.gen[sessionID] != gen {
+		return
+	}
+	if c.all == nil {
+		c.all = map[uint64][]domain.Bench{}
+	}
+	c.all[sessionID] = bs
 }
 
 func (c *benchCache) get(sessionID, benchID uint64) (domain.Bench, bool) {
@@ -74,6 +112,7 @@ func (c *benchCache) forget(sessionID uint64) {
 		c.gen = map[uint64]uint64{}
 	}
 	c.gen[sessionID]++
+	delete(c.all, sessionID)
 	for k := range c.m {
 		if k[0] == sessionID {
 			delete(c.m, k)

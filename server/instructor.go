@@ -60,16 +60,14 @@ func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSes
 	if err := domain.ValidateTolerance("tolerance", tol); err != nil {
 		return nil, err
 	}
+	created := in.s.auditNote(ctx, 0, domain.NoteKindSessionEdited, fmt.Sprintf("created the session %q in course %q", title, course))
 	for range 5 {
 		s, err := in.s.db.CreateSession(domain.Session{Title: title, Course: course, JoinCode: newJoinCode(), CreatedAt: in.s.now(),
-			Tolerance: tol, StationsSeeVerdicts: req.GetStationsSeeVerdicts()})
+			Tolerance: tol, StationsSeeVerdicts: req.GetStationsSeeVerdicts()}, created)
 		if errors.Is(err, store.ErrConflict) {
 			continue // a join code clash: draw another
 		}
 		if err != nil {
-			return nil, err
-		}
-		if err := in.s.audit(ctx, s.ID, 0, domain.NoteKindSessionEdited, fmt.Sprintf("created the session %q in course %q", s.Title, s.Course)); err != nil {
 			return nil, err
 		}
 		return &pb.CreateSessionResponse{Session: sessionToPB(s)}, nil
@@ -145,25 +143,24 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 	if len(vs) > 0 {
 		return nil, &domain.ValidationError{Violations: vs}
 	}
-	all, err := in.s.db.PutBenches(req.GetSessionId(), benches)
+	set := make([]string, 0, len(benches))
+	for _, b := range benches {
+		set = append(set, b.Label)
+	}
+	all, err := in.s.db.PutBenches(req.GetSessionId(), benches,
+		in.s.auditNote(ctx, 0, domain.NoteKindBenchesSet, fmt.Sprintf("set up %d bench(es): %s", len(benches), strings.Join(set, ", "))))
 	in.s.benches.forget(req.GetSessionId())
 	if err != nil {
 		return nil, err
 	}
 	sortBenches(all)
-	set := make([]string, 0, len(benches))
-	for _, b := range benches {
-		set = append(set, b.Label)
-	}
-	if err := in.s.audit(ctx, req.GetSessionId(), 0, domain.NoteKindBenchesSet, fmt.Sprintf("set up %d bench(es): %s", len(benches), strings.Join(set, ", "))); err != nil {
-		return nil, err
-	}
 	out := &pb.SetBenchesResponse{}
 	for _, b := range all {
 		out.Benches = append(out.Benches, benchToPB(b))
-		if err := in.s.publishBench(req.GetSessionId(), b.ID); err != nil {
-			return nil, err
-		}
+	}
+	// The room judged once and published once, not bench by bench.
+	if err := in.s.rejudgeRoom(req.GetSessionId()); err != nil {
+		return nil, err
 	}
 	return out, nil
 }
@@ -260,13 +257,11 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 		return nil, err
 	}
 	sess.StationsSeeVerdicts = req.GetStationsSeeVerdicts()
-	sess, err = in.s.db.UpdateSession(sess)
-	if err != nil {
-		return nil, err
-	}
 	t := sess.EffectiveTolerance()
-	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindSessionEdited, fmt.Sprintf("title %q; tolerance |z| ≤ %g consistent, > %g off, %g %% good, %g %% acceptable; stations see verdicts: %v",
-		sess.Title, t.ZConsistent, t.ZOff, t.GoodPercent, t.AcceptablePercent, sess.StationsSeeVerdicts)); err != nil {
+	sess, err = in.s.db.UpdateSession(sess, in.s.auditNote(ctx, 0, domain.NoteKindSessionEdited,
+		fmt.Sprintf("title %q; tolerance |z| ≤ %g consistent, > %g off, %g %% good, %g %% acceptable; stations see verdicts: %v",
+			sess.Title, t.ZConsistent, t.ZOff, t.GoodPercent, t.AcceptablePercent, sess.StationsSeeVerdicts)))
+	if err != nil {
 		return nil, err
 	}
 	if err := in.s.rejudgeRoom(sess.ID); err != nil {
@@ -281,18 +276,16 @@ func (in instructorService) SetGradingPolicy(ctx context.Context, req *pb.SetGra
 	if err != nil {
 		return nil, err
 	}
-	if _, err := export.ParsePolicy([]byte(req.GetPolicyJson())); err != nil {
+	p, err := export.ParsePolicy([]byte(req.GetPolicyJson()))
+	if err != nil {
 		return nil, prefixFields(err, "policy_json.")
 	}
 	sess.GradingPolicy = strings.TrimSpace(req.GetPolicyJson())
-	if sess, err = in.s.db.UpdateSession(sess); err != nil {
-		return nil, err
-	}
 	what := "set the default grading policy"
-	if p, err := export.ParsePolicy([]byte(sess.GradingPolicy)); err == nil && sess.GradingPolicy != "" {
+	if sess.GradingPolicy != "" {
 		what = fmt.Sprintf("set the grading policy %q", p.Name)
 	}
-	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindPolicySet, what); err != nil {
+	if sess, err = in.s.db.UpdateSession(sess, in.s.auditNote(ctx, 0, domain.NoteKindPolicySet, what)); err != nil {
 		return nil, err
 	}
 	// A quiet bench is done or stalled by the policy's required readings.
@@ -434,10 +427,7 @@ func (in instructorService) CloseSession(ctx context.Context, req *pb.CloseSessi
 		return nil, err
 	}
 	sess.Closed = true
-	if sess, err = in.s.db.UpdateSession(sess); err != nil {
-		return nil, err
-	}
-	if err := in.s.audit(ctx, sess.ID, 0, domain.NoteKindClosed, "closed the session"); err != nil {
+	if sess, err = in.s.db.UpdateSession(sess, in.s.auditNote(ctx, 0, domain.NoteKindClosed, "closed the session")); err != nil {
 		return nil, err
 	}
 	in.s.closed.Store(sess.ID, true)
@@ -476,10 +466,8 @@ func (in instructorService) SetGroupMembers(ctx context.Context, req *pb.SetGrou
 	if err != nil {
 		return nil, err
 	}
-	if err := in.s.setMembers(req.GetSessionId(), b.ID, members); err != nil {
-		return nil, err
-	}
-	if err := in.s.audit(ctx, req.GetSessionId(), b.ID, domain.NoteKindMembersSet, fmt.Sprintf("group members: %q", members)); err != nil {
+	if err := in.s.setMembers(req.GetSessionId(), b.ID, members,
+		in.s.auditNote(ctx, b.ID, domain.NoteKindMembersSet, fmt.Sprintf("group members: %q", members))); err != nil {
 		return nil, err
 	}
 	b.Members = members

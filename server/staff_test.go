@@ -276,3 +276,35 @@ func TestServesUpgradedFile(t *testing.T) {
 		t.Errorf("the export of an upgraded session lost its override's author: %v", err)
 	}
 }
+
+// TestJoinSeesBenchesSetLater: JoinBench answers from the cached list of a
+// session's benches, and a bench added or relabelled afterwards is found.
+func TestJoinSeesBenchesSetLater(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	join := func(label string) error {
+		_, err := r.station.JoinBench(ctx, &pb.JoinBenchRequest{JoinCode: sess.JoinCode, BenchLabel: label})
+		return err
+	}
+	if err := join("a1"); err != nil {
+		t.Fatal(err)
+	}
+	if err := join("B7"); err == nil {
+		t.Fatal("joined a bench that is not there")
+	}
+	relabel := forceBench("C1", 0, 0)
+	relabel.BenchId = benches[0].BenchId
+	if _, err := r.instructor.SetBenches(ctx, &pb.SetBenchesRequest{SessionId: sess.SessionId, Benches: []*pb.Bench{forceBench("B7", 1, 0), relabel}}); err != nil {
+		t.Fatal(err)
+	}
+	if err := join("B7"); err != nil {
+		t.Errorf("a bench added after the first join: %v", err)
+	}
+	if err := join("C1"); err != nil {
+		t.Errorf("a bench relabelled after the first join: %v", err)
+	}
+	if err := join("A1"); err == nil {
+		t.Error("the old label of a relabelled bench still joins")
+	}
+}

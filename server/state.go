@@ -113,11 +113,12 @@ func author(ctx context.Context) (name string, staffID uint64) {
 	return c.name(), c.staff.ID
 }
 
-// audit records a change of a session (benchID 0) or of one bench in the
-// session's audit log, by the caller.
-func (s *Server) audit(ctx context.Context, sessionID, benchID uint64, kind, text string) error {
+// auditNote is the audit log's entry for a change of a session (benchID
+// 0) or of one bench, by the caller; the store writes it in the change's
+// own transaction, so neither is kept without the other.
+func (s *Server) auditNote(ctx context.Context, benchID uint64, kind, text string) domain.Note {
 	name, id := author(ctx)
-	return s.db.AppendNote(sessionID, domain.Note{BenchID: benchID, Kind: kind, Text: text, Author: name, StaffID: id, At: s.now()})
+	return domain.Note{BenchID: benchID, Kind: kind, Text: text, Author: name, StaffID: id, At: s.now()}
 }
 
 // rejudgeRoom reads a session's room back from the file and judges every
@@ -189,8 +190,8 @@ func (s *Server) snapshot(sess domain.Session) (*pb.RoomSnapshot, error) {
 }
 
 // setMembers stores a group's names on its bench and shows them in the room.
-func (s *Server) setMembers(sessionID, benchID uint64, members string) error {
-	err := s.db.SetMembers(sessionID, benchID, members)
+func (s *Server) setMembers(sessionID, benchID uint64, members string, audit ...domain.Note) error {
+	err := s.db.SetMembers(sessionID, benchID, members, audit...)
 	s.benches.forget(sessionID)
 	if err != nil {
 		return err

@@ -43,7 +43,7 @@ func (st stationService) JoinBench(ctx context.Context, req *pb.JoinBenchRequest
 	if sess.Closed {
 		return nil, domain.Invalid("join_code", "the session with join code %q is closed", code)
 	}
-	benches, err := st.s.db.Benches(sess.ID)
+	benches, err := st.s.sessionBenches(sess.ID)
 	if err != nil {
 		return nil, err
 	}

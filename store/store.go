@@ -343,8 +343,9 @@ func (db *DB) Check() error {
 }
 
 // CreateSession stores a new session and assigns its id. The join code must
-// not be in use (ErrConflict).
-func (db *DB) CreateSession(s domain.Session) (domain.Session, error) {
+// not be in use (ErrConflict). audit, when given, goes in the session's
+// audit log in the same transaction.
+func (db *DB) CreateSession(s domain.Session, audit ...domain.Note) (domain.Session, error) {
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
 		codes := tx.Bucket(bucketJoinCodes)
 		if codes.Get([]byte(s.JoinCode)) != nil {
@@ -359,6 +360,9 @@ func (db *DB) CreateSession(s domain.Session) (domain.Session, error) {
 		if err := putRecord(sessions, sessionKey(id), sessionRecord(s)); err != nil {
 			return err
 		}
+		if err := appendEvents(tx, id, audit); err != nil {
+			return err
+		}
 		return codes.Put([]byte(s.JoinCode), u64(id))
 	})
 	if err != nil {
@@ -367,9 +371,11 @@ func (db *DB) CreateSession(s domain.Session) (domain.Session, error) {
 	return s, nil
 }
 
-// UpdateSession rewrites a session's title, tolerance and station
-// visibility; its id, join code and creation time stay.
-func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
+// UpdateSession rewrites a session's title, tolerance, station
+// visibility, policy and closing; its id, course, join code and creation
+// time stay. audit, when given, goes in its audit log in the same
+// transaction.
+func (db *DB) UpdateSession(s domain.Session, audit ...domain.Note) (domain.Session, error) {
 	var out domain.Session
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
 		old, err := getSession(tx, s.ID)
@@ -379,6 +385,9 @@ func (db *DB) UpdateSession(s domain.Session) (domain.Session, error) {
 		old.Title, old.Tolerance, old.StationsSeeVerdicts, old.GradingPolicy = s.Title, s.Tolerance, s.StationsSeeVerdicts, s.GradingPolicy
 		old.Closed = s.Closed
 		out = old
+		if err := appendEvents(tx, s.ID, audit); err != nil {
+			return err
+		}
 		return putRecord(tx.Bucket(bucketSessions), sessionKey(s.ID), sessionRecord(old))
 	})
 	if err != nil {
@@ -398,16 +407,26 @@ func (db *DB) AppendNote(sessionID uint64, n domain.Note) error {
 		} else if _, err := getBench(tx, sessionID, n.BenchID); err != nil {
 			return err
 		}
-		ev := tx.Bucket(bucketEvents)
-		ev.FillPercent = appendFill
+		return appendEvents(tx, sessionID, []domain.Note{n})
+	})
+	if err != nil {
+		return fmt.Errorf("store: append note: %w", err)
+	}
+	return nil
+}
+
+// appendEvents adds entries to a session's audit log.
+func appendEvents(tx *bbolt.Tx, sessionID uint64, notes []domain.Note) error {
+	ev := tx.Bucket(bucketEvents)
+	ev.FillPercent = appendFill
+	for _, n := range notes {
 		seq, err := ev.NextSequence()
 		if err != nil {
 			return err
 		}
-		return putRecord(ev, eventKey(sessionID, seq), eventRecord(n))
-	})
-	if err != nil {
-		return fmt.Errorf("store: append note: %w", err)
+		if err := putRecord(ev, eventKey(sessionID, seq), eventRecord(n)); err != nil {
+			return err
+		}
 	}
 	return nil
 }
@@ -441,13 +460,16 @@ func listNotes(tx *bbolt.Tx, sessionID uint64) ([]domain.Note, error) {
 }
 
 // SetMembers records a group's member names on its bench.
-func (db *DB) SetMembers(sessionID, benchID uint64, members string) error {
+func (db *DB) SetMembers(sessionID, benchID uint64, members string, audit ...domain.Note) error {
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
 		b, err := getBench(tx, sessionID, benchID)
 		if err != nil {
 			return err
 		}
 		b.Members = members
+		if err := appendEvents(tx, sessionID, audit); err != nil {
+			return err
+		}
 		return putRecord(tx.Bucket(bucketBenches), benchKey(sessionID, benchID), benchRecord(b))
 	})
 	if err != nil {
@@ -612,9 +634,10 @@ func getSession(tx *bbolt.Tx, id uint64) (domain.Session, error) {
 }
 
 // PutBenches adds benches with ID 0 and updates those with an ID, in one
-// transaction. Labels stay unique within a session (ErrConflict). Benches not
-// named are kept. It returns all the session's benches afterwards.
-func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench) ([]domain.Bench, error) {
+// transaction, with audit, when given, in the session's audit log. Labels
+// stay unique within a session (ErrConflict). Benches not named are kept,
+// and not written again. It returns all the session's benches afterwards.
+func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench, audit ...domain.Note) ([]domain.Bench, error) {
 	var out []domain.Bench
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
 		if _, err := getSession(tx, sessionID); err != nil {
@@ -629,6 +652,7 @@ func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench) ([]domain.Ben
 			byID[b.ID] = b
 		}
 		bk := tx.Bucket(bucketBenches)
+		var added []uint64
 		for _, b := range benches {
 			if b.ID != 0 {
 				if _, ok := byID[b.ID]; !ok {
@@ -640,6 +664,7 @@ func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench) ([]domain.Ben
 					return err
 				}
 				b.ID = id
+				added = append(added, id)
 			}
 			byID[b.ID] = b
 		}
@@ -650,10 +675,21 @@ func (db *DB) PutBenches(sessionID uint64, benches []domain.Bench) ([]domain.Ben
 			}
 			labels[b.Label] = b.ID
 		}
-		for id, b := range byID {
-			if err := putRecord(bk, benchKey(sessionID, id), benchRecord(b)); err != nil {
+		for _, b := range benches {
+			if b.ID == 0 {
+				continue // given its id above, in byID
+			}
+			if err := putRecord(bk, benchKey(sessionID, b.ID), benchRecord(byID[b.ID])); err != nil {
 				return err
 			}
+		}
+		for _, id := range added {
+			if err := putRecord(bk, benchKey(sessionID, id), benchRecord(byID[id])); err != nil {
+				return err
+			}
+		}
+		if err := appendEvents(tx, sessionID, audit); err != nil {
+			return err
 		}
 		out, err = listBenches(tx, sessionID)
 		return err
