@@ -280,48 +280,51 @@ func (ss staffService) target(c caller, id uint64, self bool) (store.StaffAccoun
 // RevokeStaff stops an account's key at once: its next call is refused and its open room streams
 // end. The account stays, so the audit log still names the person.
 func (ss staffService) RevokeStaff(ctx context.Context, req *pb.RevokeStaffRequest) (*pb.RevokeStaffResponse, error) {
-	c, err := staffCaller(ctx)
+	a, _, err := ss.change(ctx, req.GetStaffId(), false, "revoked")
 	if err != nil {
 		return nil, err
 	}
-	k := ss.s.staff
-	k.mu.Lock()
-	defer k.mu.Unlock()
-	a, err := ss.target(c, req.GetStaffId(), false)
-	if err != nil {
-		return nil, err
-	}
-	if a, err = ss.s.db.UpdateStaff(a.ID, true, nil); err != nil {
-		return nil, err
-	}
-	k.put(a)
-	k.endStreams(a.ID, fmt.Sprintf("the key of %s was revoked by %s", a.Name, c.name()))
-	ss.s.log.Info("staff revoked", "staff_id", a.ID, "name", a.Name, "by", c.name())
 	return &pb.RevokeStaffResponse{Staff: staffToPB(a.Staff)}, nil
 }
 
 // RotateStaffKey gives an account a new key, shown once; the old key stops at once, open streams
 // too. A revoked account comes back with the new key. Anyone may rotate their own key.
 func (ss staffService) RotateStaffKey(ctx context.Context, req *pb.RotateStaffKeyRequest) (*pb.RotateStaffKeyResponse, error) {
-	c, err := staffCaller(ctx)
+	a, key, err := ss.change(ctx, req.GetStaffId(), true, "replaced")
 	if err != nil {
 		return nil, err
+	}
+	return &pb.RotateStaffKeyResponse{Staff: staffToPB(a.Staff), Key: key}, nil
+}
+
+// change revokes an account ("revoked") or gives it a new key
+// ("replaced", returned), as the caller may, and ends the streams of its
+// old key with the reason.
+func (ss staffService) change(ctx context.Context, id uint64, rotate bool, what string) (store.StaffAccount, string, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return store.StaffAccount{}, "", err
 	}
 	k := ss.s.staff
 	k.mu.Lock()
 	defer k.mu.Unlock()
-	a, err := ss.target(c, req.GetStaffId(), true)
+	a, err := ss.target(c, id, rotate)
 	if err != nil {
-		return nil, err
+		return store.StaffAccount{}, "", err
 	}
-	key := newKey()
-	if a, err = ss.s.db.UpdateStaff(a.ID, false, hashKey(key)); err != nil {
-		return nil, err
+	var key string
+	var hash []byte
+	if rotate {
+		key = newKey()
+		hash = hashKey(key)
+	}
+	if a, err = ss.s.db.UpdateStaff(a.ID, !rotate, hash); err != nil {
+		return store.StaffAccount{}, "", err
 	}
 	k.put(a)
-	k.endStreams(a.ID, fmt.Sprintf("the key of %s was replaced by %s; use the new one", a.Name, c.name()))
-	ss.s.log.Info("staff key rotated", "staff_id", a.ID, "name", a.Name, "by", c.name())
-	return &pb.RotateStaffKeyResponse{Staff: staffToPB(a.Staff), Key: key}, nil
+	k.endStreams(a.ID, fmt.Sprintf("the key of %s was %s by %s", a.Name, what, c.name()))
+	ss.s.log.Info("staff key "+what, "staff_id", a.ID, "name", a.Name, "by", c.name())
+	return a, key, nil
 }
 
 // WhoAmI says whose key the call carries and what it may do.

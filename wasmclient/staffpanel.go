@@ -64,59 +64,59 @@ func listStaff(ctx context.Context, c *api) ([]*pb.StaffMember, error) {
 
 func (p *StaffPanel) add(ctx app.Context, e app.Event) {
 	e.PreventDefault()
-	c := p.client
 	req := &pb.AddStaffRequest{Name: p.name, Roles: []*pb.CourseRole{{Course: p.course, Role: p.role}}}
-	ctx.Async(func() {
+	p.changeThenList(ctx, func(c *api) (*pb.StaffMember, string, error) {
 		res, err := unary[pb.AddStaffResponse](ctx, c, ProcAddStaff, req)
-		var list []*pb.StaffMember
-		if err == nil {
-			list, _ = listStaff(ctx, c)
+		if err != nil {
+			return nil, "", err
 		}
-		ctx.Dispatch(func(app.Context) {
-			p.errs = fieldMessages(err)
-			if err != nil {
-				p.status, p.shownKey = "not added: "+err.Error(), ""
-				return
-			}
-			p.name, p.status, p.staff = "", "", list
-			p.shownKey, p.shownFor = res.Key, res.Staff.Name
-		})
-	})
+		return res.Staff, res.Key, nil
+	}, "not added: ", func() { p.name = "" })
 }
 
 func (p *StaffPanel) revoke(ctx app.Context, m *pb.StaffMember) {
-	c := p.client
-	ctx.Async(func() {
+	p.changeThenList(ctx, func(c *api) (*pb.StaffMember, string, error) {
 		_, err := unary[pb.RevokeStaffResponse](ctx, c, ProcRevokeStaff, &pb.RevokeStaffRequest{StaffId: m.StaffId})
-		var list []*pb.StaffMember
-		if err == nil {
-			list, _ = listStaff(ctx, c)
-		}
-		ctx.Dispatch(func(app.Context) {
-			p.shownKey = ""
-			if err != nil {
-				p.status = "not revoked: " + err.Error()
-				return
-			}
-			p.status, p.staff = fmt.Sprintf("%s's key was revoked: it stopped working at once, open rooms too", m.Name), list
-		})
+		return nil, "", err
+	}, "not revoked: ", func() {
+		p.status = fmt.Sprintf("%s's key was revoked: it stopped working at once, open rooms too", m.Name)
 	})
 }
 
 func (p *StaffPanel) rotate(ctx app.Context, m *pb.StaffMember) {
+	p.changeThenList(ctx, func(c *api) (*pb.StaffMember, string, error) {
+		res, err := unary[pb.RotateStaffKeyResponse](ctx, c, ProcRotateStaffKey, &pb.RotateStaffKeyRequest{StaffId: m.StaffId})
+		if err != nil {
+			return nil, "", err
+		}
+		return res.Staff, res.Key, nil
+	}, "no new key: ", nil)
+}
+
+// changeThenList makes a change off the UI goroutine and reads the list
+// after it on the same goroutine, then shows both at once: the key the
+// change made (if any), or why it failed; done runs after a success.
+func (p *StaffPanel) changeThenList(ctx app.Context, change func(*api) (*pb.StaffMember, string, error), failed string, done func()) {
 	c := p.client
 	ctx.Async(func() {
-		res, err := unary[pb.RotateStaffKeyResponse](ctx, c, ProcRotateStaffKey, &pb.RotateStaffKeyRequest{StaffId: m.StaffId})
+		who, key, err := change(c)
 		var list []*pb.StaffMember
 		if err == nil {
 			list, _ = listStaff(ctx, c)
 		}
 		ctx.Dispatch(func(app.Context) {
+			p.errs, p.shownKey, p.status = fieldMessages(err), "", ""
 			if err != nil {
-				p.status, p.shownKey = "no new key: "+err.Error(), ""
+				p.status = failed + err.Error()
 				return
 			}
-			p.shownKey, p.shownFor, p.status, p.staff = res.Key, res.Staff.Name, "", list
+			p.staff = list
+			if key != "" {
+				p.shownKey, p.shownFor = key, who.Name
+			}
+			if done != nil {
+				done()
+			}
 		})
 	})
 }
