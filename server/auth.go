@@ -297,7 +297,10 @@ func (s *Server) authorizeStaff(ctx context.Context, tok, method string, req any
 		return ctx, status.Errorf(codes.Unauthenticated, "the key of %s has been revoked; ask your course's instructor or the administrator for a new one", c.staff.Name)
 	}
 	if act, ok := staffRules[method]; ok && !c.admin {
-		sr, _ := req.(sessionRequest)
+		sr, ok := req.(sessionRequest)
+		if !ok {
+			return ctx, status.Error(codes.PermissionDenied, "this call names no session to check the caller's course against")
+		}
 		if err := s.mayInSession(c, act, sr.GetSessionId()); err != nil {
 			return ctx, err
 		}

@@ -188,8 +188,9 @@ func staffCaller(ctx context.Context) (caller, error) {
 	return c, nil
 }
 
-// AddStaff creates an account with a name and a role per course, and returns its key once. The
-// administrator adds anyone; an instructor adds assistants to their own courses.
+// AddStaff creates an account with a name and a role per course, and returns its key once; for a
+// name that already has an active account, it adds the roles to that account and returns no key.
+// The administrator adds anyone; an instructor adds assistants to their own courses.
 func (ss staffService) AddStaff(ctx context.Context, req *pb.AddStaffRequest) (*pb.AddStaffResponse, error) {
 	c, err := staffCaller(ctx)
 	if err != nil {
@@ -222,9 +223,11 @@ func (ss staffService) AddStaff(ctx context.Context, req *pb.AddStaffRequest) (*
 	k := ss.s.staff
 	k.mu.Lock()
 	defer k.mu.Unlock()
+	// A name is one person: the audit log names people. Roles for an
+	// active account of that name are added to it, and its key stays.
 	for _, a := range k.byID {
 		if !a.Revoked && strings.EqualFold(a.Name, st.Name) {
-			return nil, status.Errorf(codes.AlreadyExists, "name: %q already has an account (id %d); the audit log names people, so each name is one person", a.Name, a.ID)
+			return ss.addRoles(c, a, st.Roles, field)
 		}
 	}
 	key := newKey()
@@ -235,6 +238,31 @@ func (ss staffService) AddStaff(ctx context.Context, req *pb.AddStaffRequest) (*
 	k.put(store.StaffAccount{Staff: st, KeyHash: hash})
 	ss.s.log.Info("staff added", "staff_id", st.ID, "name", st.Name, "by", c.name())
 	return &pb.AddStaffResponse{Staff: staffToPB(st), Key: key}, nil
+}
+
+// addRoles gives an existing account roles in more courses; a course it
+// already has a role in must keep that role. The answer carries no key:
+// the person's key is unchanged. Call with the staff lock held.
+func (ss staffService) addRoles(c caller, a store.StaffAccount, roles map[string]domain.Role, field map[string]string) (*pb.AddStaffResponse, error) {
+	var vs []domain.FieldViolation
+	merged := maps.Clone(a.Roles)
+	for course, r := range roles {
+		if have, ok := a.Roles[course]; ok && have != r {
+			vs = append(vs, domain.FieldViolation{Field: field[course] + ".role",
+				Reason: fmt.Sprintf("%s is already %s of %q; revoke the account and add it again to change a role", a.Name, have, course)})
+		}
+		merged[course] = r
+	}
+	if len(vs) > 0 {
+		return nil, &domain.ValidationError{Violations: vs}
+	}
+	a, err := ss.s.db.SetStaffRoles(a.ID, merged)
+	if err != nil {
+		return nil, err
+	}
+	ss.s.staff.put(a)
+	ss.s.log.Info("staff roles added", "staff_id", a.ID, "name", a.Name, "by", c.name())
+	return &pb.AddStaffResponse{Staff: staffToPB(a.Staff)}, nil
 }
 
 // ListStaff lists the accounts the caller may manage: all of them for the administrator, the

@@ -216,8 +216,21 @@ func TestStaffRequestsChecked(t *testing.T) {
 		t.Errorf("refused requests stored %d accounts", len(all))
 	}
 	_, key := addStaff(t, r, "Rosalind Achterberg", map[string]pb.StaffRole{"PHY 214": instructor})
-	if _, err := admin.AddStaff(ctx, &pb.AddStaffRequest{Name: "rosalind achterberg", Roles: []*pb.CourseRole{{Course: "PHY 1", Role: assistant}}}); status.Code(err) != codes.AlreadyExists {
-		t.Errorf("a second account of the same name: %v, want AlreadyExists", err)
+	// A name is one person: adding it again adds roles to the account, and
+	// gives no new key; a course it has a role in keeps that role.
+	more, err := admin.AddStaff(ctx, &pb.AddStaffRequest{Name: "rosalind achterberg", Roles: []*pb.CourseRole{{Course: "PHY 1", Role: assistant}}})
+	if err != nil || more.Key != "" || more.Staff.StaffId != 1 || len(more.Staff.Roles) != 2 {
+		t.Errorf("the same name again: %v, %v; want account 1 with two roles and no key", more, err)
+	}
+	_, err = admin.AddStaff(ctx, &pb.AddStaffRequest{Name: "Rosalind Achterberg", Roles: []*pb.CourseRole{{Course: "PHY 214", Role: assistant}}})
+	if got := fieldsOf(t, err); !contains(got, "roles[0].role") {
+		t.Errorf("changing a role by adding the name again: %v, want a roles[0].role violation", err)
+	}
+	if who, err := rpcpb.NewStaffServiceClient(dialAs(t, r, key)).WhoAmI(ctx, &pb.WhoAmIRequest{}); err != nil || len(who.Roles) != 2 {
+		t.Errorf("the person's key after a role was added: %v, %v; want it working, with both roles", who, err)
+	}
+	if all, _ := r.db.StaffAccounts(); len(all) != 1 {
+		t.Errorf("%d accounts, want the one", len(all))
 	}
 	mine := rpcpb.NewStaffServiceClient(dialAs(t, r, key))
 	for _, roles := range [][]*pb.CourseRole{{{Course: "PHY 214", Role: instructor}}, {{Course: "PHY 118", Role: assistant}}} {

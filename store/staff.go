@@ -62,6 +62,16 @@ func (db *DB) StaffAccounts() ([]StaffAccount, error) {
 // UpdateStaff changes one account: revoked, or a new key hash when
 // keyHash is not nil. It returns the account as stored.
 func (db *DB) UpdateStaff(id uint64, revoked bool, keyHash []byte) (StaffAccount, error) {
+	return db.changeStaff(id, func(r *recordpb.Staff) {
+		r.Revoked = revoked
+		if keyHash != nil {
+			r.KeySha256 = keyHash
+		}
+	})
+}
+
+// changeStaff rewrites one account's record with change applied.
+func (db *DB) changeStaff(id uint64, change func(*recordpb.Staff)) (StaffAccount, error) {
 	var out StaffAccount
 	err := db.bolt.Update(func(tx *bbolt.Tx) error {
 		b := tx.Bucket(bucketStaff)
@@ -73,10 +83,7 @@ func (db *DB) UpdateStaff(id uint64, revoked bool, keyHash []byte) (StaffAccount
 		if err := proto.Unmarshal(v, &r); err != nil {
 			return fmt.Errorf("decode staff %d: %w", id, err)
 		}
-		r.Revoked = revoked
-		if keyHash != nil {
-			r.KeySha256 = keyHash
-		}
+		change(&r)
 		out = StaffAccount{Staff: staffFromRecord(&r), KeyHash: slices.Clone(r.GetKeySha256())}
 		return putRecord(b, staffKey(id), &r)
 	})
@@ -84,6 +91,13 @@ func (db *DB) UpdateStaff(id uint64, revoked bool, keyHash []byte) (StaffAccount
 		return StaffAccount{}, fmt.Errorf("store: update staff: %w", err)
 	}
 	return out, nil
+}
+
+// SetStaffRoles replaces an account's roles.
+func (db *DB) SetStaffRoles(id uint64, roles map[string]domain.Role) (StaffAccount, error) {
+	return db.changeStaff(id, func(r *recordpb.Staff) {
+		r.Roles = staffRecord(domain.Staff{Roles: roles}, nil).Roles
+	})
 }
 
 // BackupSessions writes a file that holds only the given sessions (their

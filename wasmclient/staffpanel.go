@@ -113,6 +113,8 @@ func (p *StaffPanel) changeThenList(ctx app.Context, change func(*api) (*pb.Staf
 			p.staff = list
 			if key != "" {
 				p.shownKey, p.shownFor = key, who.Name
+			} else if who != nil {
+				p.status = fmt.Sprintf("%s already had an account: the new role is added and their key is unchanged", who.Name)
 			}
 			if done != nil {
 				done()

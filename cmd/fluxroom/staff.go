@@ -23,7 +23,8 @@ const staffHelp = `fluxroom staff: manage the people who hold keys to a running 
 The administrator's key (the one serve printed at first start) manages
 everyone; an instructor's key adds, revokes and rotates the assistants of
 their own courses; anyone may rotate their own key. A new key is printed
-once: the server keeps only its hash.
+once: the server keeps only its hash. Adding a name that already has an
+account adds the roles to it and leaves its key as it was.
 `
 
 // courseList is a repeatable flag of course names.
@@ -100,6 +101,10 @@ func (m *Main) staffCmd(ctx context.Context, args []string) error {
 		res, err := c.AddStaff(ctx, req)
 		if err != nil {
 			return fmt.Errorf("staff add: %w", err)
+		}
+		if res.Key == "" {
+			fmt.Fprintf(m.Stdout, "%s (id %d) already has an account; it is now %s. Their key is unchanged.\n", res.Staff.Name, res.Staff.StaffId, rolesText(res.Staff.Roles))
+			return nil
 		}
 		showKey(res.Staff, res.Key)
 	case "list":

@@ -61,7 +61,16 @@ func TestStaffCommand(t *testing.T) {
 			t.Errorf("%s: exit %d, %q; want exit %d saying %q", tc.name, exitCode(err), out, tc.code, tc.says)
 		}
 	}
-	if out, err := run("revoke", "--server", p.addr, "--key", rosalind, "--id", "2"); err != nil || !strings.Contains(out, "Revoked the key of Teo Vasquez-Lind") {
+	if out, err := run("add", "--server", p.addr, "--key", testKey, "--name", "Teo Vasquez-Lind", "--assistant", "PHY 118"); err != nil ||
+		!strings.Contains(out, `already has an account; it is now assistant of "PHY 118"; assistant of "PHY 214". Their key is unchanged`) || keyIn.MatchString(out) {
+		t.Errorf("adding a role to an existing person: %v\n%s", err, out)
+	}
+	// Teo now assists in a course Rosalind only assists in: only the
+	// administrator may revoke him.
+	if _, err := run("revoke", "--server", p.addr, "--key", rosalind, "--id", "2"); exitCode(err) != 1 || !strings.Contains(err.Error(), "may not change the account of Teo Vasquez-Lind") {
+		t.Errorf("an instructor revokes an assistant of another course too: %v", err)
+	}
+	if out, err := run("revoke", "--server", p.addr, "--key", testKey, "--id", "2"); err != nil || !strings.Contains(out, "Revoked the key of Teo Vasquez-Lind") {
 		t.Errorf("revoke: %v\n%s", err, out)
 	}
 	if out, err := run("whoami", "--server", p.addr, "--key", teo); exitCode(err) != 1 || !strings.Contains(out+err.Error(), "revoked") {
