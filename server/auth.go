@@ -183,8 +183,9 @@ func (a *auth) admit(ctx context.Context, sessionID, benchID uint64) bool {
 }
 
 func bearerOf(ctx context.Context) string {
-	md, _ := metadata.FromIncomingContext(ctx)
-	for _, v := range md.Get("authorization") {
+	// ValueFromIncomingContext reads the one key; FromIncomingContext would
+	// copy every header of the call, at every reading.
+	for _, v := range metadata.ValueFromIncomingContext(ctx, "authorization") {
 		if t, ok := strings.CutPrefix(v, "Bearer "); ok {
 			return strings.TrimSpace(t)
 		}

@@ -36,7 +36,14 @@ func benchToPB(b domain.Bench) *pb.Bench {
 }
 
 func readingToPB(r domain.Reading) *pb.Reading {
-	out := &pb.Reading{ReadingId: r.ID, Values: wire.QuantitiesToPB(r.Values), Sequence: r.Sequence, Supersedes: r.Supersedes}
+	return readingWithValues(r, wire.QuantitiesToPB(r.Values))
+}
+
+// readingWithValues is readingToPB with the values already in wire form: a
+// submission's answer sends back the request's own, which are the stored
+// reading's values as typed, without converting them twice.
+func readingWithValues(r domain.Reading, values map[string]*pb.Quantity) *pb.Reading {
+	out := &pb.Reading{ReadingId: r.ID, Values: values, Sequence: r.Sequence, Supersedes: r.Supersedes}
 	if !r.ReceivedAt.IsZero() {
 		out.ReceivedAt = timestamppb.New(r.ReceivedAt)
 	}

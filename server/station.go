@@ -98,7 +98,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		return nil, err
 	}
 	if st.s.ackEarly(req.GetSessionId(), req.GetBenchId(), r) {
-		return &pb.SubmitReadingResponse{Reading: readingToPB(r)}, nil
+		return &pb.SubmitReadingResponse{Reading: readingWithValues(r, req.GetValues())}, nil
 	}
 	// AppendReading returns once bbolt has committed the transaction, which
 	// fsyncs the file: only then is the reading acknowledged.
@@ -126,7 +126,8 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	if err := st.s.fail("replying"); err != nil {
 		return nil, err
 	}
-	return &pb.SubmitReadingResponse{Reading: readingToPB(stored), Duplicate: dup}, nil
+	// A duplicate's stored values equal the request's (checked above).
+	return &pb.SubmitReadingResponse{Reading: readingWithValues(stored, req.GetValues()), Duplicate: dup}, nil
 }
 
 // GetBenchState is the caller's bench as its station may see it: the verdict and its reasons when the
