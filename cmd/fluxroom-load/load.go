@@ -38,7 +38,7 @@ type loadConfig struct {
 const (
 	loadStationRate  = "20"
 	loadStationBurst = "40"
-	loadKey          = "load-test-instructor-key-000"
+	loadKey          = "load-test-admin-key-0000000"
 	loadGenGCPercent = 400
 )
 
@@ -292,7 +292,7 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	}
 	// Restart on the filled file: how long a crashed or upgraded server
 	// keeps the room waiting.
-	c, restart, err := startChild(r.fluxroom, "serve", "--db", r.db, "--log-level", "error", "--instructor-key", loadKey)
+	c, restart, err := startChild(r.fluxroom, "serve", "--db", r.db, "--log-level", "error", "--admin-key", loadKey)
 	if err != nil {
 		return p, fmt.Errorf("restart: %w", err)
 	}

@@ -92,7 +92,7 @@ func (r *loadRoom) close() {
 // own connection and makes one call on it.
 func newLoadRoom(fluxroom, dir string, n int, own bool, serveArgs ...string) (*loadRoom, time.Duration, error) {
 	db := filepath.Join(dir, fmt.Sprintf("load-%d.db", time.Now().UnixNano()))
-	c, startup, err := startChild(fluxroom, append([]string{"serve", "--db", db, "--log-level", "error", "--instructor-key", loadKey}, serveArgs...)...)
+	c, startup, err := startChild(fluxroom, append([]string{"serve", "--db", db, "--log-level", "error", "--admin-key", loadKey}, serveArgs...)...)
 	if err != nil {
 		return nil, 0, err
 	}

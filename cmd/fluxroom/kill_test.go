@@ -73,7 +73,7 @@ func killCycles(t *testing.T, bin string, cycles int, extra ...string) killResul
 	dbPath := filepath.Join(dir, "fluxroom.db")
 	addr := freePort(t)
 	start := func() *exec.Cmd {
-		cmd := exec.Command(bin, append([]string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--instructor-key", testKey,
+		cmd := exec.Command(bin, append([]string{"serve", "--db", dbPath, "--addr", addr, "--log-level", "error", "--admin-key", testKey,
 			"--station-rate", "10000", "--station-burst", "10000"}, extra...)...)
 		cmd.Stderr = os.Stderr
 		if err := cmd.Start(); err != nil {
