@@ -271,7 +271,7 @@ func (s *Setup) Render() app.UI {
 		app.If(s.needKey, &KeyPrompt{}),
 		app.Form().ID("session-form").OnSubmit(s.saveSession).Body(
 			s.renderCourse(),
-			field("title", "Section", s.errs["title"], app.Input().ID("title").Value(s.title).
+			field("title", "title", "Section", s.errs["title"], app.Input().ID("title").Value(s.title).
 				OnInput(func(ctx app.Context, e app.Event) { s.title = ctx.JSSrc().Get("value").String() })),
 			app.FieldSet().Body(
 				app.Legend().Text("Tolerance profile (empty or 0: the defaults 2, 3, 5 %, 10 %)"),
@@ -315,13 +315,13 @@ func (s *Setup) renderCourse() app.UI {
 	}
 	mine := s.who.instructedCourses()
 	if s.who != nil && !s.who.admin && len(mine) > 0 {
-		return field("course", "Course", s.errs["course"], app.Select().ID("course").OnChange(func(ctx app.Context, e app.Event) {
+		return field("course", "course", "Course", s.errs["course"], app.Select().ID("course").OnChange(func(ctx app.Context, e app.Event) {
 			s.course = ctx.JSSrc().Get("value").String()
 		}).Body(app.Range(mine).Slice(func(i int) app.UI {
 			return app.Option().Value(mine[i]).Selected(mine[i] == s.course).Text(mine[i])
 		})))
 	}
-	return field("course", "Course (empty: the same as the section)", s.errs["course"], app.Input().ID("course").Value(s.course).
+	return field("course", "course", "Course (empty: the same as the section)", s.errs["course"], app.Input().ID("course").Value(s.course).
 		OnInput(func(ctx app.Context, e app.Event) { s.course = ctx.JSSrc().Get("value").String() }))
 }
 
@@ -361,7 +361,7 @@ func (s *Setup) sessionID() uint64 {
 }
 
 func (s *Setup) numField(name, label string, v *string) app.UI {
-	return field(name, label, s.errs[name], app.Input().ID(name).Attr("inputmode", "decimal").Size(5).Value(*v).
+	return field(name, name, label, s.errs[name], app.Input().ID(name).Attr("inputmode", "decimal").Size(5).Value(*v).
 		OnInput(func(ctx app.Context, e app.Event) { *v = ctx.JSSrc().Get("value").String() }))
 }
 
@@ -429,7 +429,7 @@ func (s *Setup) renderConstants() app.UI {
 				errKey = m
 			}
 		}
-		fields = append(fields, field("c-"+q.Name, q.Label+" ("+strings.Join(q.Units, ", ")+")", errKey,
+		fields = append(fields, field("c-"+q.Name, "c-"+q.Name, q.Label+" ("+strings.Join(q.Units, ", ")+")", errKey,
 			app.Input().ID("c-"+q.Name).Value(c.constants[q.Name]).
 				Placeholder(fmt.Sprintf("%g %s", q.DefaultValue, q.Unit)).
 				OnInput(func(ctx app.Context, e app.Event) {

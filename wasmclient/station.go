@@ -320,13 +320,13 @@ func (s *Station) Render() app.UI {
 		return app.Main().Class("station").Attr("data-ready", app.IsClient).Body(
 			app.H1().Text("Join your bench"),
 			app.Form().ID("join-form").OnSubmit(s.join).Body(
-				field("join_code", "Join code (on the instructor's screen)", s.fieldErrs["join_code"],
+				field("join_code", "join_code", "Join code (on the instructor's screen)", s.fieldErrs["join_code"],
 					app.Input().ID("join_code").Value(s.code).AutoComplete(false).
 						OnInput(func(ctx app.Context, e app.Event) { s.code = ctx.JSSrc().Get("value").String() })),
-				field("bench_label", "Bench label (on the bench)", s.fieldErrs["bench_label"],
+				field("bench_label", "bench_label", "Bench label (on the bench)", s.fieldErrs["bench_label"],
 					app.Input().ID("bench_label").Value(s.label).
 						OnInput(func(ctx app.Context, e app.Event) { s.label = ctx.JSSrc().Get("value").String() })),
-				field("group_members", "Your names (optional, for the gradebook)", s.fieldErrs["group_members"],
+				field("group_members", "group_members", "Your names (optional, for the gradebook)", s.fieldErrs["group_members"],
 					app.Input().ID("group_members").Value(s.members).MaxLength(200).
 						OnInput(func(ctx app.Context, e app.Event) { s.members = ctx.JSSrc().Get("value").String() })),
 				app.Button().Type("submit").ID("join").Text("Join"),
@@ -346,7 +346,7 @@ func (s *Station) Render() app.UI {
 			for _, u := range v.Units {
 				opts = append(opts, app.Option().Value(u).Text(u).Selected(u == s.units[v.Name]))
 			}
-			fields = append(fields, field(v.Name, label, s.fieldErrs[v.Name],
+			fields = append(fields, field("v-"+v.Name, v.Name, label, s.fieldErrs[v.Name],
 				app.Input().ID("v-"+v.Name).Attr("inputmode", "decimal").Value(s.inputs[v.Name]).
 					OnInput(func(ctx app.Context, e app.Event) {
 						s.inputs[v.Name] = ctx.JSSrc().Get("value").String()
@@ -466,7 +466,7 @@ func (s *Station) correctionChoice() app.UI {
 		opts = append(opts, app.Option().Value(r.ReadingId).Selected(s.correcting == r.ReadingId).
 			Text(fmt.Sprintf("a correction of reading #%d", i+1)))
 	}
-	return field("supersedes", "This is", s.fieldErrs["supersedes"], app.Select().ID("v-supersedes").Body(opts...).
+	return field("v-supersedes", "supersedes", "This is", s.fieldErrs["supersedes"], app.Select().ID("v-supersedes").Body(opts...).
 		OnChange(func(ctx app.Context, e app.Event) { s.correcting = ctx.JSSrc().Get("value").String() }))
 }
 
@@ -477,18 +477,12 @@ func (s *Station) statusLine() string {
 	return s.status
 }
 
-// field is a labelled input with its validation message beside it.
-func field(name, label, msg string, inputs ...app.UI) app.UI {
+// field is a labelled input with its validation message beside it: name
+// is the field the server's violations name, id the labelled input's id.
+func field(id, name, label, msg string, inputs ...app.UI) app.UI {
 	return app.Div().Class("field").Attr("data-field", name).Body(
-		app.Label().For(inputID(name, inputs)).Text(label),
+		app.Label().For(id).Text(label),
 		app.Div().Class("inputs").Body(inputs...),
 		app.If(msg != "", app.Span().Class("field-error").Attr("role", "alert").Text(msg)),
 	)
-}
-
-func inputID(name string, inputs []app.UI) string {
-	if strings.Contains(name, "_code") || name == "bench_label" {
-		return name
-	}
-	return "v-" + name
 }

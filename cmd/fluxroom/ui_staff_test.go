@@ -71,10 +71,42 @@ func TestAssistantSeesOnlyTheirRoom(t *testing.T) {
 		chromedp.WaitVisible(chromedp.CSS(`#new-key-value`)),
 		chromedp.WaitVisible(chromedp.CSS(`#staff-list tr[data-staff="Pavla Oyelaran"]`)),
 	)
+	checkLabels(t, r, "the set-up page")
 	key, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#new-key-value`)))
 	who, err := rpcpb.NewStaffServiceClient(dialKey(t, r.p.addr, key)).WhoAmI(ctx, &pb.WhoAmIRequest{})
 	if err != nil || who.Name != "Pavla Oyelaran" || len(who.Roles) != 1 || who.Roles[0].Course != r.sess.Course || who.Roles[0].Role != pb.StaffRole_STAFF_ROLE_ASSISTANT {
 		t.Errorf("the key shown on the set-up page: %v, %v; want Pavla Oyelaran, assistant of %s", who, err, r.sess.Course)
 	}
 	screenshot(t, r.tab, "setup-staff.png")
+}
+
+// checkLabels fails the test when a label on the page names no element: a
+// screen reader then reads the input without its label.
+func checkLabels(t *testing.T, r *uiRig, page string) {
+	t.Helper()
+	dangling, err := chromedp.Run(r.tab, chromedp.Evaluate[[]string](`[...document.querySelectorAll('label[for]')].filter(l => !document.getElementById(l.htmlFor)).map(l => l.htmlFor)`))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(dangling) > 0 {
+		t.Errorf("%s: labels for no element: %v", page, dangling)
+	}
+}
+
+// TestEveryLabelHasItsInput: the station page, joined and not, labels
+// every input it shows.
+func TestEveryLabelHasItsInput(t *testing.T) {
+	r := newUIRig(t, "G1")
+	r.do(t, "the join form",
+		chromedp.Navigate(fmt.Sprintf("http://%s/station", r.p.addr)),
+		chromedp.WaitVisible(chromedp.CSS(`main.station[data-ready="true"] #join_code`)))
+	checkLabels(t, r, "the station's join form")
+	r.do(t, "the reading form",
+		chromedp.SendKeys(chromedp.CSS(`#join_code`), r.sess.JoinCode),
+		chromedp.SendKeys(chromedp.CSS(`#bench_label`), "G1"),
+		chromedp.Click(chromedp.CSS(`#join`)),
+		chromedp.WaitVisible(chromedp.CSS(`main.station[data-ready="true"] #v-force`)))
+	checkLabels(t, r, "the station's reading form")
+	r.do(t, "the set-up page", chromedp.Navigate(r.url("/setup")), chromedp.WaitVisible(chromedp.CSS(`#constants`)))
+	checkLabels(t, r, "the set-up page with a bench's constants")
 }
