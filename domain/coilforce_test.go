@@ -33,7 +33,7 @@ func forceReadings(scale, offset, sd float64, seed uint64) []Reading {
 		F := scale*0.480*I + offset + sd*rng.NormFloat64()
 		rs = append(rs, Reading{
 			ID:         fmt.Sprintf("r%d", i),
-			Values:     map[string]Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: F, Unit: "N"}},
+			Values:     ValuesOf(map[string]Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: F, Unit: "N"}}),
 			ReceivedAt: t0.Add(time.Duration(i) * time.Minute),
 		})
 	}
@@ -96,7 +96,7 @@ func TestCoilForceVerdicts(t *testing.T) {
 func TestCoilForceAllAtOneCurrent(t *testing.T) {
 	rs := forceReadings(1, 0, 0.003, 3)
 	for i := range rs {
-		rs[i].Values["current"] = Quantity{Value: 2, Unit: "A"}
+		rs[i].Values.Set("current", Quantity{Value: 2, Unit: "A"})
 	}
 	if a := Assess(forceBench(), rs, DefaultTolerance()); a.Verdict != NeedData {
 		t.Errorf("verdict = %s, want need data", a.Verdict.Label())
@@ -153,7 +153,7 @@ func TestValidateReading(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			m := ok()
 			tc.edit(m)
-			checkField(t, ValidateReading("values", forceBench(), m), tc.wantField)
+			checkField(t, ValidateReading("values", forceBench(), ValuesOf(m)), tc.wantField)
 		})
 	}
 }

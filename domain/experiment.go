@@ -221,12 +221,12 @@ func siUnit(d Dimension) string {
 	return ""
 }
 
-func (e *Experiment) convertReading(prefix string, values map[string]Quantity) (map[string]Measurement, error) {
+func (e *Experiment) convertReading(prefix string, values Values) (map[string]Measurement, error) {
 	var vs violations
 	out := make(map[string]Measurement, len(e.Values))
 	for _, s := range e.Values {
 		fieldOf := func() string { return fmt.Sprintf("%s[%q]", prefix, s.Name) }
-		q, ok := values[s.Name]
+		q, ok := values.Get(s.Name)
 		if !ok {
 			if !s.Optional {
 				vs.add(fieldOf(), "is missing: %s needs %s", e.Title, s.Label)
@@ -242,9 +242,9 @@ func (e *Experiment) convertReading(prefix string, values map[string]Quantity) (
 		for _, s := range e.Values {
 			known[s.Name] = true
 		}
-		for _, name := range sortedKeys(values) {
-			if !known[name] {
-				vs.add(fmt.Sprintf("%s[%q]", prefix, name), "experiment %s takes no value %q", e.ID, name)
+		for _, nq := range values { // sorted by name
+			if !known[nq.Name] {
+				vs.add(fmt.Sprintf("%s[%q]", prefix, nq.Name), "experiment %s takes no value %q", e.ID, nq.Name)
 			}
 		}
 	}

@@ -42,7 +42,7 @@ func FuzzAssess(f *testing.F) {
 				values[s.Name] = Quantity{Value: 1, Unit: s.Unit}
 			}
 		}
-		err = ValidateReading("values", b, values)
+		err = ValidateReading("values", b, ValuesOf(values))
 		checkNamed(t, err)
 		if (math.IsNaN(v1) || math.IsInf(v1, 0)) && err == nil {
 			t.Fatalf("non-finite value %v accepted", v1)
@@ -50,7 +50,7 @@ func FuzzAssess(f *testing.F) {
 		var rs []Reading
 		if err == nil {
 			for range 4 {
-				rs = append(rs, Reading{Values: values})
+				rs = append(rs, Reading{Values: ValuesOf(values)})
 			}
 		}
 		a := Assess(b, rs, DefaultTolerance())

@@ -111,8 +111,8 @@ func emRun(bg float64, bothWays bool) []Reading {
 				B := math.Abs(k*I*s + bg)
 				d := 2 * math.Sqrt(2*V/ElectronChargeToMass) / B
 				rs = append(rs, Reading{ID: fmt.Sprintf("r%d", len(rs)+1), Sequence: uint64(len(rs) + 1),
-					Values: map[string]Quantity{"anode_voltage": Qty(V, "V"), "coil_current": Qty(s*I, "A"),
-						"beam_diameter": Qty(Round(d*1000, 0.1), "mm")}})
+					Values: ValuesOf(map[string]Quantity{"anode_voltage": Qty(V, "V"), "coil_current": Qty(s*I, "A"),
+						"beam_diameter": Qty(Round(d*1000, 0.1), "mm")})})
 			}
 		}
 	}
@@ -144,9 +144,9 @@ func TestOneSlippedReadingIsNamed(t *testing.T) {
 		for _, at := range []int{0, 4, 8} {
 			t.Run(fmt.Sprintf("%s ×%g in reading %d", tc.value, tc.factor, at+1), func(t *testing.T) {
 				rs := emRun(0, true)
-				q := rs[at].Values[tc.value]
+				q := rs[at].Values.At(tc.value)
 				q.Value *= tc.factor
-				rs[at].Values[tc.value] = q
+				rs[at].Values.Set(tc.value, q)
 				a := Assess(b, rs, DefaultTolerance())
 				if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != CodeDecimalSlipPoint {
 					t.Fatalf("diagnoses %v, want %s first (%s)", codesOf(a), CodeDecimalSlipPoint, a.Reason)
@@ -214,8 +214,8 @@ func TestMassAsForce(t *testing.T) {
 	run := func(scale float64) []Reading {
 		var rs []Reading
 		for i, I := range []float64{0, 0.2, 0.4, 0.6, 0.8, 1.0} {
-			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-				"current": Qty(I, "A"), "force": Qty(Round(0.48*I*scale, 1e-4), "N")}})
+			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: ValuesOf(map[string]Quantity{
+				"current": Qty(I, "A"), "force": Qty(Round(0.48*I*scale, 1e-4), "N")})})
 		}
 		return rs
 	}
@@ -290,8 +290,8 @@ func TestSafetyAtTheLimit(t *testing.T) {
 	run := func(last float64) []Reading {
 		var rs []Reading
 		for i, I := range []float64{0, 1, 2, 3, 4, last} {
-			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-				"current": Qty(I, "A"), "force": Qty(Round(0.48*I, 0.001), "N")}})
+			rs = append(rs, Reading{ID: fmt.Sprintf("f%d", i), Sequence: uint64(i + 1), Values: ValuesOf(map[string]Quantity{
+				"current": Qty(I, "A"), "force": Qty(Round(0.48*I, 0.001), "N")})})
 		}
 		return rs
 	}
@@ -330,7 +330,7 @@ func TestSafetyAtTheLimit(t *testing.T) {
 	t.Run("heater has no margin", func(t *testing.T) {
 		b := emBench(t)
 		rs := emRun(0, true)
-		rs[0].Values["heater_voltage"] = Qty(6.31, "V")
+		rs[0].Values.Set("heater_voltage", Qty(6.31, "V"))
 		if a := Assess(b, rs, DefaultTolerance()); a.Verdict != Unsafe || !strings.Contains(a.Reason, "6.31 V") {
 			t.Errorf("verdict %s (%s), want unsafe at 6.31 V", a.Verdict.Label(), a.Reason)
 		}
@@ -367,7 +367,7 @@ func TestUnitSlipHints(t *testing.T) {
 				}
 			}
 			values[tc.value] = tc.q
-			err = ValidateReading("values", b, values)
+			err = ValidateReading("values", b, ValuesOf(values))
 			var ve *ValidationError
 			if !errors.As(err, &ve) {
 				t.Fatalf("err = %v, want a ValidationError", err)
@@ -419,8 +419,8 @@ func TestSlippedPointIsNotAFactor(t *testing.T) {
 		if I == 2 {
 			F *= 10
 		}
-		rs = append(rs, Reading{ID: fmt.Sprintf("c1-%d", i), Sequence: uint64(i + 1), Values: map[string]Quantity{
-			"current": Qty(I, "A"), "force": Qty(F, "N")}})
+		rs = append(rs, Reading{ID: fmt.Sprintf("c1-%d", i), Sequence: uint64(i + 1), Values: ValuesOf(map[string]Quantity{
+			"current": Qty(I, "A"), "force": Qty(F, "N")})})
 	}
 	a := Assess(b, rs, DefaultTolerance())
 	if cs := codesOf(a); len(cs) == 0 || cs[0] != CodeDecimalSlipPoint || slicesContains(cs, CodeLengthDoubled) {
@@ -442,7 +442,7 @@ func TestSkippedZeroInThreeReadings(t *testing.T) {
 	var rs []Reading
 	for i, I := range []float64{0, 1, 2} {
 		// N·B·L = 0.48 N/A [derived, PHYSICS.md §2(a)]; 0.7 N left on the sensor.
-		rs = append(rs, Reading{ID: fmt.Sprintf("z%d", i), Values: map[string]Quantity{"current": Qty(I, "A"), "force": Qty(0.48*I+0.7, "N")}})
+		rs = append(rs, Reading{ID: fmt.Sprintf("z%d", i), Values: ValuesOf(map[string]Quantity{"current": Qty(I, "A"), "force": Qty(0.48*I+0.7, "N")})})
 	}
 	a := Assess(b, rs, DefaultTolerance())
 	if len(a.Diagnoses) == 0 || a.Diagnoses[0].Code != CodeSensorNotZeroed || a.Headline != "sensor not zeroed" {
@@ -460,7 +460,7 @@ func TestPlotInTypedUnits(t *testing.T) {
 	if a.Plot.XLabel != "B_theory (mT)" || a.Plot.YLabel != "B measured (mT)" {
 		t.Errorf("labels %q, %q; want both axes in mT", a.Plot.XLabel, a.Plot.YLabel)
 	}
-	typed := g.Readings[0].Values["field"].Value // mT, as the group typed it
+	typed := g.Readings[0].Values.At("field").Value // mT, as the group typed it
 	if got := a.Plot.Points[0].Y; RelErr(got, typed) > 1e-12 {
 		t.Errorf("first point at %g, want %g mT as typed", got, typed)
 	}

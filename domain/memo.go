@@ -119,7 +119,7 @@ func (f *fingerprint) write(b []byte) {
 func (f *fingerprint) add(e *Experiment, rd Reading) {
 	var buf [8]byte
 	for _, s := range e.Values {
-		q, ok := rd.Values[s.Name]
+		q, ok := rd.Values.Get(s.Name)
 		if !ok {
 			f.write([]byte{0})
 			continue

@@ -69,9 +69,9 @@ func TestMemoMatchesFromScratch(t *testing.T) {
 				// with the conversions of their old places.
 				late := rs[len(rs)/2]
 				late.ID = "late"
-				late.Values = map[string]Quantity{}
-				for k, q := range rs[len(rs)-1].Values {
-					late.Values[k] = q
+				late.Values = ValuesOf(map[string]Quantity{})
+				for _, nq := range rs[len(rs)-1].Values {
+					late.Values.Set(nq.Name, nq.Quantity)
 				}
 				rs = append(rs[:1], append([]Reading{late}, rs[1:]...)...)
 				check("after a reading placed among earlier ones")

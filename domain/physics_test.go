@@ -83,8 +83,8 @@ func TestEOverMWorkedTable(t *testing.T) {
 	}
 	var rs []Reading
 	for _, row := range []struct{ V, I, d float64 }{{150, 1.5, 7.07}, {150, 1.0, 10.60}, {200, 1.5, 8.16}, {300, 2.0, 7.50}} {
-		rs = append(rs, Reading{Values: map[string]Quantity{"anode_voltage": qty(row.V, "V"), "coil_current": qty(row.I, "A"),
-			"beam_diameter": qty(row.d, "cm")}})
+		rs = append(rs, Reading{Values: ValuesOf(map[string]Quantity{"anode_voltage": qty(row.V, "V"), "coil_current": qty(row.I, "A"),
+			"beam_diameter": qty(row.d, "cm")})})
 	}
 	a := Assess(b, rs, DefaultTolerance())
 	if e := relErr(a.Measured.Value, ElectronChargeToMass); e > 0.005 {
@@ -124,7 +124,7 @@ func TestSafety(t *testing.T) {
 				m[k] = v
 			}
 			tc.edit(m)
-			a := Assess(b, []Reading{{Values: m}}, DefaultTolerance())
+			a := Assess(b, []Reading{{Values: ValuesOf(m)}}, DefaultTolerance())
 			if got := a.Verdict == Unsafe; got != tc.unsafe {
 				t.Errorf("unsafe = %v, want %v (%s)", got, tc.unsafe, a.Reason)
 			}
@@ -177,7 +177,7 @@ func TestEOverMLinearForms(t *testing.T) {
 	var rs []Reading
 	add := func(V, I float64) {
 		d := 2 * orbitRadius(V, I)
-		rs = append(rs, Reading{Values: map[string]Quantity{"anode_voltage": qty(V, "V"), "coil_current": qty(I, "A"), "beam_diameter": qty(d, "m")}})
+		rs = append(rs, Reading{Values: ValuesOf(map[string]Quantity{"anode_voltage": qty(V, "V"), "coil_current": qty(I, "A"), "beam_diameter": qty(d, "m")})})
 	}
 	for _, V := range []float64{150, 200, 250, 300} {
 		add(V, 1.5)

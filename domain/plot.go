@@ -58,7 +58,7 @@ func linePlot(xl, yl string, pts []PlotPoint, a, b, pred, pct float64) Plot {
 func (p *Plot) inTypedUnits(readings []Reading) {
 	typed := func(name string) (string, float64, bool) {
 		for i := len(readings) - 1; i >= 0 && name != ""; i-- {
-			if q, ok := readings[i].Values[name]; ok {
+			if q, ok := readings[i].Values.Get(name); ok {
 				u, ok := units[normalizeUnit(q.Unit)]
 				if ok && u.factor != 1 && u.factor > 0 {
 					return normalizeUnit(q.Unit), u.factor, true

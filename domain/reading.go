@@ -5,7 +5,7 @@ import "time"
 // Reading is one row of measurements from a bench, as typed.
 type Reading struct {
 	ID         string
-	Values     map[string]Quantity
+	Values     Values
 	ReceivedAt time.Time
 	Sequence   uint64
 	// Supersedes is the id of an earlier reading this one corrects.
@@ -50,7 +50,7 @@ func validReadingID(id string) bool {
 
 // ValidateReading checks one reading's values for the bench's experiment.
 // prefix is the field path of the values map, such as "values".
-func ValidateReading(prefix string, b Bench, values map[string]Quantity) error {
+func ValidateReading(prefix string, b Bench, values Values) error {
 	e, ok := LookupExperiment(b.Experiment)
 	if !ok {
 		return Invalid("bench_id", "bench has unknown experiment %q", b.Experiment)

@@ -36,7 +36,7 @@ func benchToPB(b domain.Bench) *pb.Bench {
 }
 
 func readingToPB(r domain.Reading) *pb.Reading {
-	return readingWithValues(r, wire.QuantitiesToPB(r.Values))
+	return readingWithValues(r, wire.ValuesToPB(r.Values))
 }
 
 // readingWithValues is readingToPB with the values already in wire form: a

@@ -662,7 +662,7 @@ func TestReusedReadingIDWithOtherValues(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(rs) != 1 || rs[0].Values["current"].Value != 1 {
+	if len(rs) != 1 || rs[0].Values.At("current").Value != 1 {
 		t.Errorf("stored after the refusal: %+v; want the first reading alone, unchanged", rs)
 	}
 }

@@ -5,8 +5,6 @@ import (
 	"crypto/rand"
 	"errors"
 	"fmt"
-	"maps"
-	"slices"
 	"strings"
 
 	"google.golang.org/genproto/googleapis/rpc/errdetails"
@@ -79,7 +77,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 	if err != nil {
 		return nil, err
 	}
-	values := wire.QuantitiesFromPB(req.GetValues())
+	values := wire.ValuesFromPB(req.GetValues())
 	if err := domain.ValidateReading("values", bench, values); err != nil {
 		return nil, err
 	}
@@ -110,7 +108,7 @@ func (st stationService) SubmitReading(ctx context.Context, req *pb.SubmitReadin
 		return nil, err
 	}
 	if dup {
-		if !maps.Equal(stored.Values, r.Values) || stored.Supersedes != r.Supersedes {
+		if !stored.Values.Equal(r.Values) || stored.Supersedes != r.Supersedes {
 			// The id is the station's promise that this is the same
 			// reading: other values under it are a second reading that
 			// would be lost, or a first one silently replaced.
@@ -193,9 +191,8 @@ func newJoinCode() string {
 // AlreadyExists, naming the field and the values stored under it.
 func alreadyStored(id string, stored domain.Reading) error {
 	var vals []string
-	for _, name := range slices.Sorted(maps.Keys(stored.Values)) {
-		q := stored.Values[name]
-		vals = append(vals, fmt.Sprintf("%s %g %s", name, q.Value, q.Unit))
+	for _, nq := range stored.Values { // sorted by name
+		vals = append(vals, fmt.Sprintf("%s %g %s", nq.Name, nq.Value, nq.Unit))
 	}
 	reason := fmt.Sprintf("reading id %q is already stored (reading #%d: %s) with other values; a new reading needs a new id, and a correction names the reading it corrects in supersedes",
 		id, stored.Sequence, strings.Join(vals, ", "))

@@ -52,8 +52,8 @@ func BenchmarkAppendReading(b *testing.B) {
 				go func() {
 					defer wg.Done()
 					for k := 0; k < per; k++ {
-						r := domain.Reading{ID: "r" + strconv.Itoa(k), Values: map[string]domain.Quantity{
-							"current": {Value: float64(k%9) * 0.5, Unit: "A"}, "force": {Value: 0.24 * float64(k%9), Unit: "N"}}}
+						r := domain.Reading{ID: "r" + strconv.Itoa(k), Values: domain.ValuesOf(map[string]domain.Quantity{
+							"current": {Value: float64(k%9) * 0.5, Unit: "A"}, "force": {Value: 0.24 * float64(k%9), Unit: "N"}})}
 						if _, _, err := db.AppendReading(sessionIDs[i], benchIDs[i], r); err != nil {
 							b.Error(err)
 							return

@@ -85,13 +85,13 @@ func TestUpgradeFromSchema1(t *testing.T) {
 					t.Fatalf("session %d bench %s: %d readings, want 6", s.ID, b.Label, len(rs))
 				}
 				for k, r := range rs {
-					if want := "r" + string(rune('a'+k)); r.ID != want || r.Values["current"].Value != 0.5+0.5*float64(k) {
-						t.Errorf("session %d bench %s reading %d = %s, %v; want %s at %.1f A", s.ID, b.Label, k, r.ID, r.Values["current"].Value, want, 0.5+0.5*float64(k))
+					if want := "r" + string(rune('a'+k)); r.ID != want || r.Values.At("current").Value != 0.5+0.5*float64(k) {
+						t.Errorf("session %d bench %s reading %d = %s, %v; want %s at %.1f A", s.ID, b.Label, k, r.ID, r.Values.At("current").Value, want, 0.5+0.5*float64(k))
 					}
 				}
 			}
 			// The id index still finds the moved readings.
-			_, dup, err := db.AppendReading(s.ID, d.Benches[0].ID, domain.Reading{ID: "rc", Values: map[string]domain.Quantity{"current": {Value: 9, Unit: "A"}}})
+			_, dup, err := db.AppendReading(s.ID, d.Benches[0].ID, domain.Reading{ID: "rc", Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 9, Unit: "A"}})})
 			if err != nil || !dup {
 				t.Errorf("resending reading rc: duplicate %v, %v; want a duplicate", dup, err)
 			}
@@ -148,7 +148,7 @@ func TestReadingsPagesFill(t *testing.T) {
 			defer wg.Done()
 			for k := 0; k < 100; k++ {
 				if _, _, err := db.AppendReading(s.ID, b.ID, domain.Reading{ID: "l" + strconv.Itoa(k),
-					Values: map[string]domain.Quantity{"current": {Value: 1.5, Unit: "A"}, "force": {Value: 0.072, Unit: "N"}}}); err != nil {
+					Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 1.5, Unit: "A"}, "force": {Value: 0.072, Unit: "N"}})}); err != nil {
 					t.Error(err)
 					return
 				}

@@ -64,6 +64,23 @@ func noteFromRecord(r *recordpb.Event) domain.Note {
 		Points: r.GetPoints(), PreviousPoints: r.GetPreviousPoints(), StaffID: r.GetStaffId()}
 }
 
+func valuesRecord(v domain.Values) map[string]*recordpb.Quantity {
+	out := make(map[string]*recordpb.Quantity, len(v))
+	for _, nq := range v {
+		out[nq.Name] = &recordpb.Quantity{Value: nq.Value, Unit: nq.Unit, Uncertainty: nq.Uncertainty}
+	}
+	return out
+}
+
+func valuesFromRecord(m map[string]*recordpb.Quantity) domain.Values {
+	out := make(domain.Values, 0, len(m))
+	for k, q := range m {
+		out = append(out, domain.NamedQuantity{Name: k, Quantity: domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
+	}
+	domain.SortValues(out)
+	return out
+}
+
 func benchRecord(b domain.Bench) *recordpb.Bench {
 	return &recordpb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
 		Experiment: b.Experiment, Constants: quantitiesRecord(b.Constants), Members: b.Members}
@@ -75,12 +92,12 @@ func benchFromRecord(r *recordpb.Bench) domain.Bench {
 }
 
 func readingRecord(r domain.Reading) *recordpb.Reading {
-	return &recordpb.Reading{ReadingId: r.ID, Values: quantitiesRecord(r.Values),
+	return &recordpb.Reading{ReadingId: r.ID, Values: valuesRecord(r.Values),
 		ReceivedUnixNano: unixNano(r.ReceivedAt), Sequence: r.Sequence, Supersedes: r.Supersedes}
 }
 
 func readingFromRecord(r *recordpb.Reading) domain.Reading {
-	return domain.Reading{ID: r.GetReadingId(), Values: quantitiesFromRecord(r.GetValues()),
+	return domain.Reading{ID: r.GetReadingId(), Values: valuesFromRecord(r.GetValues()),
 		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence(), Supersedes: r.GetSupersedes()}
 }
 

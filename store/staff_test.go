@@ -123,7 +123,7 @@ func TestBackupSessions(t *testing.T) {
 			t.Fatal(err)
 		}
 		for k := 0; k < 3; k++ {
-			if _, _, err := db.AppendReading(s.ID, bs[0].ID, domain.Reading{ID: "r" + string(rune('a'+k)), Values: map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}}}); err != nil {
+			if _, _, err := db.AppendReading(s.ID, bs[0].ID, domain.Reading{ID: "r" + string(rune('a'+k)), Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}})}); err != nil {
 				t.Fatal(err)
 			}
 		}

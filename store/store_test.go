@@ -39,8 +39,8 @@ func TestRoundTripAcrossReopen(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r := domain.Reading{ID: "r-1", ReceivedAt: t0.Add(time.Minute), Values: map[string]domain.Quantity{
-		"current": {Value: 1.5, Unit: "A"}, "force": {Value: 0.72, Unit: "N"}}}
+	r := domain.Reading{ID: "r-1", ReceivedAt: t0.Add(time.Minute), Values: domain.ValuesOf(map[string]domain.Quantity{
+		"current": {Value: 1.5, Unit: "A"}, "force": {Value: 0.72, Unit: "N"}})}
 	stored, dup, err := db.AppendReading(s.ID, benches[0].ID, r)
 	if err != nil || dup {
 		t.Fatalf("AppendReading = %v, duplicate %v", err, dup)
@@ -87,13 +87,13 @@ func TestAppendReadingIsIdempotent(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r := domain.Reading{ID: "same", Values: map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}}}
+	r := domain.Reading{ID: "same", Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}})}
 	first, _, err := db.AppendReading(s.ID, bs[0].ID, r)
 	if err != nil {
 		t.Fatal(err)
 	}
 	// A retry with other values never overwrites what was stored.
-	r.Values = map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}}
+	r.Values = domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}})
 	again, dup, err := db.AppendReading(s.ID, bs[0].ID, r)
 	if err != nil {
 		t.Fatal(err)
@@ -247,7 +247,7 @@ func TestGroupCommit(t *testing.T) {
 			defer wg.Done()
 			b := bs[i%2].ID
 			id := fmt.Sprintf("r%d", i/2%100) // each id twice per bench
-			_, dup, err := db.AppendReading(s.ID, b, domain.Reading{ID: id, Values: map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}}})
+			_, dup, err := db.AppendReading(s.ID, b, domain.Reading{ID: id, Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 1, Unit: "A"}})})
 			if i%50 == 0 {
 				_, _, err2 := db.AppendReading(s.ID, 9999, domain.Reading{ID: "x"})
 				if !errors.Is(err2, ErrNotFound) {

@@ -276,7 +276,7 @@ func (s *Station) check(all bool) bool {
 	if s.joined == nil {
 		return false
 	}
-	if err := domain.ValidateReading("values", domain.Bench{Experiment: s.joined.Experiment}, vals); err != nil {
+	if err := domain.ValidateReading("values", domain.Bench{Experiment: s.joined.Experiment}, domain.ValuesOf(vals)); err != nil {
 		var ve *domain.ValidationError
 		if errors.As(err, &ve) {
 			for _, v := range ve.Violations {

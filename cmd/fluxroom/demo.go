@@ -73,7 +73,7 @@ func demoClass(seed uint64) ([]demoBench, error) {
 				b.mistake = code
 			}
 			if label == demoUnsafe {
-				g.Readings[4].Values["heater_voltage"] = domain.Quantity{Value: 7.4, Unit: "V"}
+				g.Readings[4].Values.Set("heater_voltage", domain.Quantity{Value: 7.4, Unit: "V"})
 				b.mistake = "heater turned up to 7.4 V on the fifth reading (unsafe)"
 			}
 			out = append(out, b)
@@ -197,7 +197,7 @@ func simulateBench(ctx context.Context, st rpcpb.StationServiceClient, code stri
 	tctx := metadata.AppendToOutgoingContext(ctx, "authorization", "Bearer "+join.StationToken)
 	for i, r := range b.group.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: wire.QuantitiesToPB(r.Values)}
+			ReadingId: fmt.Sprintf("demo-%s-%02d", b.label, i), Values: wire.ValuesToPB(r.Values)}
 		if err := submitWithRetry(tctx, st, req); err != nil {
 			return err
 		}

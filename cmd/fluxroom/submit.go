@@ -77,7 +77,7 @@ func (m *Main) submitCmd(ctx context.Context, args []string) error {
 	var last *pb.SubmitReadingResponse
 	for i, r := range rows.Readings {
 		req := &pb.SubmitReadingRequest{SessionId: join.SessionId, BenchId: join.Bench.BenchId,
-			ReadingId: "csv-" + rows.Keys[i], Values: wire.QuantitiesToPB(r.Values)}
+			ReadingId: "csv-" + rows.Keys[i], Values: wire.ValuesToPB(r.Values)}
 		// Past the bench's rate limit the server says ResourceExhausted: wait
 		// and send the same reading again (its id makes that safe).
 		for {

@@ -79,7 +79,7 @@ func Simulate(experiment, mistake string, rng *rand.Rand, t0 time.Time) (Group, 
 	consts, values := s.run(rng, mistake)
 	g := Group{Experiment: experiment, Mistake: mistake, Bench: domain.Bench{Label: "SIM", Experiment: experiment, Constants: consts}}
 	for i, v := range values {
-		g.Readings = append(g.Readings, domain.Reading{ID: fmt.Sprintf("sim-%02d", i), Values: v,
+		g.Readings = append(g.Readings, domain.Reading{ID: fmt.Sprintf("sim-%02d", i), Values: domain.ValuesOf(v),
 			ReceivedAt: t0.Add(time.Duration(i) * time.Minute), Sequence: uint64(i + 1)})
 	}
 	return g, nil

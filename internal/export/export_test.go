@@ -61,7 +61,7 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 		for j, r := range run.Readings {
 			r.ID = g.label + "-" + string(rune('a'+j))
 			if g.label == "B1" && j == 3 {
-				r.Values["heater_voltage"] = domain.Quantity{Value: 7.1, Unit: "V"} // unsafe
+				r.Values.Set("heater_voltage", domain.Quantity{Value: 7.1, Unit: "V"}) // unsafe
 			}
 			if _, _, err := db.AppendReading(s.ID, id, r); err != nil {
 				t.Fatal(err)
@@ -70,9 +70,9 @@ func fixedSession(t testing.TB) (*store.DB, uint64) {
 		if g.label == "A1" {
 			// A slipped decimal and its correction.
 			db.AppendReading(s.ID, id, domain.Reading{ID: "A1-slip", ReceivedAt: t0.Add(20 * time.Minute),
-				Values: map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 4.6, Unit: "N"}}})
+				Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 4.6, Unit: "N"}})})
 			db.AppendReading(s.ID, id, domain.Reading{ID: "A1-fix", Supersedes: "A1-slip", ReceivedAt: t0.Add(21 * time.Minute),
-				Values: map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 0.46, Unit: "N"}}})
+				Values: domain.ValuesOf(map[string]domain.Quantity{"current": {Value: 2, Unit: "A"}, "force": {Value: 0.46, Unit: "N"}})})
 			db.AppendNote(s.ID, domain.Note{BenchID: id, Kind: domain.NoteKindNote, Text: "retook the 2 A point", Author: "Teo Vasquez-Lind", At: t0.Add(22 * time.Minute)})
 		}
 		if g.label == "A2" {

@@ -101,12 +101,12 @@ type jsonGrade struct {
 }
 
 type jsonReading struct {
-	ID         string                     `json:"id"`
-	Sequence   uint64                     `json:"sequence"`
-	ReceivedAt time.Time                  `json:"received_at"`
-	Supersedes string                     `json:"supersedes,omitempty"`
-	Superseded bool                       `json:"superseded"`
-	Values     map[string]domain.Quantity `json:"values"`
+	ID         string        `json:"id"`
+	Sequence   uint64        `json:"sequence"`
+	ReceivedAt time.Time     `json:"received_at"`
+	Supersedes string        `json:"supersedes,omitempty"`
+	Superseded bool          `json:"superseded"`
+	Values     domain.Values `json:"values"`
 }
 
 type jsonNote struct {

@@ -203,7 +203,7 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 			}
 		}
 		if len(rowErrs) == 0 {
-			if err := domain.ValidateReading("values", domain.Bench{Experiment: exp.ID}, values); err != nil {
+			if err := domain.ValidateReading("values", domain.Bench{Experiment: exp.ID}, domain.ValuesOf(values)); err != nil {
 				rowErrs = append(rowErrs, fieldErrors(err, line, cols)...)
 			}
 		}
@@ -219,7 +219,7 @@ func Read(r io.Reader) ([]*Bench, []Error, error) {
 		}
 		key := rowKey(label, rec)
 		seen[key]++
-		b.Readings = append(b.Readings, domain.Reading{Values: values, Sequence: uint64(len(b.Readings) + 1)})
+		b.Readings = append(b.Readings, domain.Reading{Values: domain.ValuesOf(values), Sequence: uint64(len(b.Readings) + 1)})
 		b.Lines = append(b.Lines, line)
 		b.Keys = append(b.Keys, fmt.Sprintf("%s-%d", key, seen[key]))
 	}

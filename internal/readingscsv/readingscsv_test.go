@@ -58,14 +58,14 @@ func TestWriteThenRead(t *testing.T) {
 		if diff := cmp.Diff(b.Bench.Constants, want.Constants); diff != "" {
 			t.Errorf("%s constants (-got +want):\n%s", b.Label, diff)
 		}
-		var wantValues []map[string]domain.Quantity
+		var wantValues []domain.Values
 		gone := domain.Superseded(readings[want.ID])
 		for _, r := range readings[want.ID] {
 			if !gone[r.ID] {
 				wantValues = append(wantValues, r.Values)
 			}
 		}
-		var gotValues []map[string]domain.Quantity
+		var gotValues []domain.Values
 		for _, r := range b.Readings {
 			gotValues = append(gotValues, r.Values)
 		}

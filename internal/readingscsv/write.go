@@ -33,8 +33,8 @@ func Write(w io.Writer, benches []domain.Bench, readings map[uint64][]domain.Rea
 			seen[col{k, q.Unit}] = true
 		}
 		for _, r := range readings[b.ID] {
-			for k, q := range r.Values {
-				seen[col{k, q.Unit}] = true
+			for _, nq := range r.Values {
+				seen[col{nq.Name, nq.Unit}] = true
 			}
 		}
 	}
@@ -62,7 +62,7 @@ func Write(w io.Writer, benches []domain.Bench, readings map[uint64][]domain.Rea
 				r.Supersedes, map[bool]string{true: "yes", false: "no"}[gone[r.ID]]}
 			for _, c := range cols {
 				cell := ""
-				if q, ok := r.Values[c.name]; ok && q.Unit == c.unit {
+				if q, ok := r.Values.Get(c.name); ok && q.Unit == c.unit {
 					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)
 				} else if q, ok := b.Constants[c.name]; ok && q.Unit == c.unit {
 					cell = strconv.FormatFloat(q.Value, 'g', -1, 64)

@@ -25,3 +25,22 @@ func QuantitiesFromPB(m map[string]*pb.Quantity) map[string]domain.Quantity {
 	}
 	return out
 }
+
+// ValuesToPB converts a reading's values for the wire.
+func ValuesToPB(v domain.Values) map[string]*pb.Quantity {
+	out := make(map[string]*pb.Quantity, len(v))
+	for _, nq := range v {
+		out[nq.Name] = &pb.Quantity{Value: nq.Value, Unit: nq.Unit, Uncertainty: nq.Uncertainty}
+	}
+	return out
+}
+
+// ValuesFromPB converts a reading's values from the wire, sorted by name.
+func ValuesFromPB(m map[string]*pb.Quantity) domain.Values {
+	out := make(domain.Values, 0, len(m))
+	for k, q := range m {
+		out = append(out, domain.NamedQuantity{Name: k, Quantity: domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
+	}
+	domain.SortValues(out)
+	return out
+}
