@@ -260,6 +260,10 @@ func TestBadInputCatalogue(t *testing.T) {
 		_, err := staff.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: 99})
 		return err
 	})
+	add("remove a role from an unknown account", func() error {
+		_, err := staff.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: 99, Course: "PHY 1"})
+		return err
+	})
 	add("rotate an unknown account", func() error {
 		_, err := staff.RotateStaffKey(ctx, &pb.RotateStaffKeyRequest{StaffId: 99})
 		return err

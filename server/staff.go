@@ -306,13 +306,63 @@ func (ss staffService) target(c caller, id uint64, self bool) (store.StaffAccoun
 }
 
 // RevokeStaff stops an account's key at once: its next call is refused and its open room streams
-// end. The account stays, so the audit log still names the person.
+// end. The account stays, so the audit log still names the person. With a course, only the role in
+// that course is removed (the last role revokes the key), which an instructor of that course may do
+// for an assistant who also helps in other courses.
 func (ss staffService) RevokeStaff(ctx context.Context, req *pb.RevokeStaffRequest) (*pb.RevokeStaffResponse, error) {
+	if course := strings.TrimSpace(req.GetCourse()); course != "" {
+		a, err := ss.removeRole(ctx, req.GetStaffId(), course)
+		if err != nil {
+			return nil, err
+		}
+		return &pb.RevokeStaffResponse{Staff: staffToPB(a.Staff)}, nil
+	}
 	a, _, err := ss.change(ctx, req.GetStaffId(), false, "revoked")
 	if err != nil {
 		return nil, err
 	}
 	return &pb.RevokeStaffResponse{Staff: staffToPB(a.Staff)}, nil
+}
+
+// removeRole takes one course's role from an account; the last one
+// revokes it. Its open streams end either way, and reconnect to what the
+// key still reaches.
+func (ss staffService) removeRole(ctx context.Context, id uint64, course string) (store.StaffAccount, error) {
+	c, err := staffCaller(ctx)
+	if err != nil {
+		return store.StaffAccount{}, err
+	}
+	k := ss.s.staff
+	k.mu.Lock()
+	a, ok := k.byID[id]
+	k.mu.Unlock()
+	if !ok {
+		return store.StaffAccount{}, domain.Invalid("staff_id", "no staff account %d", id)
+	}
+	role, ok := a.Roles[course]
+	if !ok {
+		return store.StaffAccount{}, domain.Invalid("course", "%s has no role in course %q", a.Name, course)
+	}
+	if len(a.Roles) == 1 {
+		a, _, err := ss.change(ctx, id, false, "revoked")
+		return a, err
+	}
+	if !c.admin {
+		if ok, why := c.staff.MayManage(map[string]domain.Role{course: role}); !ok {
+			return store.StaffAccount{}, status.Errorf(codes.PermissionDenied, "%s may not change the account of %s: %s", c.name(), a.Name, why)
+		}
+	}
+	k.mu.Lock()
+	defer k.mu.Unlock()
+	roles := maps.Clone(k.byID[id].Roles)
+	delete(roles, course)
+	if a, err = ss.s.db.SetStaffRoles(id, roles); err != nil {
+		return store.StaffAccount{}, err
+	}
+	k.put(a)
+	k.endStreams(a.ID, fmt.Sprintf("%s's role in course %q was removed by %s", a.Name, course, c.name()))
+	ss.s.log.Info("staff role removed", "staff_id", a.ID, "name", a.Name, "course", course, "by", c.name())
+	return a, nil
 }
 
 // RotateStaffKey gives an account a new key, shown once; the old key stops at once, open streams

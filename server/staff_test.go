@@ -321,3 +321,40 @@ func TestJoinSeesBenchesSetLater(t *testing.T) {
 		t.Error("the old label of a relabelled bench still joins")
 	}
 }
+
+// TestRemoveOneRole: an assistant who leaves one course keeps the others;
+// their instructor in that course may remove that role only; the last
+// role removed revokes the key.
+func TestRemoveOneRole(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	for _, c := range []string{"PHY 214", "PHY 118"} {
+		if _, err := r.instructor.CreateSession(ctx, &pb.CreateSessionRequest{Title: c + " lab", Course: c}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	_, instr := addStaff(t, r, "Rosalind Achterberg", map[string]pb.StaffRole{"PHY 214": instructor})
+	teoID, teo := addStaff(t, r, "Teo Vasquez-Lind", map[string]pb.StaffRole{"PHY 214": assistant, "PHY 118": assistant})
+	mine := rpcpb.NewStaffServiceClient(dialAs(t, r, instr))
+	if _, err := mine.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: teoID}); status.Code(err) != codes.PermissionDenied {
+		t.Errorf("the instructor of one of his courses revokes his whole key: %v, want PermissionDenied", err)
+	}
+	if _, err := mine.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: teoID, Course: "PHY 118"}); status.Code(err) != codes.PermissionDenied {
+		t.Errorf("removing his role in a course she does not instruct: %v, want PermissionDenied", err)
+	}
+	if _, err := mine.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: teoID, Course: "PHY 301"}); !contains(fieldsOf(t, err), "course") {
+		t.Errorf("removing a role he does not have: %v, want a course violation", err)
+	}
+	res, err := mine.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: teoID, Course: "PHY 214"})
+	if err != nil || res.Staff.Revoked || len(res.Staff.Roles) != 1 || res.Staff.Roles[0].Course != "PHY 118" {
+		t.Fatalf("removing his PHY 214 role: %v, %v; want PHY 118 left", res, err)
+	}
+	list, err := rpcpb.NewInstructorServiceClient(dialAs(t, r, teo)).ListSessions(ctx, &pb.ListSessionsRequest{})
+	if err != nil || len(list.Sessions) != 1 || list.Sessions[0].Course != "PHY 118" {
+		t.Errorf("his key lists %v, %v; want the PHY 118 session only", list, err)
+	}
+	res, err = rpcpb.NewStaffServiceClient(r.conn).RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: teoID, Course: "PHY 118"})
+	if err != nil || !res.Staff.Revoked {
+		t.Errorf("removing his last role: %v, %v; want the key revoked", res, err)
+	}
+}

@@ -74,13 +74,34 @@ func (p *StaffPanel) add(ctx app.Context, e app.Event) {
 	}, "not added: ", func() { p.name = "" })
 }
 
-func (p *StaffPanel) revoke(ctx app.Context, m *pb.StaffMember) {
+// revoke revokes the account's key, or with a course removes only the
+// role in that course.
+func (p *StaffPanel) revoke(ctx app.Context, m *pb.StaffMember, course string) {
 	p.changeThenList(ctx, func(c *api) (*pb.StaffMember, string, error) {
-		_, err := unary[pb.RevokeStaffResponse](ctx, c, ProcRevokeStaff, &pb.RevokeStaffRequest{StaffId: m.StaffId})
+		_, err := unary[pb.RevokeStaffResponse](ctx, c, ProcRevokeStaff, &pb.RevokeStaffRequest{StaffId: m.StaffId, Course: course})
 		return nil, "", err
 	}, "not revoked: ", func() {
 		p.status = fmt.Sprintf("%s's key was revoked: it stopped working at once, open rooms too", m.Name)
+		if course != "" {
+			p.status = fmt.Sprintf("%s no longer assists in %s", m.Name, course)
+		}
 	})
+}
+
+// removable are the courses where the viewer may take the person's role
+// away without revoking their key: assistant roles in courses the viewer
+// instructs, when the person also has roles elsewhere.
+func (p *StaffPanel) removable(m *pb.StaffMember) []string {
+	if p.Who == nil || p.Who.admin || m.Revoked || p.Who.manages(m, false) {
+		return nil
+	}
+	var out []string
+	for _, r := range m.Roles {
+		if r.Role == pb.StaffRole_STAFF_ROLE_ASSISTANT && p.Who.instructs(r.Course) {
+			out = append(out, r.Course)
+		}
+	}
+	return out
 }
 
 func (p *StaffPanel) rotate(ctx app.Context, m *pb.StaffMember) {
@@ -154,7 +175,11 @@ func (p *StaffPanel) Render() app.UI {
 					app.Td().Class("state").Text(state),
 					app.Td().Body(
 						app.If(p.Who.manages(m, true), app.Button().Class("rotate").Text("New key").OnClick(func(ctx app.Context, e app.Event) { p.rotate(ctx, m) })),
-						app.If(!m.Revoked && p.Who.manages(m, false), app.Button().Class("revoke").Text("Revoke").OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m) })),
+						app.If(!m.Revoked && p.Who.manages(m, false), app.Button().Class("revoke").Text("Revoke").OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m, "") })),
+						app.Range(p.removable(m)).Slice(func(j int) app.UI {
+							course := p.removable(m)[j]
+							return app.Button().Class("remove-role").Text("Remove from " + course).OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m, course) })
+						}),
 					),
 				)
 			}),

@@ -16,14 +16,15 @@ const staffHelp = `fluxroom staff: manage the people who hold keys to a running 
 
   fluxroom staff add    --server HOST:PORT --key KEY --name NAME [--instructor COURSE]... [--assistant COURSE]...
   fluxroom staff list   --server HOST:PORT --key KEY
-  fluxroom staff revoke --server HOST:PORT --key KEY --id N
+  fluxroom staff revoke --server HOST:PORT --key KEY --id N [--course COURSE]
   fluxroom staff rotate --server HOST:PORT --key KEY --id N
   fluxroom staff whoami --server HOST:PORT --key KEY
 
 The administrator's key (the one serve printed at first start) manages
 everyone; an instructor's key adds, revokes and rotates the assistants of
 their own courses; anyone may rotate their own key. A new key is printed
-once: the server keeps only its hash. Adding a name that already has an
+once: the server keeps only its hash. revoke --course removes only the
+role in that course (an assistant leaving one of their courses). Adding a name that already has an
 account adds the roles to it and leaves its key as it was.
 `
 
@@ -49,7 +50,7 @@ func (m *Main) staffCmd(ctx context.Context, args []string) error {
 	addr := fs.String("server", "", "a running server, host:port")
 	key := keyFlag(fs)
 	client := addClientFlags(fs)
-	var name *string
+	var name, course *string
 	var id *uint64
 	var instructs, assists courseList
 	switch sub {
@@ -59,6 +60,9 @@ func (m *Main) staffCmd(ctx context.Context, args []string) error {
 		fs.Var(&assists, "assistant", "a course the person assists in (repeat for several)")
 	case "revoke", "rotate":
 		id = fs.Uint64("id", 0, "the account's id, as staff list shows it")
+		if sub == "revoke" {
+			course = fs.String("course", "", "remove only the role in this course; the key keeps working for the others")
+		}
 	case "list", "whoami":
 	default:
 		fmt.Fprint(m.Stderr, staffHelp)
@@ -123,9 +127,13 @@ func (m *Main) staffCmd(ctx context.Context, args []string) error {
 		}
 		return w.Flush()
 	case "revoke":
-		res, err := c.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: *id})
+		res, err := c.RevokeStaff(ctx, &pb.RevokeStaffRequest{StaffId: *id, Course: *course})
 		if err != nil {
 			return fmt.Errorf("staff revoke: %w", err)
+		}
+		if !res.Staff.Revoked {
+			fmt.Fprintf(m.Stdout, "Removed the role of %s (id %d) in %q; they are now %s, with the same key.\n", res.Staff.Name, res.Staff.StaffId, *course, rolesText(res.Staff.Roles))
+			return nil
 		}
 		fmt.Fprintf(m.Stdout, "Revoked the key of %s (id %d); it stopped working at once, open rooms too.\n", res.Staff.Name, res.Staff.StaffId)
 	case "rotate":

@@ -66,9 +66,13 @@ func TestStaffCommand(t *testing.T) {
 		t.Errorf("adding a role to an existing person: %v\n%s", err, out)
 	}
 	// Teo now assists in a course Rosalind only assists in: only the
-	// administrator may revoke him.
+	// administrator may revoke him; Rosalind may take him off PHY 214.
 	if _, err := run("revoke", "--server", p.addr, "--key", rosalind, "--id", "2"); exitCode(err) != 1 || !strings.Contains(err.Error(), "may not change the account of Teo Vasquez-Lind") {
 		t.Errorf("an instructor revokes an assistant of another course too: %v", err)
+	}
+	if out, err := run("revoke", "--server", p.addr, "--key", rosalind, "--id", "2", "--course", "PHY 214"); err != nil ||
+		!strings.Contains(out, `Removed the role of Teo Vasquez-Lind (id 2) in "PHY 214"; they are now assistant of "PHY 118", with the same key`) {
+		t.Errorf("removing one role: %v\n%s", err, out)
 	}
 	if out, err := run("revoke", "--server", p.addr, "--key", testKey, "--id", "2"); err != nil || !strings.Contains(out, "Revoked the key of Teo Vasquez-Lind") {
 		t.Errorf("revoke: %v\n%s", err, out)

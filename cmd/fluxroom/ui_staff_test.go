@@ -34,6 +34,11 @@ func TestAssistantSeesOnlyTheirRoom(t *testing.T) {
 		return res.Key
 	}
 	asst := add("Teo Vasquez-Lind", pb.StaffRole_STAFF_ROLE_ASSISTANT)
+	// An assistant of this course and of another one.
+	if _, err := staff.AddStaff(ctx, &pb.AddStaffRequest{Name: "Kwame Desrosiers", Roles: []*pb.CourseRole{
+		{Course: r.sess.Course, Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}, {Course: "PHY 118", Role: pb.StaffRole_STAFF_ROLE_ASSISTANT}}}); err != nil {
+		t.Fatal(err)
+	}
 	instr := add("Rosalind Achterberg", pb.StaffRole_STAFF_ROLE_INSTRUCTOR)
 
 	r.do(t, "the assistant's room",
@@ -73,6 +78,20 @@ func TestAssistantSeesOnlyTheirRoom(t *testing.T) {
 	)
 	checkLabels(t, r, "the set-up page")
 	key, _ := chromedp.Run(r.tab, chromedp.Text(chromedp.CSS(`#new-key-value`)))
+	// The instructor takes the two-course assistant off her course only:
+	// he leaves her list and keeps his other course.
+	r.do(t, "remove a role",
+		chromedp.Click(chromedp.CSS(`#staff-list tr[data-staff="Kwame Desrosiers"] .remove-role`)),
+		chromedp.WaitNotPresent(chromedp.CSS(`#staff-list tr[data-staff="Kwame Desrosiers"]`)))
+	all, err := staff.ListStaff(ctx, &pb.ListStaffRequest{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range all.Staff {
+		if m.Name == "Kwame Desrosiers" && (m.Revoked || len(m.Roles) != 1 || m.Roles[0].Course != "PHY 118") {
+			t.Errorf("after Remove from %s: %v, want an active assistant of PHY 118 only", r.sess.Course, m)
+		}
+	}
 	who, err := rpcpb.NewStaffServiceClient(dialKey(t, r.p.addr, key)).WhoAmI(ctx, &pb.WhoAmIRequest{})
 	if err != nil || who.Name != "Pavla Oyelaran" || len(who.Roles) != 1 || who.Roles[0].Course != r.sess.Course || who.Roles[0].Role != pb.StaffRole_STAFF_ROLE_ASSISTANT {
 		t.Errorf("the key shown on the set-up page: %v, %v; want Pavla Oyelaran, assistant of %s", who, err, r.sess.Course)

@@ -4134,8 +4134,12 @@ func (x *ListStaffResponse) GetStaff() []*StaffMember {
 }
 
 type RevokeStaffRequest struct {
-	state         protoimpl.MessageState `protogen:"open.v1"`
-	StaffId       uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	StaffId uint64                 `protobuf:"varint,1,opt,name=staff_id,json=staffId,proto3" json:"staff_id,omitempty"`
+	// When set, only the role in this course is removed (an assistant who
+	// leaves one course and stays in others); the key keeps working for the
+	// rest. Removing the last role revokes the key.
+	Course        string `protobuf:"bytes,2,opt,name=course,proto3" json:"course,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
 }
@@ -4175,6 +4179,13 @@ func (x *RevokeStaffRequest) GetStaffId() uint64 {
 		return x.StaffId
 	}
 	return 0
+}
+
+func (x *RevokeStaffRequest) GetCourse() string {
+	if x != nil {
+		return x.Course
+	}
+	return ""
 }
 
 type RevokeStaffResponse struct {
@@ -4741,9 +4752,10 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\x03key\x18\x02 \x01(\tR\x03key\"\x12\n" +
 	"\x10ListStaffRequest\"C\n" +
 	"\x11ListStaffResponse\x12.\n" +
-	"\x05staff\x18\x01 \x03(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\"/\n" +
+	"\x05staff\x18\x01 \x03(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\"G\n" +
 	"\x12RevokeStaffRequest\x12\x19\n" +
-	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\"E\n" +
+	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\x12\x16\n" +
+	"\x06course\x18\x02 \x01(\tR\x06course\"E\n" +
 	"\x13RevokeStaffResponse\x12.\n" +
 	"\x05staff\x18\x01 \x01(\v2\x18.fluxroom.v1.StaffMemberR\x05staff\"2\n" +
 	"\x15RotateStaffKeyRequest\x12\x19\n" +

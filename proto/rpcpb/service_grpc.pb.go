@@ -916,7 +916,8 @@ type StaffServiceClient interface {
 	AddStaff(ctx context.Context, in *fluxroompb.AddStaffRequest, opts ...grpc.CallOption) (*fluxroompb.AddStaffResponse, error)
 	// ListStaff lists the accounts the caller may manage.
 	ListStaff(ctx context.Context, in *fluxroompb.ListStaffRequest, opts ...grpc.CallOption) (*fluxroompb.ListStaffResponse, error)
-	// RevokeStaff stops an account's key at once, open room streams too.
+	// RevokeStaff stops an account's key at once, open room streams too, or
+	// with a course, removes only the role in that course.
 	RevokeStaff(ctx context.Context, in *fluxroompb.RevokeStaffRequest, opts ...grpc.CallOption) (*fluxroompb.RevokeStaffResponse, error)
 	// RotateStaffKey gives an account a new key; the old one stops at once.
 	RotateStaffKey(ctx context.Context, in *fluxroompb.RotateStaffKeyRequest, opts ...grpc.CallOption) (*fluxroompb.RotateStaffKeyResponse, error)
@@ -993,7 +994,8 @@ type StaffServiceServer interface {
 	AddStaff(context.Context, *fluxroompb.AddStaffRequest) (*fluxroompb.AddStaffResponse, error)
 	// ListStaff lists the accounts the caller may manage.
 	ListStaff(context.Context, *fluxroompb.ListStaffRequest) (*fluxroompb.ListStaffResponse, error)
-	// RevokeStaff stops an account's key at once, open room streams too.
+	// RevokeStaff stops an account's key at once, open room streams too, or
+	// with a course, removes only the role in that course.
 	RevokeStaff(context.Context, *fluxroompb.RevokeStaffRequest) (*fluxroompb.RevokeStaffResponse, error)
 	// RotateStaffKey gives an account a new key; the old one stops at once.
 	RotateStaffKey(context.Context, *fluxroompb.RotateStaffKeyRequest) (*fluxroompb.RotateStaffKeyResponse, error)
