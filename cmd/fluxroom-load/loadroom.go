@@ -39,6 +39,10 @@ type loadStation struct {
 	// loop a station sends one at a time, so the count is the bench's
 	// reading count that the room stream shows once the reading is judged.
 	stored atomic.Int32
+	// slipped stations type every force ten times too small, a mistake the
+	// room then diagnoses: one group in five, so the judging measured is a
+	// lab's mix of clean runs and diagnosed ones.
+	slipped bool
 }
 
 // stationDialOptions are a station program's connection options: plain
@@ -55,12 +59,21 @@ func stationDialOptions() []grpc.DialOption {
 
 func (s *loadStation) creds() grpc.CallOption { return grpc.PerRPCCredentials(bearer.Token(s.token)) }
 
+// loadNBL is N·B·L of a coil-force bench with the default constants
+// (100 turns, 4 cm, 0.12 T), in N/A.
+const loadNBL = 0.48
+
 // reading is the station's next reading: a coil-force run stepping the
-// current, force following F = N·B·L·I for the demo coil with 1 % noise.
+// current, force following F = N·B·L·I with 1 % noise (a tenth of it at a
+// slipped station).
 func (s *loadStation) reading() *pb.SubmitReadingRequest {
 	k := s.sent.Add(1)
 	I := 0.5 + float64(k%8)*0.5
-	F := 0.048 * I * (1 + 0.01*float64(k%5-2))
+	nbl := loadNBL
+	if s.slipped {
+		nbl /= 10
+	}
+	F := nbl * I * (1 + 0.01*float64(k%5-2))
 	return &pb.SubmitReadingRequest{SessionId: s.sid, BenchId: s.bid, ReadingId: "l" + strconv.FormatInt(k, 10),
 		Values: map[string]*pb.Quantity{"current": {Value: I, Unit: "A"}, "force": {Value: F, Unit: "N"}}}
 }
@@ -103,7 +116,7 @@ func newLoadRoom(fluxroom, dir string, n int, own bool, serveArgs ...string) (*l
 	}
 	r.in = rpcpb.NewInstructorServiceClient(r.admin)
 	for range n {
-		r.stations = append(r.stations, &loadStation{})
+		r.stations = append(r.stations, &loadStation{slipped: len(r.stations)%5 == 4})
 	}
 	if err := r.newSection(); err != nil {
 		c.kill()
