@@ -147,12 +147,22 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 	if scale == 0 {
 		return Poly{}, ErrNoSpread
 	}
+	// The working arrays share one allocation, and their rows one more: a
+	// fit runs after every reading, and the collector's cost goes by the
+	// number of objects as much as by their bytes.
+	buf := make([]float64, p*n+n+2*p*p+p)
+	rows := make([][]float64, 3*p)
+	take := func(k int) []float64 {
+		s := buf[:k:k]
+		buf = buf[k:]
+		return s
+	}
 	// a is n×p, column-major: a[j][i] = (x_i/scale)^j.
 	// Each column is the previous one times x/scale: a multiplication per
 	// element instead of a math.Pow, on a path taken after every reading.
-	a := make([][]float64, p)
+	a := rows[:p:p]
 	for j := range a {
-		a[j] = make([]float64, n)
+		a[j] = take(n)
 		for i := range x {
 			if j == 0 {
 				a[j][i] = 1
@@ -161,10 +171,11 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 			}
 		}
 	}
-	b := append([]float64(nil), y...)
-	r := make([][]float64, p) // upper triangle, r[i][j] for j ≥ i
+	b := take(n)
+	copy(b, y)
+	r := rows[p : 2*p : 2*p] // upper triangle, r[i][j] for j ≥ i
 	for i := range r {
-		r[i] = make([]float64, p)
+		r[i] = take(p)
 	}
 	for k := 0; k < p; k++ {
 		var norm float64
@@ -207,7 +218,7 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 		return Poly{}, ErrNoSpread
 	}
 	// Back-substitute R·c = Qᵀy for the scaled coefficients.
-	c := make([]float64, p)
+	c := take(p)
 	for i := p - 1; i >= 0; i-- {
 		s := b[i]
 		for j := i + 1; j < p; j++ {
@@ -220,9 +231,9 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 		ssr += b[i] * b[i]
 	}
 	// (RᵀR)⁻¹ = R⁻¹R⁻ᵀ; invert the triangle.
-	rinv := make([][]float64, p)
+	rinv := rows[2*p:]
 	for i := range rinv {
-		rinv[i] = make([]float64, p)
+		rinv[i] = take(p)
 	}
 	for i := p - 1; i >= 0; i-- {
 		rinv[i][i] = 1 / r[i][i]
@@ -235,7 +246,8 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 		}
 	}
 	s2 := ssr / float64(n-p)
-	out := Poly{Coef: make([]float64, p), SE: make([]float64, p), N: n, ResidualSD: math.Sqrt(s2)}
+	coefSE := make([]float64, 2*p)
+	out := Poly{Coef: coefSE[:p:p], SE: coefSE[p:], N: n, ResidualSD: math.Sqrt(s2)}
 	for j := 0; j < p; j++ {
 		var v float64
 		for k := j; k < p; k++ {
