@@ -1,8 +1,10 @@
 package domain
 
 import (
+	"cmp"
 	"fmt"
 	"math"
+	"slices"
 
 	"example.com/fluxroom/domain/fit"
 )
@@ -346,67 +348,71 @@ func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) int {
 // (slope 2/((e/m)·B²)) and 1/r against I at one voltage (slope
 // k·√((e/m)/2V); its intercept is a background field along the axis).
 func linearForms(rs []siReading, k float64) []string {
-	byI := map[float64][]siReading{}
-	byV := map[float64][]siReading{}
-	for _, r := range rs {
-		I := r.v("coil_current")
-		byI[math.Round(I*20)/20] = append(byI[math.Round(I*20)/20], r)
-		if I > 0 {
-			byV[math.Round(r.v("anode_voltage")/10)*10] = append(byV[math.Round(r.v("anode_voltage")/10)*10], r)
+	// Readings grouped by their rounded current (then voltage): sorted
+	// once into one list and walked run by run, instead of a map of lists
+	// grown reading by reading, on a path taken after every reading.
+	sorted := make([]siReading, 0, len(rs))
+	x, y := make([]float64, len(rs)), make([]float64, len(rs))
+	groups := func(keep func(siReading) bool, key func(siReading) float64, each func(key float64, g []siReading)) {
+		sorted = sorted[:0]
+		for _, r := range rs {
+			if keep(r) {
+				sorted = append(sorted, r)
+			}
+		}
+		slices.SortStableFunc(sorted, func(a, b siReading) int { return cmp.Compare(key(a), key(b)) })
+		for i := 0; i < len(sorted); {
+			j := i + 1 // at least one: a NaN key equals nothing
+			for j < len(sorted) && key(sorted[j]) == key(sorted[i]) {
+				j++
+			}
+			each(key(sorted[i]), sorted[i:j])
+			i = j
 		}
 	}
 	var notes []string
-	for _, I := range sortedFloatKeys(byI) {
-		g := byI[I]
-		if len(g) < 3 {
-			continue
-		}
-		x, y := make([]float64, len(g)), make([]float64, len(g))
-		for i, r := range g {
-			x[i] = r.v("anode_voltage")
-			rad := r.v("beam_diameter") / 2
-			y[i] = rad * rad
-		}
-		f, err := fit.Origin(x, y)
-		if err != nil || f.Slope <= 0 {
-			continue
-		}
-		B := k * math.Abs(I)
-		em := 2 / (f.Slope * B * B)
-		notes = append(notes, fmt.Sprintf("r² against V at %.2f A (%d points): e/m %s", I, len(g), FormatMeasurement(em, em*f.SlopeSE/f.Slope, "C/kg")))
-	}
-	for _, V := range sortedFloatKeys(byV) {
-		g := byV[V]
-		if len(g) < 3 {
-			continue
-		}
-		x, y := make([]float64, len(g)), make([]float64, len(g))
-		for i, r := range g {
-			x[i] = r.v("coil_current")
-			y[i] = 2 / r.v("beam_diameter")
-		}
-		f, err := fit.Linear(x, y)
-		if err != nil || f.Slope <= 0 {
-			continue
-		}
-		s := f.Slope / k
-		em := 2 * V * s * s
-		note := fmt.Sprintf("1/r against I at %.0f V (%d points): e/m %s", V, len(g), FormatMeasurement(em, 2*em*f.SlopeSE/f.Slope, "C/kg"))
-		if f.InterceptSE > 0 {
-			note += fmt.Sprintf(", background along the axis %.0f ± %.0f µT", 1e6*k*f.Intercept/f.Slope, 1e6*k*f.InterceptSE/f.Slope)
-		}
-		notes = append(notes, note)
-	}
+	groups(func(siReading) bool { return true }, func(r siReading) float64 { return math.Round(r.v("coil_current")*20) / 20 },
+		func(I float64, g []siReading) {
+			if len(g) < 3 {
+				return
+			}
+			x, y := x[:len(g)], y[:len(g)]
+			for i, r := range g {
+				x[i] = r.v("anode_voltage")
+				rad := r.v("beam_diameter") / 2
+				y[i] = rad * rad
+			}
+			f, err := fit.Origin(x, y)
+			if err != nil || f.Slope <= 0 {
+				return
+			}
+			B := k * math.Abs(I)
+			em := 2 / (f.Slope * B * B)
+			notes = append(notes, fmt.Sprintf("r² against V at %.2f A (%d points): e/m %s", I, len(g), FormatMeasurement(em, em*f.SlopeSE/f.Slope, "C/kg")))
+		})
+	groups(func(r siReading) bool { return r.v("coil_current") > 0 }, func(r siReading) float64 { return math.Round(r.v("anode_voltage")/10) * 10 },
+		func(V float64, g []siReading) {
+			if len(g) < 3 {
+				return
+			}
+			x, y := x[:len(g)], y[:len(g)]
+			for i, r := range g {
+				x[i] = r.v("coil_current")
+				y[i] = 2 / r.v("beam_diameter")
+			}
+			f, err := fit.Linear(x, y)
+			if err != nil || f.Slope <= 0 {
+				return
+			}
+			s := f.Slope / k
+			em := 2 * V * s * s
+			note := fmt.Sprintf("1/r against I at %.0f V (%d points): e/m %s", V, len(g), FormatMeasurement(em, 2*em*f.SlopeSE/f.Slope, "C/kg"))
+			if f.InterceptSE > 0 {
+				note += fmt.Sprintf(", background along the axis %.0f ± %.0f µT", 1e6*k*f.Intercept/f.Slope, 1e6*k*f.InterceptSE/f.Slope)
+			}
+			notes = append(notes, note)
+		})
 	return notes
-}
-
-func sortedFloatKeys[V any](m map[float64]V) []float64 {
-	ks := make([]float64, 0, len(m))
-	for k := range m {
-		ks = append(ks, k)
-	}
-	sortFloats(ks)
-	return ks
 }
 
 // timeAndDirection fits e/m against reading order and current direction
