@@ -142,9 +142,11 @@ func (a *auth) verifyStationToken(tok string) (sessionID, benchID uint64, ok boo
 	return binary.BigEndian.Uint64(payload[0:8]), binary.BigEndian.Uint64(payload[8:16]), true
 }
 
-func (a *auth) isAdmin(tok string) bool {
-	return tok != "" && subtle.ConstantTimeCompare(hashKey(tok), a.keyHash) == 1
-}
+func (a *auth) isAdmin(tok string) bool { return tok != "" && a.isAdminHash(hashKey(tok)) }
+
+// isAdminHash compares a key's hash with the administrator's, in constant
+// time.
+func (a *auth) isAdminHash(h []byte) bool { return subtle.ConstantTimeCompare(h, a.keyHash) == 1 }
 
 // admit takes one reading from a station's budget. A reading over the
 // bench's rate waits for the bench's next turn, up to hold, so a laptop that
@@ -233,7 +235,7 @@ func (s *Server) keyCaller(tok string) (caller, bool) {
 		return caller{}, false
 	}
 	h := sha256.Sum256([]byte(tok))
-	if subtle.ConstantTimeCompare(h[:], s.auth.keyHash) == 1 {
+	if s.auth.isAdminHash(h[:]) {
 		return caller{admin: true}, true
 	}
 	st, ok := s.staff.lookup(h)
@@ -250,7 +252,8 @@ func (s *Server) authorize(ctx context.Context, method string, req any) (context
 	case strings.HasPrefix(method, "/grpc.health.") || strings.HasPrefix(method, "/grpc.reflection."):
 		return ctx, nil
 	case strings.HasPrefix(method, instructorSvc) || strings.HasPrefix(method, staffSvc):
-		return s.authorizeStaff(ctx, tok, method, req)
+		c, known := s.keyCaller(tok)
+		return s.authorizeStaff(ctx, c, known, method, req)
 	case strings.HasPrefix(method, stationSvc):
 		if tok == "" {
 			return ctx, status.Error(codes.Unauthenticated, "this call needs the station token from JoinBench (authorization: Bearer <token>)")
@@ -259,8 +262,8 @@ func (s *Server) authorize(ctx context.Context, method string, req any) (context
 		// a key, which cannot pass for a signed token.
 		sid, bid, ok := s.auth.parseStationToken(tok)
 		if !ok {
-			if _, known := s.keyCaller(tok); known {
-				return s.authorizeStaff(ctx, tok, method, req)
+			if c, known := s.keyCaller(tok); known {
+				return s.authorizeStaff(ctx, c, known, method, req)
 			}
 			return ctx, status.Error(codes.Unauthenticated, "the station token is not valid; join the bench again")
 		}
@@ -287,11 +290,11 @@ func (s *Server) authorize(ctx context.Context, method string, req any) (context
 	return ctx, status.Error(codes.PermissionDenied, "unknown method")
 }
 
-// authorizeStaff checks a staff call: a known key that is not revoked, and
-// for a call that names a session, the caller's role in its course.
-func (s *Server) authorizeStaff(ctx context.Context, tok, method string, req any) (context.Context, error) {
-	c, ok := s.keyCaller(tok)
-	if !ok {
+// authorizeStaff checks a staff call by the caller keyCaller found (known
+// says it found one): a key that is not revoked, and for a call that names
+// a session, the caller's role in its course.
+func (s *Server) authorizeStaff(ctx context.Context, c caller, known bool, method string, req any) (context.Context, error) {
+	if !known {
 		return ctx, status.Error(codes.Unauthenticated, "this call needs a staff key or the administrator's key (authorization: Bearer <key>)")
 	}
 	if !c.admin && c.staff.Revoked {

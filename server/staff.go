@@ -289,17 +289,26 @@ func (ss staffService) ListStaff(ctx context.Context, req *pb.ListStaffRequest) 
 	return out, nil
 }
 
-// target finds the account a call names and checks the caller may manage it; self lets a person
-// act on their own account. Call with k.mu held.
-func (ss staffService) target(c caller, id uint64, self bool) (store.StaffAccount, error) {
+// target finds the account a call names and checks the caller may manage
+// it: all its roles, or with course set, its role in that course only;
+// self lets a person act on their own account. Call with k.mu held.
+func (ss staffService) target(c caller, id uint64, self bool, course string) (store.StaffAccount, error) {
 	a, ok := ss.s.staff.byID[id]
 	if !ok {
 		return store.StaffAccount{}, domain.Invalid("staff_id", "no staff account %d", id)
 	}
+	over := a.Roles
+	if course != "" {
+		role, ok := a.Roles[course]
+		if !ok {
+			return store.StaffAccount{}, domain.Invalid("course", "%s has no role in course %q", a.Name, course)
+		}
+		over = map[string]domain.Role{course: role}
+	}
 	if c.admin || self && c.staff.ID == id {
 		return a, nil
 	}
-	if ok, why := c.staff.MayManage(a.Roles); !ok {
+	if ok, why := c.staff.MayManage(over); !ok {
 		return store.StaffAccount{}, status.Errorf(codes.PermissionDenied, "%s may not change the account of %s: %s", c.name(), a.Name, why)
 	}
 	return a, nil
@@ -334,27 +343,16 @@ func (ss staffService) removeRole(ctx context.Context, id uint64, course string)
 	}
 	k := ss.s.staff
 	k.mu.Lock()
-	a, ok := k.byID[id]
-	k.mu.Unlock()
-	if !ok {
-		return store.StaffAccount{}, domain.Invalid("staff_id", "no staff account %d", id)
-	}
-	role, ok := a.Roles[course]
-	if !ok {
-		return store.StaffAccount{}, domain.Invalid("course", "%s has no role in course %q", a.Name, course)
+	defer k.mu.Unlock()
+	a, err := ss.target(c, id, false, course)
+	if err != nil {
+		return store.StaffAccount{}, err
 	}
 	if len(a.Roles) == 1 {
-		a, _, err := ss.change(ctx, id, false, "revoked")
+		a, _, err := ss.changeLocked(c, a, false, "revoked")
 		return a, err
 	}
-	if !c.admin {
-		if ok, why := c.staff.MayManage(map[string]domain.Role{course: role}); !ok {
-			return store.StaffAccount{}, status.Errorf(codes.PermissionDenied, "%s may not change the account of %s: %s", c.name(), a.Name, why)
-		}
-	}
-	k.mu.Lock()
-	defer k.mu.Unlock()
-	roles := maps.Clone(k.byID[id].Roles)
+	roles := maps.Clone(a.Roles)
 	delete(roles, course)
 	if a, err = ss.s.db.SetStaffRoles(id, roles); err != nil {
 		return store.StaffAccount{}, err
@@ -386,17 +384,25 @@ func (ss staffService) change(ctx context.Context, id uint64, rotate bool, what 
 	k := ss.s.staff
 	k.mu.Lock()
 	defer k.mu.Unlock()
-	a, err := ss.target(c, id, rotate)
+	a, err := ss.target(c, id, rotate, "")
 	if err != nil {
 		return store.StaffAccount{}, "", err
 	}
+	return ss.changeLocked(c, a, rotate, what)
+}
+
+// changeLocked is change on an account already found and checked; call
+// with the staff lock held.
+func (ss staffService) changeLocked(c caller, a store.StaffAccount, rotate bool, what string) (store.StaffAccount, string, error) {
+	k := ss.s.staff
 	var key string
 	var hash []byte
 	if rotate {
 		key = newKey()
 		hash = hashKey(key)
 	}
-	if a, err = ss.s.db.UpdateStaff(a.ID, !rotate, hash); err != nil {
+	a, err := ss.s.db.UpdateStaff(a.ID, !rotate, hash)
+	if err != nil {
 		return store.StaffAccount{}, "", err
 	}
 	k.put(a)
