@@ -313,16 +313,12 @@ func (s *Setup) renderCourse() app.UI {
 	if s.session != nil {
 		return app.P().Class("course").ID("course").Text("Course: " + s.session.Course)
 	}
-	mine := s.who.instructedCourses()
-	if s.who != nil && !s.who.admin && len(mine) > 0 {
-		return field("course", "course", "Course", s.errs["course"], app.Select().ID("course").OnChange(func(ctx app.Context, e app.Event) {
-			s.course = ctx.JSSrc().Get("value").String()
-		}).Body(app.Range(mine).Slice(func(i int) app.UI {
-			return app.Option().Value(mine[i]).Selected(mine[i] == s.course).Text(mine[i])
-		})))
+	input, typed := s.who.courseInput("course", &s.course)
+	label := "Course"
+	if typed {
+		label = "Course (empty: the same as the section)"
 	}
-	return field("course", "course", "Course (empty: the same as the section)", s.errs["course"], app.Input().ID("course").Value(s.course).
-		OnInput(func(ctx app.Context, e app.Event) { s.course = ctx.JSSrc().Get("value").String() }))
+	return field("course", "course", label, s.errs["course"], input)
 }
 
 func (s *Setup) savePolicy(ctx app.Context, e app.Event) {

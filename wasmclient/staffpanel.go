@@ -146,18 +146,7 @@ func (p *StaffPanel) changeThenList(ctx app.Context, change func(*api) (*pb.Staf
 
 // Render draws the list, the new key when one was just made, and the form.
 func (p *StaffPanel) Render() app.UI {
-	mine := p.Who.instructedCourses()
-	var course app.UI
-	if p.Who != nil && p.Who.admin {
-		course = app.Input().ID("staff-course").Value(p.course).
-			OnInput(func(ctx app.Context, e app.Event) { p.course = ctx.JSSrc().Get("value").String() })
-	} else {
-		course = app.Select().ID("staff-course").OnChange(func(ctx app.Context, e app.Event) {
-			p.course = ctx.JSSrc().Get("value").String()
-		}).Body(app.Range(mine).Slice(func(i int) app.UI {
-			return app.Option().Value(mine[i]).Selected(mine[i] == p.course).Text(mine[i])
-		}))
-	}
+	course, _ := p.Who.courseInput("staff-course", &p.course)
 	return app.Section().Class("staff").ID("staff").Body(
 		app.H2().Text("Staff"),
 		app.P().Class("hint").Text("Each person has their own key; the audit log names them. Assistants watch rooms, acknowledge alerts, add notes, correct group members and export; grades, policy and set-up stay with the course's instructors."),

@@ -2,7 +2,7 @@ package wasmclient
 
 import (
 	"context"
-	"sort"
+	"slices"
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
@@ -16,9 +16,8 @@ type who struct {
 	id    uint64
 	name  string
 	admin bool
-	roles map[string]pb.StaffRole
-	// list is the roles as the server gave them, sorted by course.
-	list []*pb.CourseRole
+	// roles are as the server gave them, sorted by course.
+	roles []*pb.CourseRole
 }
 
 func fetchWho(ctx context.Context, c *api) (*who, error) {
@@ -26,31 +25,32 @@ func fetchWho(ctx context.Context, c *api) (*who, error) {
 	if err != nil {
 		return nil, err
 	}
-	w := &who{id: res.StaffId, name: res.Name, admin: res.Administrator, roles: map[string]pb.StaffRole{}, list: res.Roles}
-	for _, r := range res.Roles {
-		w.roles[r.Course] = r.Role
-	}
-	return w, nil
+	return &who{id: res.StaffId, name: res.Name, admin: res.Administrator, roles: res.Roles}, nil
 }
 
 // instructs says whether the person may change the course's set-up and
 // grades: its instructors and the administrator.
 func (w *who) instructs(course string) bool {
-	return w != nil && (w.admin || w.roles[course] == pb.StaffRole_STAFF_ROLE_INSTRUCTOR)
+	if w == nil {
+		return false
+	}
+	return w.admin || slices.ContainsFunc(w.roles, func(r *pb.CourseRole) bool {
+		return r.Course == course && r.Role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR
+	})
 }
 
-// instructedCourses are the courses the person instructs, sorted.
+// instructedCourses are the courses the person instructs, sorted (the
+// server sends the roles by course).
 func (w *who) instructedCourses() []string {
 	var out []string
 	if w == nil {
 		return nil
 	}
-	for c, r := range w.roles {
-		if r == pb.StaffRole_STAFF_ROLE_INSTRUCTOR {
-			out = append(out, c)
+	for _, r := range w.roles {
+		if r.Role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR {
+			out = append(out, r.Course)
 		}
 	}
-	sort.Strings(out)
 	return out
 }
 
@@ -83,7 +83,7 @@ func (w *who) describe() string {
 	if w.admin {
 		return "administrator · every course"
 	}
-	return w.name + " · " + rolesLine(w.list)
+	return w.name + " · " + rolesLine(w.roles)
 }
 
 // whoBar shows whose key is in use, with a way to use another.
@@ -98,4 +98,20 @@ func whoBar(w *who) app.UI {
 			ctx.Reload()
 		}),
 	)
+}
+
+// courseInput is where a person names a course: the courses they instruct
+// to pick from, or, for the administrator (or a person who instructs
+// none), a course typed in (typed is then true). value follows the choice.
+func (w *who) courseInput(id string, value *string) (ui app.UI, typed bool) {
+	mine := w.instructedCourses()
+	if w == nil || w.admin || len(mine) == 0 {
+		return app.Input().ID(id).Value(*value).
+			OnInput(func(ctx app.Context, e app.Event) { *value = ctx.JSSrc().Get("value").String() }), true
+	}
+	return app.Select().ID(id).OnChange(func(ctx app.Context, e app.Event) {
+		*value = ctx.JSSrc().Get("value").String()
+	}).Body(app.Range(mine).Slice(func(i int) app.UI {
+		return app.Option().Value(mine[i]).Selected(mine[i] == *value).Text(mine[i])
+	})), false
 }

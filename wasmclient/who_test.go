@@ -10,7 +10,7 @@ import (
 // the server enforces (server.TestAuthorizationMatrix).
 func TestWhoManages(t *testing.T) {
 	const instr, asst = pb.StaffRole_STAFF_ROLE_INSTRUCTOR, pb.StaffRole_STAFF_ROLE_ASSISTANT
-	rosalind := &who{id: 1, name: "Rosalind Achterberg", roles: map[string]pb.StaffRole{"PHY 214": instr, "PHY 118": asst}}
+	rosalind := &who{id: 1, name: "Rosalind Achterberg", roles: []*pb.CourseRole{{Course: "PHY 118", Role: asst}, {Course: "PHY 214", Role: instr}}}
 	member := func(id uint64, roles ...*pb.CourseRole) *pb.StaffMember {
 		return &pb.StaffMember{StaffId: id, Roles: roles}
 	}
@@ -35,7 +35,6 @@ func TestWhoManages(t *testing.T) {
 	if !rosalind.instructs("PHY 214") || rosalind.instructs("PHY 118") || !rosalind.instructsAny() {
 		t.Error("instructs: wrong courses")
 	}
-	rosalind.list = []*pb.CourseRole{{Course: "PHY 118", Role: asst}, {Course: "PHY 214", Role: instr}}
 	if got, want := rosalind.describe(), "Rosalind Achterberg · assistant of PHY 118, instructor of PHY 214"; got != want {
 		t.Errorf("describe: %q, want %q", got, want)
 	}
