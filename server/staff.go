@@ -15,6 +15,7 @@ import (
 	"google.golang.org/protobuf/types/known/timestamppb"
 
 	"example.com/fluxroom/domain"
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 	"example.com/fluxroom/store"
@@ -143,30 +144,10 @@ type staffService struct {
 	s *Server
 }
 
-func roleFromPB(r pb.StaffRole) domain.Role {
-	switch r {
-	case pb.StaffRole_STAFF_ROLE_INSTRUCTOR:
-		return domain.RoleInstructor
-	case pb.StaffRole_STAFF_ROLE_ASSISTANT:
-		return domain.RoleAssistant
-	}
-	return ""
-}
-
-func roleToPB(r domain.Role) pb.StaffRole {
-	switch r {
-	case domain.RoleInstructor:
-		return pb.StaffRole_STAFF_ROLE_INSTRUCTOR
-	case domain.RoleAssistant:
-		return pb.StaffRole_STAFF_ROLE_ASSISTANT
-	}
-	return pb.StaffRole_STAFF_ROLE_UNSPECIFIED
-}
-
 func rolesToPB(roles map[string]domain.Role) []*pb.CourseRole {
 	var out []*pb.CourseRole
 	for _, c := range slices.Sorted(maps.Keys(roles)) {
-		out = append(out, &pb.CourseRole{Course: c, Role: roleToPB(roles[c])})
+		out = append(out, &pb.CourseRole{Course: c, Role: wire.RoleToPB(roles[c])})
 	}
 	return out
 }
@@ -205,7 +186,7 @@ func (ss staffService) AddStaff(ctx context.Context, req *pb.AddStaffRequest) (*
 		if _, dup := st.Roles[course]; dup {
 			vs = append(vs, domain.FieldViolation{Field: f + ".course", Reason: fmt.Sprintf("course %q is given twice", course)})
 		}
-		st.Roles[course], field[course] = roleFromPB(r.GetRole()), f
+		st.Roles[course], field[course] = wire.RoleFromPB(r.GetRole()), f
 	}
 	if err := domain.ValidateStaff(st, func(course string) string { return field[course] }); err != nil {
 		var ve *domain.ValidationError

@@ -6,6 +6,7 @@ import (
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
 
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -204,11 +205,7 @@ func rolesLine(roles []*pb.CourseRole) string {
 		if i > 0 {
 			out += ", "
 		}
-		role := "assistant"
-		if r.Role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR {
-			role = "instructor"
-		}
-		out += role + " of " + r.Course
+		out += string(wire.RoleFromPB(r.Role)) + " of " + r.Course
 	}
 	return out
 }

@@ -8,6 +8,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"example.com/fluxroom/internal/wire"
 	pb "example.com/fluxroom/proto/fluxroompb"
 	"example.com/fluxroom/proto/rpcpb"
 )
@@ -160,11 +161,7 @@ func (m *Main) staffCmd(ctx context.Context, args []string) error {
 func rolesText(roles []*pb.CourseRole) string {
 	var parts []string
 	for _, r := range roles {
-		role := "assistant"
-		if r.Role == pb.StaffRole_STAFF_ROLE_INSTRUCTOR {
-			role = "instructor"
-		}
-		parts = append(parts, role+" of "+strconv.Quote(r.Course))
+		parts = append(parts, string(wire.RoleFromPB(r.Role))+" of "+strconv.Quote(r.Course))
 	}
 	return strings.Join(parts, "; ")
 }

@@ -44,3 +44,25 @@ func ValuesFromPB(m map[string]*pb.Quantity) domain.Values {
 	domain.SortValues(out)
 	return out
 }
+
+// RoleFromPB is a staff role from the wire; "" for none the domain knows.
+func RoleFromPB(r pb.StaffRole) domain.Role {
+	switch r {
+	case pb.StaffRole_STAFF_ROLE_INSTRUCTOR:
+		return domain.RoleInstructor
+	case pb.StaffRole_STAFF_ROLE_ASSISTANT:
+		return domain.RoleAssistant
+	}
+	return ""
+}
+
+// RoleToPB is a staff role for the wire.
+func RoleToPB(r domain.Role) pb.StaffRole {
+	switch r {
+	case domain.RoleInstructor:
+		return pb.StaffRole_STAFF_ROLE_INSTRUCTOR
+	case domain.RoleAssistant:
+		return pb.StaffRole_STAFF_ROLE_ASSISTANT
+	}
+	return pb.StaffRole_STAFF_ROLE_UNSPECIFIED
+}
