@@ -33,6 +33,24 @@ func SortValues(v Values) {
 	slices.SortFunc(v, func(a, b NamedQuantity) int { return strings.Compare(a.Name, b.Name) })
 }
 
+// QuantityMessage is a quantity as an encoded message holds it: the wire's
+// and the stored record's both have these getters.
+type QuantityMessage interface {
+	GetValue() float64
+	GetUnit() string
+	GetUncertainty() float64
+}
+
+// ValuesFrom makes Values from a map of quantity messages, sorted by name.
+func ValuesFrom[Q QuantityMessage](m map[string]Q) Values {
+	v := make(Values, 0, len(m))
+	for name, q := range m {
+		v = append(v, NamedQuantity{name, Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
+	}
+	SortValues(v)
+	return v
+}
+
 // Get returns the value of the given name.
 func (v Values) Get(name string) (Quantity, bool) {
 	for _, nq := range v {

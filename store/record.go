@@ -72,14 +72,7 @@ func valuesRecord(v domain.Values) map[string]*recordpb.Quantity {
 	return out
 }
 
-func valuesFromRecord(m map[string]*recordpb.Quantity) domain.Values {
-	out := make(domain.Values, 0, len(m))
-	for k, q := range m {
-		out = append(out, domain.NamedQuantity{Name: k, Quantity: domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
-	}
-	domain.SortValues(out)
-	return out
-}
+func valuesFromRecord(m map[string]*recordpb.Quantity) domain.Values { return domain.ValuesFrom(m) }
 
 func benchRecord(b domain.Bench) *recordpb.Bench {
 	return &recordpb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),

@@ -36,14 +36,7 @@ func ValuesToPB(v domain.Values) map[string]*pb.Quantity {
 }
 
 // ValuesFromPB converts a reading's values from the wire, sorted by name.
-func ValuesFromPB(m map[string]*pb.Quantity) domain.Values {
-	out := make(domain.Values, 0, len(m))
-	for k, q := range m {
-		out = append(out, domain.NamedQuantity{Name: k, Quantity: domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
-	}
-	domain.SortValues(out)
-	return out
-}
+func ValuesFromPB(m map[string]*pb.Quantity) domain.Values { return domain.ValuesFrom(m) }
 
 // RoleFromPB is a staff role from the wire; "" for none the domain knows.
 func RoleFromPB(r pb.StaffRole) domain.Role {
