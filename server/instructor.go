@@ -9,8 +9,6 @@ import (
 	"slices"
 	"sort"
 	"strings"
-	"unicode"
-	"unicode/utf8"
 
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
@@ -33,8 +31,8 @@ type instructorService struct {
 func (in instructorService) CreateSession(ctx context.Context, req *pb.CreateSessionRequest) (*pb.CreateSessionResponse, error) {
 	c, _ := callerOf(ctx)
 	title := strings.TrimSpace(req.GetTitle())
-	if title == "" || utf8.RuneCountInString(title) > 80 || !utf8.ValidString(title) || strings.ContainsFunc(title, unicode.IsControl) {
-		return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
+	if err := domain.ValidateTitle("title", title); err != nil {
+		return nil, err
 	}
 	course := strings.TrimSpace(req.GetCourse())
 	if course == "" {
@@ -247,8 +245,8 @@ func (in instructorService) UpdateSession(ctx context.Context, req *pb.UpdateSes
 		return nil, err
 	}
 	if t := strings.TrimSpace(req.GetTitle()); t != "" {
-		if utf8.RuneCountInString(t) > 80 || !utf8.ValidString(t) || strings.ContainsFunc(t, unicode.IsControl) {
-			return nil, domain.Invalid("title", "must be 1–80 characters, such as the course and section")
+		if err := domain.ValidateTitle("title", t); err != nil {
+			return nil, err
 		}
 		sess.Title = t
 	}
