@@ -45,6 +45,14 @@ func (s Session) EffectiveTolerance() Tolerance {
 	return t
 }
 
+// ValidateTitle checks a session's title: one line of 1–80 characters.
+func ValidateTitle(field, title string) error {
+	if !validLine(title, 80) {
+		return Invalid(field, "must be 1–80 characters, such as the course and section")
+	}
+	return nil
+}
+
 // ValidateTolerance checks a tolerance profile; zero fields mean "default".
 func ValidateTolerance(prefix string, t Tolerance) error {
 	var vs violations

@@ -139,14 +139,6 @@ func ValidateCourse(field, course string) error {
 	return nil
 }
 
-// ValidateTitle checks a session's title: one line of 1–80 characters.
-func ValidateTitle(field, title string) error {
-	if !validLine(title, 80) {
-		return Invalid(field, "must be 1–80 characters, such as the course and section")
-	}
-	return nil
-}
-
 // ValidateStaff checks a new account's name and roles. roleFields names
 // the request field of each course's role, for the error.
 func ValidateStaff(s Staff, roleField func(course string) string) error {
