@@ -15,14 +15,16 @@ import (
 
 // A room event goes to every watcher of the room, each stream with its own
 // sequence number. It is encoded once: a protobuf message's encoding is the
-// concatenation of its fields', so each stream sends its sequence field
-// followed by the shared bytes of the event, and a room of a hundred tabs
-// costs one encoding per change, not a hundred.
+// concatenation of its fields', so an event is kept as the encoding of one
+// RoomChanges field (a bench's state, or the findings), and each stream
+// sends its sequence field and a RoomChanges made of the bytes of every
+// event waiting for it. A room of a hundred tabs costs one encoding per
+// change, not a hundred, and a stream one message per wake-up, not one per
+// change.
 
-// roomEvent is one published event with its shared encoding: the
-// WatchRoomResponse without its sequence.
+// roomEvent is one published change with its shared encoding: the
+// RoomChanges field it sets.
 type roomEvent struct {
-	msg  *pb.WatchRoomResponse
 	body []byte
 	// key names what the event is the whole state of: its bench (by id),
 	// or the room's findings (findingsKey). A newer event with the same
@@ -34,31 +36,47 @@ type roomEvent struct {
 // never reach it.
 const findingsKey = math.MaxUint64
 
-func newRoomEvent(ev *pb.WatchRoomResponse) (*roomEvent, error) {
-	body, err := proto.Marshal(ev)
+// benchChanged is the event of a bench's new state.
+func benchChanged(st *pb.BenchState) (*roomEvent, error) {
+	body, err := proto.Marshal(&pb.RoomChanges{Benches: []*pb.BenchState{st}})
 	if err != nil {
-		return nil, fmt.Errorf("encode room event: %w", err)
+		return nil, fmt.Errorf("encode bench %d's state: %w", st.GetBench().GetBenchId(), err)
 	}
-	re := &roomEvent{msg: ev, body: body, key: findingsKey}
-	if b := ev.GetBench(); b != nil {
-		re.key = b.GetBench().GetBenchId()
-	}
-	return re, nil
+	return &roomEvent{body: body, key: st.GetBench().GetBenchId()}, nil
 }
 
-// sequenced is a roomEvent as one stream sends it.
+// findingsChanged is the event of the room's new findings.
+func findingsChanged(f *pb.RoomFindings) (*roomEvent, error) {
+	body, err := proto.Marshal(&pb.RoomChanges{Findings: f})
+	if err != nil {
+		return nil, fmt.Errorf("encode room findings: %w", err)
+	}
+	return &roomEvent{body: body, key: findingsKey}, nil
+}
+
+// sequenced is the events waiting for one stream, as the one message it
+// sends them in.
 type sequenced struct {
 	seq uint64
-	ev  *roomEvent
+	evs []*roomEvent
 }
 
 // wireBytes is the WatchRoomResponse encoding: field 1, the sequence, then
-// the event's fields.
+// field 5, the RoomChanges made of the events' fields.
 func (m sequenced) wireBytes() []byte {
-	b := make([]byte, 0, protowire.SizeTag(1)+protowire.SizeVarint(m.seq)+len(m.ev.body))
+	n := 0
+	for _, ev := range m.evs {
+		n += len(ev.body)
+	}
+	b := make([]byte, 0, protowire.SizeTag(1)+protowire.SizeVarint(m.seq)+protowire.SizeTag(5)+protowire.SizeBytes(n))
 	b = protowire.AppendTag(b, 1, protowire.VarintType)
 	b = protowire.AppendVarint(b, m.seq)
-	return append(b, m.ev.body...)
+	b = protowire.AppendTag(b, 5, protowire.BytesType)
+	b = protowire.AppendVarint(b, uint64(n))
+	for _, ev := range m.evs {
+		b = append(b, ev.body...)
+	}
+	return b
 }
 
 // codec is the server's protobuf codec, which also sends a sequenced event

@@ -47,20 +47,22 @@ func newWatcher() *watcher {
 
 func (w *watcher) drop() { w.goneOnce.Do(func() { close(w.gone) }) }
 
-// push queues an event, in place of the waiting one with the same key if
-// there is one; false when the watcher is too far behind to keep.
-func (w *watcher) push(ev *roomEvent) bool {
+// push queues events, each in place of the waiting one with the same key
+// if there is one; false when the watcher is too far behind to keep.
+func (w *watcher) push(evs ...*roomEvent) bool {
 	w.mu.Lock()
 	defer w.mu.Unlock()
-	if i, ok := w.waiting[ev.key]; ok {
-		w.queue[i] = ev
-		return true
+	for _, ev := range evs {
+		if i, ok := w.waiting[ev.key]; ok {
+			w.queue[i] = ev
+			continue
+		}
+		if len(w.queue) >= watcherBuffer {
+			return false
+		}
+		w.waiting[ev.key] = len(w.queue)
+		w.queue = append(w.queue, ev)
 	}
-	if len(w.queue) >= watcherBuffer {
-		return false
-	}
-	w.waiting[ev.key] = len(w.queue)
-	w.queue = append(w.queue, ev)
 	select {
 	case w.ready <- struct{}{}:
 	default:
@@ -110,27 +112,56 @@ func (h *hub) sessionLock(sessionID uint64) *sync.Mutex {
 	return m.(*sync.Mutex)
 }
 
-// publish sends an event (a bench's new state, or the room's findings) to
-// every watcher of its session without blocking; a watcher too far behind
-// is dropped. The event is encoded once for all of them, and not at
-// all when nobody watches; each stream adds its sequence number. Call it
-// with the session's publish lock held: a watcher that subscribes after the
+// publishBenches sends benches' new states to the watchers of their
+// session's room, all in one push per watcher, so that a judge pass wakes
+// each stream once. Call it with the session's publish lock held (see
+// publish).
+func (h *hub) publishBenches(sessionID uint64, states []*pb.BenchState) {
+	if len(states) == 0 {
+		return
+	}
+	h.publish(sessionID, func() ([]*roomEvent, error) {
+		evs := make([]*roomEvent, len(states))
+		for i, st := range states {
+			re, err := benchChanged(st)
+			if err != nil {
+				return nil, err
+			}
+			evs[i] = re
+		}
+		return evs, nil
+	})
+}
+
+// publishFindings sends the room's new findings to its watchers. Call it
+// with the session's publish lock held (see publish).
+func (h *hub) publishFindings(sessionID uint64, f *pb.RoomFindings) {
+	h.publish(sessionID, func() ([]*roomEvent, error) {
+		re, err := findingsChanged(f)
+		return []*roomEvent{re}, err
+	})
+}
+
+// publish queues events for every watcher of their session without
+// blocking; a watcher too far behind is dropped. The events are encoded
+// once for all of them, and not at all when nobody watches. Call it with
+// the session's publish lock held: a watcher that subscribes after the
 // check for watchers takes its snapshot after this change.
-func (h *hub) publish(sessionID uint64, ev *pb.WatchRoomResponse) {
+func (h *hub) publish(sessionID uint64, encode func() ([]*roomEvent, error)) {
 	h.mu.Lock()
 	n := len(h.watchers[sessionID])
 	h.mu.Unlock()
 	if n == 0 {
 		return
 	}
-	re, err := newRoomEvent(ev)
+	evs, err := encode()
 	h.mu.Lock()
 	defer h.mu.Unlock()
 	for w := range h.watchers[sessionID] {
-		if err == nil && w.push(re) {
+		if err == nil && w.push(evs...) {
 			continue
 		}
-		// Behind, or the event cannot be sent: the watcher reconnects and
+		// Behind, or the events cannot be sent: the watcher reconnects and
 		// starts from a fresh snapshot.
 		delete(h.watchers[sessionID], w)
 		w.drop()

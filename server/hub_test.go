@@ -5,15 +5,20 @@ import (
 	"testing"
 
 	"github.com/google/go-cmp/cmp"
+	"google.golang.org/protobuf/proto"
 
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
+// benchState is a bench's state at a reading count.
+func benchState(benchID uint64, count int32) *pb.BenchState {
+	return &pb.BenchState{Bench: &pb.Bench{BenchId: benchID}, ReadingCount: count}
+}
+
 // benchEv is a bench's state at a reading count, as the judge publishes it.
 func benchEv(t *testing.T, benchID uint64, count int32) *roomEvent {
 	t.Helper()
-	re, err := newRoomEvent(&pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: &pb.BenchState{
-		Bench: &pb.Bench{BenchId: benchID}, ReadingCount: count}}})
+	re, err := benchChanged(benchState(benchID, count))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -26,7 +31,7 @@ func findingsEv(t *testing.T, n int) *roomEvent {
 	for i := range fs {
 		fs[i] = &pb.RoomFinding{Code: fmt.Sprintf("room.f%d", i)}
 	}
-	re, err := newRoomEvent(&pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: fs}}})
+	re, err := findingsChanged(&pb.RoomFindings{Findings: fs})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -35,11 +40,20 @@ func findingsEv(t *testing.T, n int) *roomEvent {
 
 // label names a queued event for comparison: "b<bench>@<count>" or
 // "findings<n>".
-func label(ev *roomEvent) string {
-	if b := ev.msg.GetBench(); b != nil {
-		return fmt.Sprintf("b%d@%d", b.GetBench().GetBenchId(), b.GetReadingCount())
+func label(t *testing.T, ev *roomEvent) string {
+	t.Helper()
+	var ch pb.RoomChanges
+	if err := proto.Unmarshal(ev.body, &ch); err != nil {
+		t.Fatal(err)
 	}
-	return fmt.Sprintf("findings%d", len(ev.msg.GetFindings().GetFindings()))
+	if bs := ch.GetBenches(); len(bs) == 1 && ch.Findings == nil {
+		return fmt.Sprintf("b%d@%d", bs[0].GetBench().GetBenchId(), bs[0].GetReadingCount())
+	}
+	if len(ch.GetBenches()) == 0 && ch.Findings != nil {
+		return fmt.Sprintf("findings%d", len(ch.GetFindings().GetFindings()))
+	}
+	t.Fatalf("an event of %d benches and findings %v", len(ch.GetBenches()), ch.Findings)
+	return ""
 }
 
 // A watcher that has not been sent its events yet gets each bench's latest
@@ -79,7 +93,7 @@ func TestWatcherSendsLatestStates(t *testing.T) {
 			}
 			var got []string
 			for _, ev := range w.take() {
-				got = append(got, label(ev))
+				got = append(got, label(t, ev))
 			}
 			if diff := cmp.Diff(tc.want, got); diff != "" {
 				t.Errorf("sent (-want +got):\n%s", diff)
@@ -89,7 +103,7 @@ func TestWatcherSendsLatestStates(t *testing.T) {
 			}
 			// After a take, a bench's next state is news again.
 			w.push(benchEv(t, 1, 9))
-			if got := w.take(); len(got) != 1 || label(got[0]) != "b1@9" {
+			if got := w.take(); len(got) != 1 || label(t, got[0]) != "b1@9" {
 				t.Errorf("after a take, got %d events", len(got))
 			}
 		})
@@ -102,20 +116,20 @@ func TestHubDropsAWatcherTooFarBehind(t *testing.T) {
 	h := newHub()
 	w := h.subscribe(7)
 	for b := uint64(1); b <= watcherBuffer; b++ {
-		h.publish(7, benchEv(t, b, 1).msg)
+		h.publishBenches(7, []*pb.BenchState{benchState(b, 1)})
 	}
 	select {
 	case <-w.gone:
 		t.Fatalf("dropped with %d benches waiting, the bound", watcherBuffer)
 	default:
 	}
-	h.publish(7, benchEv(t, 1, 2).msg) // replaces a waiting state: still kept
+	h.publishBenches(7, []*pb.BenchState{benchState(1, 2)}) // replaces a waiting state: still kept
 	select {
 	case <-w.gone:
 		t.Fatal("dropped for a state that replaced a waiting one")
 	default:
 	}
-	h.publish(7, benchEv(t, watcherBuffer+1, 1).msg)
+	h.publishBenches(7, []*pb.BenchState{benchState(watcherBuffer+1, 1)})
 	select {
 	case <-w.gone:
 	default:

@@ -163,8 +163,8 @@ func (in instructorService) SetBenches(ctx context.Context, req *pb.SetBenchesRe
 	return out, nil
 }
 
-// WatchRoom streams a session's room: a snapshot of every bench first, then each change of a bench's
-// state and of the room's findings, numbered; a slow watcher skips to the newest state of a bench.
+// WatchRoom streams a session's room: a snapshot of every bench first, then the changes of benches'
+// states and of the room's findings, numbered; a slow watcher skips to the newest state of a bench.
 func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.InstructorService_WatchRoomServer) error {
 	s := in.s
 	id := req.GetSessionId()
@@ -200,11 +200,15 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 		case <-w.gone:
 			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
 		case <-w.ready:
-			for _, ev := range w.take() {
-				seq++
-				if err := stream.SendMsg(sequenced{seq: seq, ev: ev}); err != nil {
-					return err
-				}
+			// Everything that changed since the last send goes in one
+			// message: a busy room costs a stream one write per wake-up.
+			evs := w.take()
+			if len(evs) == 0 {
+				continue
+			}
+			seq++
+			if err := stream.SendMsg(sequenced{seq: seq, evs: evs}); err != nil {
+				return err
 			}
 		}
 	}

@@ -148,10 +148,12 @@ func (s *Server) judgeBatch(sessionID uint64, rs *roomState, batch map[uint64][]
 		moved = append(moved, rs.results[bid])
 	}
 	stalled := domain.StalledBenches(moved, now, s.stallAfter)
-	for _, bid := range changed {
+	states := make([]*pb.BenchState, len(changed))
+	for i, bid := range changed {
 		rs.stalled[bid] = stalled[bid]
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid)}})
+		states[i] = rs.shown(bid)
 	}
+	s.hub.publishBenches(sessionID, states)
 	if withFindings {
 		s.publishFindings(sessionID, rs, rs.resultList())
 	}
@@ -181,6 +183,6 @@ func mergeReading(list []domain.Reading, r domain.Reading) []domain.Reading {
 func (s *Server) publishFindings(sessionID uint64, rs *roomState, results []domain.BenchResult) {
 	if f := domain.RoomFindings(results, rs.session.EffectiveTolerance()); !sameFindings(f, rs.findings) {
 		rs.findings = f
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(f)}}})
+		s.hub.publishFindings(sessionID, &pb.RoomFindings{Findings: findingsToPB(f)})
 	}
 }

@@ -3,6 +3,7 @@ package server
 import (
 	"context"
 	"fmt"
+	"slices"
 	"testing"
 	"time"
 
@@ -49,7 +50,7 @@ func TestQuietRoomLeavesMemory(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if b := ev.GetBench(); b.GetBench().GetBenchId() == bid {
+		if b := changedBench(ev, benchID(bid)); b != nil {
 			if b.ReadingCount != 4 {
 				t.Errorf("after coming back the bench shows %d readings, want 4", b.ReadingCount)
 			}
@@ -61,5 +62,36 @@ func TestQuietRoomLeavesMemory(t *testing.T) {
 	r.srv.checkStalls()
 	if _, cached := r.srv.rooms.peek(sid); !cached {
 		t.Error("a watched room left the memory")
+	}
+}
+
+// A change that moves every bench of the room (here its tolerance) reaches a
+// watcher as one message holding all their states, not one message each: a
+// stream writes once per wake-up.
+func TestRoomChangesComeInOneMessage(t *testing.T) {
+	r := startRig(t)
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sess.SessionId})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := stream.Recv(); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := r.instructor.UpdateSession(ctx, &pb.UpdateSessionRequest{SessionId: sess.SessionId,
+		Tolerance: &pb.Tolerance{GoodPercent: 4, AcceptablePercent: 8}}); err != nil {
+		t.Fatal(err)
+	}
+	ev, err := stream.Recv()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, b := range ev.GetChanges().GetBenches() {
+		got = append(got, b.GetBench().GetLabel())
+	}
+	if want := []string{benches[0].Label, benches[1].Label}; !slices.Equal(got, want) || ev.Sequence != 2 {
+		t.Errorf("first event after the snapshot: sequence %d, benches %v; want sequence 2 with %v", ev.Sequence, got, want)
 	}
 }

@@ -193,12 +193,14 @@ func (s *Server) checkStalls() {
 		}
 		if rs, ok := s.rooms.peek(id); ok {
 			stalled := domain.StalledBenches(rs.resultList(), now, s.stallAfter)
+			var states []*pb.BenchState
 			for bid := range rs.states {
 				if stalled[bid] != rs.stalled[bid] {
 					rs.stalled[bid] = stalled[bid]
-					s.hub.publish(id, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(bid)}})
+					states = append(states, rs.shown(bid))
 				}
 			}
+			s.hub.publishBenches(id, states)
 		}
 		mu.Unlock()
 	}

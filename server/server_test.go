@@ -198,16 +198,20 @@ func TestJoinSubmitWatch(t *testing.T) {
 	// The bench's events follow the snapshot, numbered from 2, one per
 	// judging pass (readings that arrive together are judged together),
 	// until the one with all five readings, which matches the bench's state.
-	var ev *pb.WatchRoomResponse
-	for want := uint64(2); ev.GetBench().GetReadingCount() < 5; want++ {
-		if ev, err = stream.Recv(); err != nil {
+	var got *pb.BenchState
+	for want := uint64(2); got.GetReadingCount() < 5; want++ {
+		ev, err := stream.Recv()
+		if err != nil {
 			t.Fatal(err)
 		}
 		if ev.Sequence != want {
 			t.Errorf("event sequence = %d, want %d", ev.Sequence, want)
 		}
+		if b := changedBench(ev, benchID(join.Bench.BenchId)); b != nil {
+			got = b
+		}
 	}
-	if got := ev.GetBench(); got.GetBench().GetBenchId() != join.Bench.BenchId || got.GetReason() != last.Reason {
+	if got.GetReason() != last.Reason {
 		t.Errorf("last event = %v, want bench %d with reason %q", got, join.Bench.BenchId, last.Reason)
 	}
 
@@ -414,7 +418,7 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		for _, f := range ev.GetFindings().GetFindings() {
+		for _, f := range ev.GetChanges().GetFindings().GetFindings() {
 			finding = f
 		}
 	}
@@ -433,7 +437,7 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" && b.Activity != "" {
+		if b := changedBench(ev, benchLabel("A2")); b != nil && b.Activity != "" {
 			if b.Activity != "stalled" || b.Verdict != pb.Verdict_VERDICT_OFF {
 				t.Errorf("A2 quiet: activity %q, verdict %v; want stalled and still off", b.Activity, b.Verdict)
 			}
@@ -457,7 +461,7 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if b := ev.GetBench(); b != nil && b.Bench.Label == "A4" && b.Activity != "" {
+		if b := changedBench(ev, benchLabel("A4")); b != nil && b.Activity != "" {
 			if b.Activity != "done" {
 				t.Errorf("A4 after a complete run: activity %q, want done", b.Activity)
 			}
@@ -477,7 +481,7 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatalf("A2 not shown done under a policy of 5 readings (last shown %q): %v", lastA2, err)
 		}
-		if b := ev.GetBench(); b != nil && b.Bench.Label == "A2" {
+		if b := changedBench(ev, benchLabel("A2")); b != nil {
 			lastA2 = b.Activity
 		}
 	}
@@ -493,12 +497,31 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 		if err != nil {
 			t.Fatalf("no room findings without the shared cause under a good band of 60 %% (last sent: %v): %v", last, err)
 		}
-		if f := ev.GetFindings(); f != nil {
+		if f := ev.GetChanges().GetFindings(); f != nil {
 			if last = f.Findings; len(last) == 0 {
 				break
 			}
 		}
 	}
+}
+
+// changedBench is the state, among a room event's changes, of the bench
+// that is picks; nil when the event has none.
+func changedBench(ev *pb.WatchRoomResponse, is func(*pb.BenchState) bool) *pb.BenchState {
+	for _, b := range ev.GetChanges().GetBenches() {
+		if is(b) {
+			return b
+		}
+	}
+	return nil
+}
+
+func benchID(id uint64) func(*pb.BenchState) bool {
+	return func(b *pb.BenchState) bool { return b.GetBench().GetBenchId() == id }
+}
+
+func benchLabel(label string) func(*pb.BenchState) bool {
+	return func(b *pb.BenchState) bool { return b.GetBench().GetLabel() == label }
 }
 
 // syncBuffer is a log sink the server's goroutines may write concurrently.

@@ -134,13 +134,14 @@ func (s *Server) rejudgeRoom(sessionID uint64) error {
 	if err != nil {
 		return err
 	}
-	ids := slices.Sorted(maps.Keys(rs.states))
-	for _, id := range ids {
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(id)}})
+	states := make([]*pb.BenchState, 0, len(rs.states))
+	for _, id := range slices.Sorted(maps.Keys(rs.states)) {
+		states = append(states, rs.shown(id))
 	}
+	s.hub.publishBenches(sessionID, states)
 	// loadRoom worked the findings out afresh: the watchers still show the
 	// ones from before the change.
-	s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{Findings: findingsToPB(rs.findings)}}})
+	s.hub.publishFindings(sessionID, &pb.RoomFindings{Findings: findingsToPB(rs.findings)})
 	return nil
 }
 
@@ -161,7 +162,7 @@ func (s *Server) publishBench(sessionID, benchID uint64) error {
 		// Only this bench's flag changes here; checkStalls publishes the others'.
 		results := rs.resultList()
 		rs.stalled[benchID] = domain.StalledBenches(results, s.now(), s.stallAfter)[benchID]
-		s.hub.publish(sessionID, &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Bench{Bench: rs.shown(benchID)}})
+		s.hub.publishBenches(sessionID, []*pb.BenchState{rs.shown(benchID)})
 		s.publishFindings(sessionID, rs, results)
 		return nil
 	})

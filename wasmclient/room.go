@@ -202,13 +202,16 @@ func (r *Room) apply(ctx app.Context, ev *pb.WatchRoomResponse) {
 		for _, b := range e.Snapshot.Benches {
 			r.benches[b.Bench.BenchId] = b
 		}
-	case *pb.WatchRoomResponse_Bench:
-		r.benches[e.Bench.Bench.BenchId] = e.Bench
-		if e.Bench.Bench.BenchId == r.open {
-			r.openBench(ctx, r.open) // refresh the open detail
+	case *pb.WatchRoomResponse_Changes:
+		for _, b := range e.Changes.Benches {
+			r.benches[b.Bench.BenchId] = b
+			if b.Bench.BenchId == r.open {
+				r.openBench(ctx, r.open) // refresh the open detail
+			}
 		}
-	case *pb.WatchRoomResponse_Findings:
-		r.findings = e.Findings.Findings
+		if f := e.Changes.Findings; f != nil {
+			r.findings = f.Findings
+		}
 	}
 }
 

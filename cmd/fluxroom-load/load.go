@@ -309,8 +309,8 @@ func (p sweepPoint) print(w io.Writer) {
 	}{{"light", p.light, p.echoLight}, {"heavy", p.heavy, p.echoHeavy}} {
 		ph := x.ph
 		rate := float64(ph.stored) / ph.elapsed.Seconds()
-		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s (inside the server p50 ≤ %g p99 ≤ %g ms); submit→watcher %s over %d deliveries\n",
-			x.name, ph.offered, rate, ms3(ph.ack), ph.serverP50, ph.serverP99, ms3(ph.watch), len(ph.watch))
+		fmt.Fprintf(w, "  %-5s %5.0f/s offered, %5.0f/s durable; submit→ack %s (inside the server p50 ≤ %g p99 ≤ %g ms); submit→watcher %s over %d deliveries in %d messages\n",
+			x.name, ph.offered, rate, ms3(ph.ack), ph.serverP50, ph.serverP99, ms3(ph.watch), len(ph.watch), ph.watchMessages)
 		fmt.Fprintf(w, "        verdicts missing at watchers %d, late (> %s) %d, failed submits %d; server CPU %.0f µs/reading (load generator %.0f); server peak RSS %.0f MB\n",
 			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
 		fmt.Fprintf(w, "        group commits %.0f/s of %.1f readings each, p50 ≤ %g p99 ≤ %g ms with their fsyncs; judge lag (commit → state published) p99 ≤ %g ms\n",

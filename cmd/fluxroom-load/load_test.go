@@ -7,6 +7,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -56,43 +57,54 @@ func TestLoadtestRuns(t *testing.T) {
 	}
 }
 
-// The load program's dashboards read two fields of each room event from its
-// bytes; they must read what protobuf's own decoding reads.
-func TestBenchEventReadsWhatProtobufReads(t *testing.T) {
+// The load program's dashboards read two fields of each bench in a room
+// event from its bytes; they must read what protobuf's own decoding reads.
+func TestChangedBenchesReadsWhatProtobufReads(t *testing.T) {
 	state := &pb.BenchState{Bench: &pb.Bench{BenchId: 300, Label: "C4", Row: 2, Column: 3, Experiment: "coil_force",
 		Constants: map[string]*pb.Quantity{"turns": {Value: 100, Unit: "1"}}},
 		Verdict: pb.Verdict_VERDICT_CHECK, Reason: "likely sensor not zeroed", ReadingCount: 17,
 		Diagnoses: []*pb.Diagnosis{{Code: "coil_force.sensor_not_zeroed", Evidence: "intercept 0.06 N"}}, Z: 2.5}
+	bare := &pb.BenchState{Bench: &pb.Bench{BenchId: 2}}
+	findings := &pb.RoomFindings{Findings: []*pb.RoomFinding{{Code: "room.shared_cause", BenchIds: []uint64{2, 300}}}}
+	changes := func(seq uint64, ch *pb.RoomChanges) *pb.WatchRoomResponse {
+		return &pb.WatchRoomResponse{Sequence: seq, Event: &pb.WatchRoomResponse_Changes{Changes: ch}}
+	}
 	for _, tc := range []struct {
-		name      string
-		ev        *pb.WatchRoomResponse
-		wantBench bool
+		name string
+		ev   *pb.WatchRoomResponse
 	}{
-		{"bench", &pb.WatchRoomResponse{Sequence: 9, Event: &pb.WatchRoomResponse_Bench{Bench: state}}, true},
-		{"bench without readings", &pb.WatchRoomResponse{Sequence: 1, Event: &pb.WatchRoomResponse_Bench{Bench: &pb.BenchState{Bench: &pb.Bench{BenchId: 2}}}}, true},
-		{"findings", &pb.WatchRoomResponse{Sequence: 10, Event: &pb.WatchRoomResponse_Findings{Findings: &pb.RoomFindings{}}}, false},
-		{"snapshot", &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Snapshot{Snapshot: &pb.RoomSnapshot{Benches: []*pb.BenchState{state}}}}, false},
+		{"one bench", changes(9, &pb.RoomChanges{Benches: []*pb.BenchState{state}})},
+		{"bench without readings", changes(1, &pb.RoomChanges{Benches: []*pb.BenchState{bare}})},
+		{"two benches and findings", changes(12, &pb.RoomChanges{Benches: []*pb.BenchState{state, bare}, Findings: findings})},
+		{"findings", changes(10, &pb.RoomChanges{Findings: findings})},
+		{"snapshot", &pb.WatchRoomResponse{Event: &pb.WatchRoomResponse_Snapshot{Snapshot: &pb.RoomSnapshot{Benches: []*pb.BenchState{state}}}}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			b, err := proto.Marshal(tc.ev)
 			if err != nil {
 				t.Fatal(err)
 			}
-			id, count, ok, err := benchEvent(b)
-			if err != nil || ok != tc.wantBench {
-				t.Fatalf("benchEvent: ok %v, %v; want ok %v", ok, err, tc.wantBench)
+			var got [][2]uint64
+			if err := changedBenches(b, func(id uint64, count int32) { got = append(got, [2]uint64{id, uint64(count)}) }); err != nil {
+				t.Fatal(err)
 			}
 			var back pb.WatchRoomResponse
 			if err := proto.Unmarshal(b, &back); err != nil {
 				t.Fatal(err)
 			}
-			if got, want := [2]uint64{id, uint64(count)}, [2]uint64{back.GetBench().GetBench().GetBenchId(), uint64(back.GetBench().GetReadingCount())}; got != want {
-				t.Errorf("benchEvent read bench %d count %d; protobuf reads %d, %d", got[0], got[1], want[0], want[1])
+			var want [][2]uint64
+			for _, st := range back.GetChanges().GetBenches() {
+				want = append(want, [2]uint64{st.GetBench().GetBenchId(), uint64(st.GetReadingCount())})
+			}
+			if !slices.Equal(got, want) {
+				t.Errorf("changedBenches read %v; protobuf reads %v", got, want)
 			}
 		})
 	}
-	if _, _, _, err := benchEvent([]byte{0x1a, 0x05, 0x01}); err == nil {
-		t.Error("a truncated event parsed")
+	for _, bad := range [][]byte{{0x2a, 0x05, 0x01}, {0x2a, 0x03, 0x0a, 0x05, 0x01}} {
+		if err := changedBenches(bad, func(uint64, int32) {}); err == nil {
+			t.Errorf("a truncated event %x parsed", bad)
+		}
 	}
 }
 

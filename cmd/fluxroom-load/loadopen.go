@@ -18,10 +18,13 @@ import (
 
 // phase is one open-loop measurement.
 type phase struct {
-	offered       float64
-	stored        int
-	elapsed       time.Duration
-	ack, watch    []time.Duration
+	offered    float64
+	stored     int
+	elapsed    time.Duration
+	ack, watch []time.Duration
+	// watchMessages is the room messages the watchers got (each may carry
+	// several benches' states; watch has one entry per state delivered).
+	watchMessages int
 	missing, late int
 	failed        int
 	serverCPU     float64 // seconds, over the phase
@@ -104,6 +107,9 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 		sid    uint64
 		mu     sync.Mutex
 		events map[uint64][]arrival
+		// messages counts the room's messages after the snapshot: each
+		// carries the changes that waited for the stream's last write.
+		messages int
 	}
 	logs := make([]*watcherLog, watchers)
 	var wwg sync.WaitGroup
@@ -123,14 +129,13 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 					first <- nil
 					return nil
 				}
-				bid, count, ok, err := benchEvent(m)
-				if ok {
-					now := time.Now()
-					wl.mu.Lock()
+				now := time.Now()
+				wl.mu.Lock()
+				defer wl.mu.Unlock()
+				wl.messages++
+				return changedBenches(m, func(bid uint64, count int32) {
 					wl.events[bid] = append(wl.events[bid], arrival{count, now})
-					wl.mu.Unlock()
-				}
-				return err
+				})
 			})
 			if snapshot {
 				first <- fmt.Errorf("watcher: %w", err)
@@ -243,6 +248,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	ph.stored, ph.failed = len(acks), int(failed.Load())
 	ph.floodTried, ph.floodStored, ph.floodRefused = int(floodTried.Load()), int(floodStored.Load()), int(floodRefused.Load())
 	for _, wl := range logs {
+		ph.watchMessages += wl.messages
 		for _, a := range acks {
 			if a.s.sid != wl.sid {
 				continue

@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"context"
+	"errors"
 	"fmt"
 	"net/http"
 	"path/filepath"
@@ -256,57 +257,79 @@ func webWatch(ctx context.Context, addr string, sessionID uint64, onEvent func([
 	}
 }
 
-// benchEvent reads, from a WatchRoomResponse's bytes, what a simulated
-// dashboard needs: whether it is a bench's new state, and then the bench's
-// id and reading count. A browser decodes the whole event on its own
-// machine; the load generator shares the server's cores, so it reads these
-// two fields and skips the rest (field numbers from messages.proto:
-// WatchRoomResponse.bench 3, BenchState.bench 1 and reading_count 6,
-// Bench.bench_id 1).
-func benchEvent(m []byte) (benchID uint64, count int32, ok bool, err error) {
-	state, found, err := wireField(m, 3, protowire.BytesType)
+// changedBenches reads, from a WatchRoomResponse's bytes, what a simulated
+// dashboard needs: each bench whose new state it carries, by id and reading
+// count. A browser decodes the whole event on its own machine; the load
+// generator shares the server's cores, so it reads these fields and skips
+// the rest (field numbers from messages.proto: WatchRoomResponse.changes 5,
+// RoomChanges.benches 1, BenchState.bench 1 and reading_count 6,
+// Bench.bench_id 1). A snapshot or findings alone carry none.
+func changedBenches(m []byte, each func(benchID uint64, count int32)) error {
+	changes, found, err := wireField(m, 5, protowire.BytesType)
 	if err != nil || !found {
-		return 0, 0, false, err
+		return err
 	}
-	bench, _, err := wireField(state, 1, protowire.BytesType)
-	if err != nil {
-		return 0, 0, false, err
-	}
-	id, _, err := wireField(bench, 1, protowire.VarintType)
-	if err != nil {
-		return 0, 0, false, err
-	}
-	n, _, err := wireField(state, 6, protowire.VarintType)
-	if err != nil {
-		return 0, 0, false, err
-	}
-	v, _ := protowire.ConsumeVarint(id)
-	c, _ := protowire.ConsumeVarint(n)
-	return v, int32(c), true, nil
+	return eachField(changes, 1, protowire.BytesType, func(state []byte) error {
+		bench, _, err := wireField(state, 1, protowire.BytesType)
+		if err != nil {
+			return err
+		}
+		id, _, err := wireField(bench, 1, protowire.VarintType)
+		if err != nil {
+			return err
+		}
+		n, _, err := wireField(state, 6, protowire.VarintType)
+		if err != nil {
+			return err
+		}
+		v, _ := protowire.ConsumeVarint(id)
+		c, _ := protowire.ConsumeVarint(n)
+		each(v, int32(c))
+		return nil
+	})
 }
 
 // wireField finds field num of type typ in a message's bytes and returns
 // its value's bytes (a varint's encoding, or a length-delimited field's
 // contents).
 func wireField(m []byte, num protowire.Number, typ protowire.Type) ([]byte, bool, error) {
+	var v []byte
+	err := eachField(m, num, typ, func(b []byte) error {
+		v = b
+		return errFound
+	})
+	if err == errFound {
+		return v, true, nil
+	}
+	return nil, false, err
+}
+
+// errFound stops eachField at the first field wireField looks for.
+var errFound = errors.New("found")
+
+// eachField calls f with the value's bytes of every field num of type typ
+// in a message's bytes, in order: a repeated field's elements.
+func eachField(m []byte, num protowire.Number, typ protowire.Type, f func([]byte) error) error {
 	for len(m) > 0 {
 		n, t, l := protowire.ConsumeTag(m)
 		if l < 0 {
-			return nil, false, protowire.ParseError(l)
+			return protowire.ParseError(l)
 		}
 		m = m[l:]
 		vl := protowire.ConsumeFieldValue(n, t, m)
 		if vl < 0 {
-			return nil, false, protowire.ParseError(vl)
+			return protowire.ParseError(vl)
 		}
 		if n == num && t == typ {
+			v := m[:vl]
 			if t == protowire.BytesType {
-				v, _ := protowire.ConsumeBytes(m)
-				return v, true, nil
+				v, _ = protowire.ConsumeBytes(m)
 			}
-			return m[:vl], true, nil
+			if err := f(v); err != nil {
+				return err
+			}
 		}
 		m = m[vl:]
 	}
-	return nil, false, nil
+	return nil
 }

@@ -297,7 +297,8 @@ func printRoom(ctx context.Context, w io.Writer, in rpcpb.InstructorServiceClien
 				for _, b := range snap.Benches {
 					states[b.Bench.BenchId] = b
 				}
-			} else if b := ev.GetBench(); b != nil {
+			}
+			for _, b := range ev.GetChanges().GetBenches() {
 				states[b.Bench.BenchId] = b
 			}
 			mu.Unlock()

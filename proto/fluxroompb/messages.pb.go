@@ -3088,7 +3088,7 @@ func (x *WatchRoomRequest) GetSessionId() uint64 {
 }
 
 // WatchRoomResponse is one event on the room stream: a snapshot first, then
-// one bench at a time as it changes.
+// the room's changes as they happen.
 type WatchRoomResponse struct {
 	state protoimpl.MessageState `protogen:"open.v1"`
 	// Increases by one per event on this stream; a gap means a lost event.
@@ -3096,8 +3096,7 @@ type WatchRoomResponse struct {
 	// Types that are valid to be assigned to Event:
 	//
 	//	*WatchRoomResponse_Snapshot
-	//	*WatchRoomResponse_Bench
-	//	*WatchRoomResponse_Findings
+	//	*WatchRoomResponse_Changes
 	Event         isWatchRoomResponse_Event `protobuf_oneof:"event"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -3156,19 +3155,10 @@ func (x *WatchRoomResponse) GetSnapshot() *RoomSnapshot {
 	return nil
 }
 
-func (x *WatchRoomResponse) GetBench() *BenchState {
+func (x *WatchRoomResponse) GetChanges() *RoomChanges {
 	if x != nil {
-		if x, ok := x.Event.(*WatchRoomResponse_Bench); ok {
-			return x.Bench
-		}
-	}
-	return nil
-}
-
-func (x *WatchRoomResponse) GetFindings() *RoomFindings {
-	if x != nil {
-		if x, ok := x.Event.(*WatchRoomResponse_Findings); ok {
-			return x.Findings
+		if x, ok := x.Event.(*WatchRoomResponse_Changes); ok {
+			return x.Changes
 		}
 	}
 	return nil
@@ -3182,19 +3172,70 @@ type WatchRoomResponse_Snapshot struct {
 	Snapshot *RoomSnapshot `protobuf:"bytes,2,opt,name=snapshot,proto3,oneof"`
 }
 
-type WatchRoomResponse_Bench struct {
-	Bench *BenchState `protobuf:"bytes,3,opt,name=bench,proto3,oneof"`
-}
-
-type WatchRoomResponse_Findings struct {
-	Findings *RoomFindings `protobuf:"bytes,4,opt,name=findings,proto3,oneof"`
+type WatchRoomResponse_Changes struct {
+	Changes *RoomChanges `protobuf:"bytes,5,opt,name=changes,proto3,oneof"`
 }
 
 func (*WatchRoomResponse_Snapshot) isWatchRoomResponse_Event() {}
 
-func (*WatchRoomResponse_Bench) isWatchRoomResponse_Event() {}
+func (*WatchRoomResponse_Changes) isWatchRoomResponse_Event() {}
 
-func (*WatchRoomResponse_Findings) isWatchRoomResponse_Event() {}
+// RoomChanges is what changed in a room since the stream's previous event:
+// the new state of each bench that changed, and the room's findings when
+// they did. A watcher that fell behind gets each bench's newest state only,
+// not every step in between.
+type RoomChanges struct {
+	state   protoimpl.MessageState `protogen:"open.v1"`
+	Benches []*BenchState          `protobuf:"bytes,1,rep,name=benches,proto3" json:"benches,omitempty"`
+	// Unset when the findings did not change.
+	Findings      *RoomFindings `protobuf:"bytes,2,opt,name=findings,proto3" json:"findings,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *RoomChanges) Reset() {
+	*x = RoomChanges{}
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *RoomChanges) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*RoomChanges) ProtoMessage() {}
+
+func (x *RoomChanges) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use RoomChanges.ProtoReflect.Descriptor instead.
+func (*RoomChanges) Descriptor() ([]byte, []int) {
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{42}
+}
+
+func (x *RoomChanges) GetBenches() []*BenchState {
+	if x != nil {
+		return x.Benches
+	}
+	return nil
+}
+
+func (x *RoomChanges) GetFindings() *RoomFindings {
+	if x != nil {
+		return x.Findings
+	}
+	return nil
+}
 
 type GetBenchDetailRequest struct {
 	state         protoimpl.MessageState `protogen:"open.v1"`
@@ -3206,7 +3247,7 @@ type GetBenchDetailRequest struct {
 
 func (x *GetBenchDetailRequest) Reset() {
 	*x = GetBenchDetailRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3218,7 +3259,7 @@ func (x *GetBenchDetailRequest) String() string {
 func (*GetBenchDetailRequest) ProtoMessage() {}
 
 func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[42]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3231,7 +3272,7 @@ func (x *GetBenchDetailRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailRequest.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{42}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{43}
 }
 
 func (x *GetBenchDetailRequest) GetSessionId() uint64 {
@@ -3257,7 +3298,7 @@ type GetBenchDetailResponse struct {
 
 func (x *GetBenchDetailResponse) Reset() {
 	*x = GetBenchDetailResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3269,7 +3310,7 @@ func (x *GetBenchDetailResponse) String() string {
 func (*GetBenchDetailResponse) ProtoMessage() {}
 
 func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[43]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3282,7 +3323,7 @@ func (x *GetBenchDetailResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use GetBenchDetailResponse.ProtoReflect.Descriptor instead.
 func (*GetBenchDetailResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{43}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{44}
 }
 
 func (x *GetBenchDetailResponse) GetDetail() *BenchDetail {
@@ -3303,7 +3344,7 @@ type SetGradingPolicyRequest struct {
 
 func (x *SetGradingPolicyRequest) Reset() {
 	*x = SetGradingPolicyRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3315,7 +3356,7 @@ func (x *SetGradingPolicyRequest) String() string {
 func (*SetGradingPolicyRequest) ProtoMessage() {}
 
 func (x *SetGradingPolicyRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[44]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3328,7 +3369,7 @@ func (x *SetGradingPolicyRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGradingPolicyRequest.ProtoReflect.Descriptor instead.
 func (*SetGradingPolicyRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{44}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{45}
 }
 
 func (x *SetGradingPolicyRequest) GetSessionId() uint64 {
@@ -3354,7 +3395,7 @@ type SetGradingPolicyResponse struct {
 
 func (x *SetGradingPolicyResponse) Reset() {
 	*x = SetGradingPolicyResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3366,7 +3407,7 @@ func (x *SetGradingPolicyResponse) String() string {
 func (*SetGradingPolicyResponse) ProtoMessage() {}
 
 func (x *SetGradingPolicyResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[45]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3379,7 +3420,7 @@ func (x *SetGradingPolicyResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGradingPolicyResponse.ProtoReflect.Descriptor instead.
 func (*SetGradingPolicyResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{45}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{46}
 }
 
 func (x *SetGradingPolicyResponse) GetSession() *Session {
@@ -3403,7 +3444,7 @@ type OverrideGradeRequest struct {
 
 func (x *OverrideGradeRequest) Reset() {
 	*x = OverrideGradeRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3415,7 +3456,7 @@ func (x *OverrideGradeRequest) String() string {
 func (*OverrideGradeRequest) ProtoMessage() {}
 
 func (x *OverrideGradeRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[46]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3428,7 +3469,7 @@ func (x *OverrideGradeRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use OverrideGradeRequest.ProtoReflect.Descriptor instead.
 func (*OverrideGradeRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{46}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{47}
 }
 
 func (x *OverrideGradeRequest) GetSessionId() uint64 {
@@ -3475,7 +3516,7 @@ type OverrideGradeResponse struct {
 
 func (x *OverrideGradeResponse) Reset() {
 	*x = OverrideGradeResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3487,7 +3528,7 @@ func (x *OverrideGradeResponse) String() string {
 func (*OverrideGradeResponse) ProtoMessage() {}
 
 func (x *OverrideGradeResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[47]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3500,7 +3541,7 @@ func (x *OverrideGradeResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use OverrideGradeResponse.ProtoReflect.Descriptor instead.
 func (*OverrideGradeResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{47}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{48}
 }
 
 func (x *OverrideGradeResponse) GetNote() *Note {
@@ -3520,7 +3561,7 @@ type ExportRequest struct {
 
 func (x *ExportRequest) Reset() {
 	*x = ExportRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3532,7 +3573,7 @@ func (x *ExportRequest) String() string {
 func (*ExportRequest) ProtoMessage() {}
 
 func (x *ExportRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[48]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3545,7 +3586,7 @@ func (x *ExportRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportRequest.ProtoReflect.Descriptor instead.
 func (*ExportRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{48}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{49}
 }
 
 func (x *ExportRequest) GetSessionId() uint64 {
@@ -3573,7 +3614,7 @@ type ExportResponse struct {
 
 func (x *ExportResponse) Reset() {
 	*x = ExportResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3585,7 +3626,7 @@ func (x *ExportResponse) String() string {
 func (*ExportResponse) ProtoMessage() {}
 
 func (x *ExportResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[49]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3598,7 +3639,7 @@ func (x *ExportResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ExportResponse.ProtoReflect.Descriptor instead.
 func (*ExportResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{49}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{50}
 }
 
 func (x *ExportResponse) GetFilename() string {
@@ -3630,7 +3671,7 @@ type BackupRequest struct {
 
 func (x *BackupRequest) Reset() {
 	*x = BackupRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3642,7 +3683,7 @@ func (x *BackupRequest) String() string {
 func (*BackupRequest) ProtoMessage() {}
 
 func (x *BackupRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[50]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3655,7 +3696,7 @@ func (x *BackupRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BackupRequest.ProtoReflect.Descriptor instead.
 func (*BackupRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{50}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{51}
 }
 
 // BackupChunk is a piece of a consistent copy of the database file.
@@ -3670,7 +3711,7 @@ type BackupChunk struct {
 
 func (x *BackupChunk) Reset() {
 	*x = BackupChunk{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3682,7 +3723,7 @@ func (x *BackupChunk) String() string {
 func (*BackupChunk) ProtoMessage() {}
 
 func (x *BackupChunk) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[51]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3695,7 +3736,7 @@ func (x *BackupChunk) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use BackupChunk.ProtoReflect.Descriptor instead.
 func (*BackupChunk) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{51}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{52}
 }
 
 func (x *BackupChunk) GetData() []byte {
@@ -3724,7 +3765,7 @@ type SetGroupMembersRequest struct {
 
 func (x *SetGroupMembersRequest) Reset() {
 	*x = SetGroupMembersRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3736,7 +3777,7 @@ func (x *SetGroupMembersRequest) String() string {
 func (*SetGroupMembersRequest) ProtoMessage() {}
 
 func (x *SetGroupMembersRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[52]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3749,7 +3790,7 @@ func (x *SetGroupMembersRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGroupMembersRequest.ProtoReflect.Descriptor instead.
 func (*SetGroupMembersRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{52}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{53}
 }
 
 func (x *SetGroupMembersRequest) GetSessionId() uint64 {
@@ -3782,7 +3823,7 @@ type SetGroupMembersResponse struct {
 
 func (x *SetGroupMembersResponse) Reset() {
 	*x = SetGroupMembersResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3794,7 +3835,7 @@ func (x *SetGroupMembersResponse) String() string {
 func (*SetGroupMembersResponse) ProtoMessage() {}
 
 func (x *SetGroupMembersResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[53]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3807,7 +3848,7 @@ func (x *SetGroupMembersResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use SetGroupMembersResponse.ProtoReflect.Descriptor instead.
 func (*SetGroupMembersResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{53}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{54}
 }
 
 func (x *SetGroupMembersResponse) GetBench() *Bench {
@@ -3828,7 +3869,7 @@ type CourseRole struct {
 
 func (x *CourseRole) Reset() {
 	*x = CourseRole{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3840,7 +3881,7 @@ func (x *CourseRole) String() string {
 func (*CourseRole) ProtoMessage() {}
 
 func (x *CourseRole) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[54]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3853,7 +3894,7 @@ func (x *CourseRole) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use CourseRole.ProtoReflect.Descriptor instead.
 func (*CourseRole) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{54}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{55}
 }
 
 func (x *CourseRole) GetCourse() string {
@@ -3885,7 +3926,7 @@ type StaffMember struct {
 
 func (x *StaffMember) Reset() {
 	*x = StaffMember{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3897,7 +3938,7 @@ func (x *StaffMember) String() string {
 func (*StaffMember) ProtoMessage() {}
 
 func (x *StaffMember) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[55]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3910,7 +3951,7 @@ func (x *StaffMember) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use StaffMember.ProtoReflect.Descriptor instead.
 func (*StaffMember) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{55}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{56}
 }
 
 func (x *StaffMember) GetStaffId() uint64 {
@@ -3958,7 +3999,7 @@ type AddStaffRequest struct {
 
 func (x *AddStaffRequest) Reset() {
 	*x = AddStaffRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -3970,7 +4011,7 @@ func (x *AddStaffRequest) String() string {
 func (*AddStaffRequest) ProtoMessage() {}
 
 func (x *AddStaffRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[56]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -3983,7 +4024,7 @@ func (x *AddStaffRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddStaffRequest.ProtoReflect.Descriptor instead.
 func (*AddStaffRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{56}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{57}
 }
 
 func (x *AddStaffRequest) GetName() string {
@@ -4011,7 +4052,7 @@ type AddStaffResponse struct {
 
 func (x *AddStaffResponse) Reset() {
 	*x = AddStaffResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4023,7 +4064,7 @@ func (x *AddStaffResponse) String() string {
 func (*AddStaffResponse) ProtoMessage() {}
 
 func (x *AddStaffResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[57]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4036,7 +4077,7 @@ func (x *AddStaffResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use AddStaffResponse.ProtoReflect.Descriptor instead.
 func (*AddStaffResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{57}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{58}
 }
 
 func (x *AddStaffResponse) GetStaff() *StaffMember {
@@ -4061,7 +4102,7 @@ type ListStaffRequest struct {
 
 func (x *ListStaffRequest) Reset() {
 	*x = ListStaffRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4073,7 +4114,7 @@ func (x *ListStaffRequest) String() string {
 func (*ListStaffRequest) ProtoMessage() {}
 
 func (x *ListStaffRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[58]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4086,7 +4127,7 @@ func (x *ListStaffRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListStaffRequest.ProtoReflect.Descriptor instead.
 func (*ListStaffRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{58}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{59}
 }
 
 type ListStaffResponse struct {
@@ -4098,7 +4139,7 @@ type ListStaffResponse struct {
 
 func (x *ListStaffResponse) Reset() {
 	*x = ListStaffResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4110,7 +4151,7 @@ func (x *ListStaffResponse) String() string {
 func (*ListStaffResponse) ProtoMessage() {}
 
 func (x *ListStaffResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[59]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4123,7 +4164,7 @@ func (x *ListStaffResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use ListStaffResponse.ProtoReflect.Descriptor instead.
 func (*ListStaffResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{59}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{60}
 }
 
 func (x *ListStaffResponse) GetStaff() []*StaffMember {
@@ -4146,7 +4187,7 @@ type RevokeStaffRequest struct {
 
 func (x *RevokeStaffRequest) Reset() {
 	*x = RevokeStaffRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4158,7 +4199,7 @@ func (x *RevokeStaffRequest) String() string {
 func (*RevokeStaffRequest) ProtoMessage() {}
 
 func (x *RevokeStaffRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[60]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4171,7 +4212,7 @@ func (x *RevokeStaffRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RevokeStaffRequest.ProtoReflect.Descriptor instead.
 func (*RevokeStaffRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{60}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{61}
 }
 
 func (x *RevokeStaffRequest) GetStaffId() uint64 {
@@ -4197,7 +4238,7 @@ type RevokeStaffResponse struct {
 
 func (x *RevokeStaffResponse) Reset() {
 	*x = RevokeStaffResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4209,7 +4250,7 @@ func (x *RevokeStaffResponse) String() string {
 func (*RevokeStaffResponse) ProtoMessage() {}
 
 func (x *RevokeStaffResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[61]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4222,7 +4263,7 @@ func (x *RevokeStaffResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RevokeStaffResponse.ProtoReflect.Descriptor instead.
 func (*RevokeStaffResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{61}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{62}
 }
 
 func (x *RevokeStaffResponse) GetStaff() *StaffMember {
@@ -4241,7 +4282,7 @@ type RotateStaffKeyRequest struct {
 
 func (x *RotateStaffKeyRequest) Reset() {
 	*x = RotateStaffKeyRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4253,7 +4294,7 @@ func (x *RotateStaffKeyRequest) String() string {
 func (*RotateStaffKeyRequest) ProtoMessage() {}
 
 func (x *RotateStaffKeyRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[62]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4266,7 +4307,7 @@ func (x *RotateStaffKeyRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RotateStaffKeyRequest.ProtoReflect.Descriptor instead.
 func (*RotateStaffKeyRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{62}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{63}
 }
 
 func (x *RotateStaffKeyRequest) GetStaffId() uint64 {
@@ -4287,7 +4328,7 @@ type RotateStaffKeyResponse struct {
 
 func (x *RotateStaffKeyResponse) Reset() {
 	*x = RotateStaffKeyResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4299,7 +4340,7 @@ func (x *RotateStaffKeyResponse) String() string {
 func (*RotateStaffKeyResponse) ProtoMessage() {}
 
 func (x *RotateStaffKeyResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[63]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4312,7 +4353,7 @@ func (x *RotateStaffKeyResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use RotateStaffKeyResponse.ProtoReflect.Descriptor instead.
 func (*RotateStaffKeyResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{63}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{64}
 }
 
 func (x *RotateStaffKeyResponse) GetStaff() *StaffMember {
@@ -4337,7 +4378,7 @@ type WhoAmIRequest struct {
 
 func (x *WhoAmIRequest) Reset() {
 	*x = WhoAmIRequest{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4349,7 +4390,7 @@ func (x *WhoAmIRequest) String() string {
 func (*WhoAmIRequest) ProtoMessage() {}
 
 func (x *WhoAmIRequest) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[64]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4362,7 +4403,7 @@ func (x *WhoAmIRequest) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WhoAmIRequest.ProtoReflect.Descriptor instead.
 func (*WhoAmIRequest) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{64}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{65}
 }
 
 // WhoAmIResponse is the caller as the server knows it.
@@ -4379,7 +4420,7 @@ type WhoAmIResponse struct {
 
 func (x *WhoAmIResponse) Reset() {
 	*x = WhoAmIResponse{}
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[66]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -4391,7 +4432,7 @@ func (x *WhoAmIResponse) String() string {
 func (*WhoAmIResponse) ProtoMessage() {}
 
 func (x *WhoAmIResponse) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_v1_messages_proto_msgTypes[65]
+	mi := &file_fluxroom_v1_messages_proto_msgTypes[66]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -4404,7 +4445,7 @@ func (x *WhoAmIResponse) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use WhoAmIResponse.ProtoReflect.Descriptor instead.
 func (*WhoAmIResponse) Descriptor() ([]byte, []int) {
-	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{65}
+	return file_fluxroom_v1_messages_proto_rawDescGZIP(), []int{66}
 }
 
 func (x *WhoAmIResponse) GetName() string {
@@ -4684,13 +4725,15 @@ const file_fluxroom_v1_messages_proto_rawDesc = "" +
 	"\abenches\x18\x01 \x03(\v2\x12.fluxroom.v1.BenchR\abenches\"1\n" +
 	"\x10WatchRoomRequest\x12\x1d\n" +
 	"\n" +
-	"session_id\x18\x01 \x01(\x04R\tsessionId\"\xdb\x01\n" +
+	"session_id\x18\x01 \x01(\x04R\tsessionId\"\xc4\x01\n" +
 	"\x11WatchRoomResponse\x12\x1a\n" +
 	"\bsequence\x18\x01 \x01(\x04R\bsequence\x127\n" +
-	"\bsnapshot\x18\x02 \x01(\v2\x19.fluxroom.v1.RoomSnapshotH\x00R\bsnapshot\x12/\n" +
-	"\x05bench\x18\x03 \x01(\v2\x17.fluxroom.v1.BenchStateH\x00R\x05bench\x127\n" +
-	"\bfindings\x18\x04 \x01(\v2\x19.fluxroom.v1.RoomFindingsH\x00R\bfindingsB\a\n" +
-	"\x05event\"Q\n" +
+	"\bsnapshot\x18\x02 \x01(\v2\x19.fluxroom.v1.RoomSnapshotH\x00R\bsnapshot\x124\n" +
+	"\achanges\x18\x05 \x01(\v2\x18.fluxroom.v1.RoomChangesH\x00R\achangesB\a\n" +
+	"\x05eventJ\x04\b\x03\x10\x04J\x04\b\x04\x10\x05R\x05benchR\bfindings\"w\n" +
+	"\vRoomChanges\x121\n" +
+	"\abenches\x18\x01 \x03(\v2\x17.fluxroom.v1.BenchStateR\abenches\x125\n" +
+	"\bfindings\x18\x02 \x01(\v2\x19.fluxroom.v1.RoomFindingsR\bfindings\"Q\n" +
 	"\x15GetBenchDetailRequest\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x19\n" +
@@ -4801,7 +4844,7 @@ func file_fluxroom_v1_messages_proto_rawDescGZIP() []byte {
 }
 
 var file_fluxroom_v1_messages_proto_enumTypes = make([]protoimpl.EnumInfo, 3)
-var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 69)
+var file_fluxroom_v1_messages_proto_msgTypes = make([]protoimpl.MessageInfo, 70)
 var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(Verdict)(0),                     // 0: fluxroom.v1.Verdict
 	(ExportFormat)(0),                // 1: fluxroom.v1.ExportFormat
@@ -4848,49 +4891,50 @@ var file_fluxroom_v1_messages_proto_goTypes = []any{
 	(*SetBenchesResponse)(nil),       // 42: fluxroom.v1.SetBenchesResponse
 	(*WatchRoomRequest)(nil),         // 43: fluxroom.v1.WatchRoomRequest
 	(*WatchRoomResponse)(nil),        // 44: fluxroom.v1.WatchRoomResponse
-	(*GetBenchDetailRequest)(nil),    // 45: fluxroom.v1.GetBenchDetailRequest
-	(*GetBenchDetailResponse)(nil),   // 46: fluxroom.v1.GetBenchDetailResponse
-	(*SetGradingPolicyRequest)(nil),  // 47: fluxroom.v1.SetGradingPolicyRequest
-	(*SetGradingPolicyResponse)(nil), // 48: fluxroom.v1.SetGradingPolicyResponse
-	(*OverrideGradeRequest)(nil),     // 49: fluxroom.v1.OverrideGradeRequest
-	(*OverrideGradeResponse)(nil),    // 50: fluxroom.v1.OverrideGradeResponse
-	(*ExportRequest)(nil),            // 51: fluxroom.v1.ExportRequest
-	(*ExportResponse)(nil),           // 52: fluxroom.v1.ExportResponse
-	(*BackupRequest)(nil),            // 53: fluxroom.v1.BackupRequest
-	(*BackupChunk)(nil),              // 54: fluxroom.v1.BackupChunk
-	(*SetGroupMembersRequest)(nil),   // 55: fluxroom.v1.SetGroupMembersRequest
-	(*SetGroupMembersResponse)(nil),  // 56: fluxroom.v1.SetGroupMembersResponse
-	(*CourseRole)(nil),               // 57: fluxroom.v1.CourseRole
-	(*StaffMember)(nil),              // 58: fluxroom.v1.StaffMember
-	(*AddStaffRequest)(nil),          // 59: fluxroom.v1.AddStaffRequest
-	(*AddStaffResponse)(nil),         // 60: fluxroom.v1.AddStaffResponse
-	(*ListStaffRequest)(nil),         // 61: fluxroom.v1.ListStaffRequest
-	(*ListStaffResponse)(nil),        // 62: fluxroom.v1.ListStaffResponse
-	(*RevokeStaffRequest)(nil),       // 63: fluxroom.v1.RevokeStaffRequest
-	(*RevokeStaffResponse)(nil),      // 64: fluxroom.v1.RevokeStaffResponse
-	(*RotateStaffKeyRequest)(nil),    // 65: fluxroom.v1.RotateStaffKeyRequest
-	(*RotateStaffKeyResponse)(nil),   // 66: fluxroom.v1.RotateStaffKeyResponse
-	(*WhoAmIRequest)(nil),            // 67: fluxroom.v1.WhoAmIRequest
-	(*WhoAmIResponse)(nil),           // 68: fluxroom.v1.WhoAmIResponse
-	nil,                              // 69: fluxroom.v1.Bench.ConstantsEntry
-	nil,                              // 70: fluxroom.v1.Reading.ValuesEntry
-	nil,                              // 71: fluxroom.v1.SubmitReadingRequest.ValuesEntry
-	(*timestamppb.Timestamp)(nil),    // 72: google.protobuf.Timestamp
+	(*RoomChanges)(nil),              // 45: fluxroom.v1.RoomChanges
+	(*GetBenchDetailRequest)(nil),    // 46: fluxroom.v1.GetBenchDetailRequest
+	(*GetBenchDetailResponse)(nil),   // 47: fluxroom.v1.GetBenchDetailResponse
+	(*SetGradingPolicyRequest)(nil),  // 48: fluxroom.v1.SetGradingPolicyRequest
+	(*SetGradingPolicyResponse)(nil), // 49: fluxroom.v1.SetGradingPolicyResponse
+	(*OverrideGradeRequest)(nil),     // 50: fluxroom.v1.OverrideGradeRequest
+	(*OverrideGradeResponse)(nil),    // 51: fluxroom.v1.OverrideGradeResponse
+	(*ExportRequest)(nil),            // 52: fluxroom.v1.ExportRequest
+	(*ExportResponse)(nil),           // 53: fluxroom.v1.ExportResponse
+	(*BackupRequest)(nil),            // 54: fluxroom.v1.BackupRequest
+	(*BackupChunk)(nil),              // 55: fluxroom.v1.BackupChunk
+	(*SetGroupMembersRequest)(nil),   // 56: fluxroom.v1.SetGroupMembersRequest
+	(*SetGroupMembersResponse)(nil),  // 57: fluxroom.v1.SetGroupMembersResponse
+	(*CourseRole)(nil),               // 58: fluxroom.v1.CourseRole
+	(*StaffMember)(nil),              // 59: fluxroom.v1.StaffMember
+	(*AddStaffRequest)(nil),          // 60: fluxroom.v1.AddStaffRequest
+	(*AddStaffResponse)(nil),         // 61: fluxroom.v1.AddStaffResponse
+	(*ListStaffRequest)(nil),         // 62: fluxroom.v1.ListStaffRequest
+	(*ListStaffResponse)(nil),        // 63: fluxroom.v1.ListStaffResponse
+	(*RevokeStaffRequest)(nil),       // 64: fluxroom.v1.RevokeStaffRequest
+	(*RevokeStaffResponse)(nil),      // 65: fluxroom.v1.RevokeStaffResponse
+	(*RotateStaffKeyRequest)(nil),    // 66: fluxroom.v1.RotateStaffKeyRequest
+	(*RotateStaffKeyResponse)(nil),   // 67: fluxroom.v1.RotateStaffKeyResponse
+	(*WhoAmIRequest)(nil),            // 68: fluxroom.v1.WhoAmIRequest
+	(*WhoAmIResponse)(nil),           // 69: fluxroom.v1.WhoAmIResponse
+	nil,                              // 70: fluxroom.v1.Bench.ConstantsEntry
+	nil,                              // 71: fluxroom.v1.Reading.ValuesEntry
+	nil,                              // 72: fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	(*timestamppb.Timestamp)(nil),    // 73: google.protobuf.Timestamp
 }
 var file_fluxroom_v1_messages_proto_depIdxs = []int32{
-	72, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
+	73, // 0: fluxroom.v1.Session.created_at:type_name -> google.protobuf.Timestamp
 	5,  // 1: fluxroom.v1.Session.tolerance:type_name -> fluxroom.v1.Tolerance
 	6,  // 2: fluxroom.v1.ExperimentSpec.constants:type_name -> fluxroom.v1.QuantitySpec
 	6,  // 3: fluxroom.v1.ExperimentSpec.values:type_name -> fluxroom.v1.QuantitySpec
-	72, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
-	69, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
-	70, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
-	72, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
+	73, // 4: fluxroom.v1.Note.at:type_name -> google.protobuf.Timestamp
+	70, // 5: fluxroom.v1.Bench.constants:type_name -> fluxroom.v1.Bench.ConstantsEntry
+	71, // 6: fluxroom.v1.Reading.values:type_name -> fluxroom.v1.Reading.ValuesEntry
+	73, // 7: fluxroom.v1.Reading.received_at:type_name -> google.protobuf.Timestamp
 	13, // 8: fluxroom.v1.RoomFindings.findings:type_name -> fluxroom.v1.RoomFinding
 	9,  // 9: fluxroom.v1.BenchState.bench:type_name -> fluxroom.v1.Bench
 	0,  // 10: fluxroom.v1.BenchState.verdict:type_name -> fluxroom.v1.Verdict
 	11, // 11: fluxroom.v1.BenchState.diagnoses:type_name -> fluxroom.v1.Diagnosis
-	72, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
+	73, // 12: fluxroom.v1.BenchState.last_reading_at:type_name -> google.protobuf.Timestamp
 	3,  // 13: fluxroom.v1.BenchState.measured:type_name -> fluxroom.v1.Quantity
 	3,  // 14: fluxroom.v1.BenchState.predicted:type_name -> fluxroom.v1.Quantity
 	12, // 15: fluxroom.v1.BenchState.budget:type_name -> fluxroom.v1.BudgetItem
@@ -4909,7 +4953,7 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	13, // 28: fluxroom.v1.RoomSnapshot.findings:type_name -> fluxroom.v1.RoomFinding
 	9,  // 29: fluxroom.v1.JoinBenchResponse.bench:type_name -> fluxroom.v1.Bench
 	4,  // 30: fluxroom.v1.CloseSessionResponse.session:type_name -> fluxroom.v1.Session
-	71, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
+	72, // 31: fluxroom.v1.SubmitReadingRequest.values:type_name -> fluxroom.v1.SubmitReadingRequest.ValuesEntry
 	10, // 32: fluxroom.v1.SubmitReadingResponse.reading:type_name -> fluxroom.v1.Reading
 	16, // 33: fluxroom.v1.GetBenchStateResponse.state:type_name -> fluxroom.v1.BenchState
 	10, // 34: fluxroom.v1.GetBenchStateResponse.readings:type_name -> fluxroom.v1.Reading
@@ -4925,30 +4969,31 @@ var file_fluxroom_v1_messages_proto_depIdxs = []int32{
 	9,  // 44: fluxroom.v1.SetBenchesRequest.benches:type_name -> fluxroom.v1.Bench
 	9,  // 45: fluxroom.v1.SetBenchesResponse.benches:type_name -> fluxroom.v1.Bench
 	20, // 46: fluxroom.v1.WatchRoomResponse.snapshot:type_name -> fluxroom.v1.RoomSnapshot
-	16, // 47: fluxroom.v1.WatchRoomResponse.bench:type_name -> fluxroom.v1.BenchState
-	14, // 48: fluxroom.v1.WatchRoomResponse.findings:type_name -> fluxroom.v1.RoomFindings
-	17, // 49: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
-	4,  // 50: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
-	8,  // 51: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
-	1,  // 52: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
-	9,  // 53: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
-	2,  // 54: fluxroom.v1.CourseRole.role:type_name -> fluxroom.v1.StaffRole
-	57, // 55: fluxroom.v1.StaffMember.roles:type_name -> fluxroom.v1.CourseRole
-	72, // 56: fluxroom.v1.StaffMember.created_at:type_name -> google.protobuf.Timestamp
-	57, // 57: fluxroom.v1.AddStaffRequest.roles:type_name -> fluxroom.v1.CourseRole
-	58, // 58: fluxroom.v1.AddStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
-	58, // 59: fluxroom.v1.ListStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
-	58, // 60: fluxroom.v1.RevokeStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
-	58, // 61: fluxroom.v1.RotateStaffKeyResponse.staff:type_name -> fluxroom.v1.StaffMember
-	57, // 62: fluxroom.v1.WhoAmIResponse.roles:type_name -> fluxroom.v1.CourseRole
-	3,  // 63: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
-	3,  // 64: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	3,  // 65: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
-	66, // [66:66] is the sub-list for method output_type
-	66, // [66:66] is the sub-list for method input_type
-	66, // [66:66] is the sub-list for extension type_name
-	66, // [66:66] is the sub-list for extension extendee
-	0,  // [0:66] is the sub-list for field type_name
+	45, // 47: fluxroom.v1.WatchRoomResponse.changes:type_name -> fluxroom.v1.RoomChanges
+	16, // 48: fluxroom.v1.RoomChanges.benches:type_name -> fluxroom.v1.BenchState
+	14, // 49: fluxroom.v1.RoomChanges.findings:type_name -> fluxroom.v1.RoomFindings
+	17, // 50: fluxroom.v1.GetBenchDetailResponse.detail:type_name -> fluxroom.v1.BenchDetail
+	4,  // 51: fluxroom.v1.SetGradingPolicyResponse.session:type_name -> fluxroom.v1.Session
+	8,  // 52: fluxroom.v1.OverrideGradeResponse.note:type_name -> fluxroom.v1.Note
+	1,  // 53: fluxroom.v1.ExportRequest.format:type_name -> fluxroom.v1.ExportFormat
+	9,  // 54: fluxroom.v1.SetGroupMembersResponse.bench:type_name -> fluxroom.v1.Bench
+	2,  // 55: fluxroom.v1.CourseRole.role:type_name -> fluxroom.v1.StaffRole
+	58, // 56: fluxroom.v1.StaffMember.roles:type_name -> fluxroom.v1.CourseRole
+	73, // 57: fluxroom.v1.StaffMember.created_at:type_name -> google.protobuf.Timestamp
+	58, // 58: fluxroom.v1.AddStaffRequest.roles:type_name -> fluxroom.v1.CourseRole
+	59, // 59: fluxroom.v1.AddStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	59, // 60: fluxroom.v1.ListStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	59, // 61: fluxroom.v1.RevokeStaffResponse.staff:type_name -> fluxroom.v1.StaffMember
+	59, // 62: fluxroom.v1.RotateStaffKeyResponse.staff:type_name -> fluxroom.v1.StaffMember
+	58, // 63: fluxroom.v1.WhoAmIResponse.roles:type_name -> fluxroom.v1.CourseRole
+	3,  // 64: fluxroom.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.v1.Quantity
+	3,  // 65: fluxroom.v1.Reading.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	3,  // 66: fluxroom.v1.SubmitReadingRequest.ValuesEntry.value:type_name -> fluxroom.v1.Quantity
+	67, // [67:67] is the sub-list for method output_type
+	67, // [67:67] is the sub-list for method input_type
+	67, // [67:67] is the sub-list for extension type_name
+	67, // [67:67] is the sub-list for extension extendee
+	0,  // [0:67] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_v1_messages_proto_init() }
@@ -4958,8 +5003,7 @@ func file_fluxroom_v1_messages_proto_init() {
 	}
 	file_fluxroom_v1_messages_proto_msgTypes[41].OneofWrappers = []any{
 		(*WatchRoomResponse_Snapshot)(nil),
-		(*WatchRoomResponse_Bench)(nil),
-		(*WatchRoomResponse_Findings)(nil),
+		(*WatchRoomResponse_Changes)(nil),
 	}
 	type x struct{}
 	out := protoimpl.TypeBuilder{
@@ -4967,7 +5011,7 @@ func file_fluxroom_v1_messages_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_v1_messages_proto_rawDesc), len(file_fluxroom_v1_messages_proto_rawDesc)),
 			NumEnums:      3,
-			NumMessages:   69,
+			NumMessages:   70,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
