@@ -9,6 +9,7 @@ import (
 	"slices"
 	"sort"
 	"strings"
+	"time"
 
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
@@ -193,26 +194,42 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	if err := stream.Send(&pb.WatchRoomResponse{Sequence: seq, Event: &pb.WatchRoomResponse_Snapshot{Snapshot: snap}}); err != nil {
 		return err
 	}
+	sent := time.Now()
+	pace := time.NewTimer(0)
+	defer pace.Stop()
 	for {
 		select {
 		case <-stream.Context().Done():
 			return streamEnded(stream.Context())
 		case <-w.gone:
-			return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
+			return errWatcherGone
 		case <-w.ready:
-			// Everything that changed since the last send goes in one
-			// message: a busy room costs a stream one write per wake-up.
-			evs := w.take()
-			if len(evs) == 0 {
-				continue
-			}
-			seq++
-			if err := stream.SendMsg(sequenced{seq: seq, evs: evs}); err != nil {
-				return err
+		}
+		// At most one message per watchEvery: what changes meanwhile
+		// waits and goes in the same message.
+		if wait := s.watchEvery - time.Since(sent); wait > 0 {
+			pace.Reset(wait)
+			select {
+			case <-stream.Context().Done():
+				return streamEnded(stream.Context())
+			case <-w.gone:
+				return errWatcherGone
+			case <-pace.C:
 			}
 		}
+		evs := w.take()
+		if len(evs) == 0 {
+			continue
+		}
+		seq++
+		if err := stream.SendMsg(sequenced{seq: seq, evs: evs}); err != nil {
+			return err
+		}
+		sent = time.Now()
 	}
 }
+
+var errWatcherGone = status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
 
 // GetBenchDetail is everything known about one bench: its judged state, readings (corrections kept),
 // fit, plot and notes.

@@ -95,3 +95,60 @@ func TestRoomChangesComeInOneMessage(t *testing.T) {
 		t.Errorf("first event after the snapshot: sequence %d, benches %v; want sequence 2 with %v", ev.Sequence, got, want)
 	}
 }
+
+// A room stream sends at most one message per WatchEvery: the first change
+// after a quiet spell goes at once, and changes that come sooner wait and go
+// together in the next message.
+func TestRoomStreamPace(t *testing.T) {
+	const every = 600 * time.Millisecond
+	r := startRigWith(t, Config{WatchEvery: every})
+	ctx := context.Background()
+	sess, benches := setupRoom(t, r)
+	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sess.SessionId})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := stream.Recv(); err != nil {
+		t.Fatal(err)
+	}
+	a1, a2 := benches[0].BenchId, benches[1].BenchId
+	// Quiet for longer than the pace since the snapshot: A1's first
+	// reading goes at once.
+	time.Sleep(every)
+	start := time.Now()
+	if _, err := submit(ctx, r, sess.SessionId, a1, "a1-1", 1, 0.48); err != nil {
+		t.Fatal(err)
+	}
+	ev, err := stream.Recv()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if b := changedBench(ev, benchID(a1)); b == nil || time.Since(start) >= every {
+		t.Fatalf("after a quiet spell, A1's reading came %v later in %v; want it at once", time.Since(start), ev)
+	}
+	// A2 and A1 again, right after: one message, not before the pace.
+	if _, err := submit(ctx, r, sess.SessionId, a2, "a2-1", 1, 0.48); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := submit(ctx, r, sess.SessionId, a1, "a1-2", 2, 0.96); err != nil {
+		t.Fatal(err)
+	}
+	var counts [2]int32
+	for counts[0] < 2 || counts[1] < 1 {
+		ev, err := stream.Recv()
+		if err != nil {
+			t.Fatal(err)
+		}
+		if ev.Sequence != 3 {
+			t.Fatalf("A2's and A1's states came in more than one message (%d so far: %v)", ev.Sequence-2, counts)
+		}
+		for i, id := range []uint64{a1, a2} {
+			if b := changedBench(ev, benchID(id)); b != nil {
+				counts[i] = b.ReadingCount
+			}
+		}
+	}
+	if d := time.Since(start); d < every {
+		t.Errorf("the second message came %v after the first change, sooner than the pace %v", d, every)
+	}
+}

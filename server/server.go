@@ -49,6 +49,10 @@ type Config struct {
 	// last reading: then it leaves the cache (and its judge stops) until
 	// someone needs it again. Default 10 minutes.
 	RoomIdle time.Duration
+	// WatchEvery is the shortest time between two messages of one room
+	// stream: a change after a quiet spell goes at once, and changes that
+	// come sooner wait and go together. Default 50 ms.
+	WatchEvery time.Duration
 	// AdminKey, when set, is the administrator's credential (its hash is
 	// stored). When empty and none is stored, New makes one: ShownKey
 	// returns it, to be shown once.
@@ -84,10 +88,10 @@ type Server struct {
 	shown   string
 	metrics *metrics
 	grpc    *grpc.Server
-	// stallAfter, stallCheck and roomIdle: see Config.
-	stallAfter, stallCheck, roomIdle time.Duration
-	http                             *http.Server
-	health                           *health.Server
+	// stallAfter, stallCheck, roomIdle and watchEvery: see Config.
+	stallAfter, stallCheck, roomIdle, watchEvery time.Duration
+	http                                         *http.Server
+	health                                       *health.Server
 
 	// hooks are the test switches of a build with -tags failpoints
 	// (hooks.go); an empty struct otherwise (hooks_off.go).
@@ -163,6 +167,14 @@ func New(cfg Config) (*Server, error) {
 	}
 	if s.stallCheck == 0 {
 		s.stallCheck = min(15*time.Second, s.roomIdle/2)
+	}
+	// A browser redraws the room in 3–8 ms of its main thread (go test
+	// -bench DashboardRender ./cmd/fluxroom/): a tab sent every change of a
+	// busy room would spend it all on redraws, and the server a write per
+	// change per tab. Twenty messages a second are more than an eye follows.
+	s.watchEvery = cfg.WatchEvery
+	if s.watchEvery == 0 {
+		s.watchEvery = 50 * time.Millisecond
 	}
 	a, shown, err := setUpAuth(cfg.DB, cfg.AdminKey)
 	if err != nil {
