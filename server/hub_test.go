@@ -7,6 +7,7 @@ import (
 	"github.com/google/go-cmp/cmp"
 	"google.golang.org/protobuf/proto"
 
+	"example.com/fluxroom/domain"
 	pb "example.com/fluxroom/proto/fluxroompb"
 )
 
@@ -137,5 +138,26 @@ func TestHubDropsAWatcherTooFarBehind(t *testing.T) {
 	}
 	if n := h.watchersOf(7); n != 0 {
 		t.Errorf("the dropped watcher is still subscribed (%d)", n)
+	}
+}
+
+// A change to a whole room of a full grid's benches (20 × 20) at once keeps
+// its watchers: they are sent every bench's new state in one take.
+func TestHubKeepsAWatcherOfAFullGrid(t *testing.T) {
+	h := newHub()
+	w := h.subscribe(7)
+	states := make([]*pb.BenchState, domain.MaxGridRows*domain.MaxGridColumns)
+	for i := range states {
+		states[i] = benchState(uint64(i+1), 1)
+	}
+	h.publishBenches(7, states)
+	h.publishFindings(7, &pb.RoomFindings{})
+	select {
+	case <-w.gone:
+		t.Fatalf("dropped after a change to %d benches", len(states))
+	default:
+	}
+	if got := len(w.take()); got != len(states)+1 {
+		t.Errorf("took %d events, want %d", got, len(states)+1)
 	}
 }
