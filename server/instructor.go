@@ -11,6 +11,7 @@ import (
 	"strings"
 	"time"
 
+	"google.golang.org/grpc"
 	"google.golang.org/grpc/codes"
 	"google.golang.org/grpc/status"
 
@@ -198,23 +199,15 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	pace := time.NewTimer(0)
 	defer pace.Stop()
 	for {
-		select {
-		case <-stream.Context().Done():
-			return streamEnded(stream.Context())
-		case <-w.gone:
-			return errWatcherGone
-		case <-w.ready:
+		if err := awaitWatching(stream, w, w.ready); err != nil {
+			return err
 		}
 		// At most one message per watchEvery: what changes meanwhile
 		// waits and goes in the same message.
 		if wait := s.watchEvery - time.Since(sent); wait > 0 {
 			pace.Reset(wait)
-			select {
-			case <-stream.Context().Done():
-				return streamEnded(stream.Context())
-			case <-w.gone:
-				return errWatcherGone
-			case <-pace.C:
+			if err := awaitWatching(stream, w, pace.C); err != nil {
+				return err
 			}
 		}
 		evs := w.take()
@@ -229,7 +222,18 @@ func (in instructorService) WatchRoom(req *pb.WatchRoomRequest, stream rpcpb.Ins
 	}
 }
 
-var errWatcherGone = status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
+// awaitWatching waits for ch, unless the room stream ends first or the hub
+// drops its watcher: then it says why.
+func awaitWatching[T any](stream grpc.ServerStream, w *watcher, ch <-chan T) error {
+	select {
+	case <-stream.Context().Done():
+		return streamEnded(stream.Context())
+	case <-w.gone:
+		return status.Error(codes.Unavailable, "room stream ended (server stopping or watcher too slow); reconnect for a fresh snapshot")
+	case <-ch:
+		return nil
+	}
+}
 
 // GetBenchDetail is everything known about one bench: its judged state, readings (corrections kept),
 // fit, plot and notes.

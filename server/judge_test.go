@@ -35,13 +35,7 @@ func TestQuietRoomLeavesMemory(t *testing.T) {
 	if !gone() {
 		t.Fatal("the quiet room stayed in memory")
 	}
-	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sid})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := stream.Recv(); err != nil {
-		t.Fatal(err)
-	}
+	stream := watchPastSnapshot(t, r, sid)
 	if _, err := submit(ctx, r, sid, bid, "q3", 3, 1.44); err != nil {
 		t.Fatal(err)
 	}
@@ -72,13 +66,7 @@ func TestRoomChangesComeInOneMessage(t *testing.T) {
 	r := startRig(t)
 	ctx := context.Background()
 	sess, benches := setupRoom(t, r)
-	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sess.SessionId})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := stream.Recv(); err != nil {
-		t.Fatal(err)
-	}
+	stream := watchPastSnapshot(t, r, sess.SessionId)
 	if _, err := r.instructor.UpdateSession(ctx, &pb.UpdateSessionRequest{SessionId: sess.SessionId,
 		Tolerance: &pb.Tolerance{GoodPercent: 4, AcceptablePercent: 8}}); err != nil {
 		t.Fatal(err)
@@ -104,13 +92,7 @@ func TestRoomStreamPace(t *testing.T) {
 	r := startRigWith(t, Config{WatchEvery: every})
 	ctx := context.Background()
 	sess, benches := setupRoom(t, r)
-	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sess.SessionId})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := stream.Recv(); err != nil {
-		t.Fatal(err)
-	}
+	stream := watchPastSnapshot(t, r, sess.SessionId)
 	a1, a2 := benches[0].BenchId, benches[1].BenchId
 	// Quiet for longer than the pace since the snapshot: A1's first
 	// reading goes at once.

@@ -397,13 +397,7 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	stream, err := r.instructor.WatchRoom(ctx, &pb.WatchRoomRequest{SessionId: sid})
-	if err != nil {
-		t.Fatal(err)
-	}
-	if _, err := stream.Recv(); err != nil {
-		t.Fatal(err)
-	}
+	stream := watchPastSnapshot(t, r, sid)
 	for j, b := range sb.Benches[:3] {
 		for i, I := range []float64{0, 1, 2, 3, 4} {
 			noise := 0.002 * float64((i+j)%3)
@@ -503,6 +497,20 @@ func TestRoomFindingsAndStalls(t *testing.T) {
 			}
 		}
 	}
+}
+
+// watchPastSnapshot opens a room stream on the session and reads its
+// snapshot: what comes next are the room's changes.
+func watchPastSnapshot(t *testing.T, r *rig, sessionID uint64) rpcpb.InstructorService_WatchRoomClient {
+	t.Helper()
+	stream, err := r.instructor.WatchRoom(context.Background(), &pb.WatchRoomRequest{SessionId: sessionID})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := stream.Recv(); err != nil {
+		t.Fatal(err)
+	}
+	return stream
 }
 
 // changedBench is the state, among a room event's changes, of the bench
