@@ -196,6 +196,7 @@ type serverOptions struct {
 	stationRate  float64
 	stationBurst int
 	roomIdle     time.Duration
+	watchEvery   time.Duration
 }
 
 // start opens the database and serves on addr until ctx ends or stop runs.
@@ -213,7 +214,8 @@ func (m *Main) start(dbPath, addr string, log *slog.Logger, opts serverOptions) 
 		return nil, fmt.Errorf("dashboard: %w", err)
 	}
 	srv, err := server.New(server.Config{DB: db, Logger: log, Web: web, AdminKey: opts.adminKey,
-		StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle})
+		StationRate: opts.stationRate, StationBurst: opts.stationBurst, RoomIdle: opts.roomIdle,
+		WatchEvery: opts.watchEvery})
 	if err != nil {
 		db.Close()
 		return nil, err
@@ -317,6 +319,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	stRate := fs.Float64("station-rate", 5, "readings per second each bench may send")
 	stBurst := fs.Int("station-burst", 20, "readings a bench may send at once before the rate applies")
 	roomIdle := fs.Duration("room-idle", 10*time.Minute, "how long a room nobody watches stays in memory after its last reading")
+	watchEvery := fs.Duration("watch-every", 50*time.Millisecond, "the shortest time between two updates of one dashboard tab; changes in between go together (raise it for slow laptops or projectors)")
 	memLimit := fs.String("memory-limit", defaultMemoryLimit, "soft limit on the server's memory, such as 400MiB or 2GiB, or none: the collector works harder near it (default none, or GOMEMLIMIT)")
 	gcPercent := fs.Int("gc-percent", defaultGCPercent, "the collector's GOGC: heap growth between collections, in percent of the live heap (default 100, or GOGC); higher trades memory for CPU")
 	cpuProfile := fs.String("cpuprofile", "", "write a CPU profile of the server to this file until it stops (performance work)")
@@ -341,6 +344,12 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	if *gcPercent <= 0 {
 		return usageError{"--gc-percent must be positive"}
 	}
+	if *roomIdle <= 0 {
+		return usageError{fmt.Sprintf("--room-idle must be positive, got %v", *roomIdle)}
+	}
+	if *watchEvery < time.Millisecond || *watchEvery > 10*time.Second {
+		return usageError{fmt.Sprintf("--watch-every must be 1ms–10s, got %v", *watchEvery)}
+	}
 	limit := int64(math.MaxInt64)
 	if *memLimit != "none" {
 		if limit, err = parseBytes(*memLimit); err != nil {
@@ -360,7 +369,7 @@ func (m *Main) serve(ctx context.Context, args []string) error {
 	}
 	defer stopProfile()
 	r, err := m.start(*dbPath, *addr, log, serverOptions{adminKey: *key, prepare: testHooks(log),
-		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey, roomIdle: *roomIdle})
+		stationRate: *stRate, stationBurst: *stBurst, tlsCert: *tlsCert, tlsKey: *tlsKey, roomIdle: *roomIdle, watchEvery: *watchEvery})
 	if err != nil {
 		return err
 	}

@@ -25,8 +25,8 @@ func TestParseBytes(t *testing.T) {
 	}
 }
 
-// serve refuses a bad memory setting before it opens anything.
-func TestServeRejectsBadMemoryFlags(t *testing.T) {
+// serve refuses a bad memory or timing setting before it opens anything.
+func TestServeRejectsBadFlags(t *testing.T) {
 	for _, tc := range []struct {
 		name string
 		args []string
@@ -35,6 +35,9 @@ func TestServeRejectsBadMemoryFlags(t *testing.T) {
 		{"limit without a unit", []string{"--memory-limit", "300"}, "--memory-limit"},
 		{"negative limit", []string{"--memory-limit", "-1GiB"}, "--memory-limit"},
 		{"zero gc percent", []string{"--gc-percent", "0"}, "--gc-percent"},
+		{"negative room idle", []string{"--room-idle", "-1m"}, "--room-idle"},
+		{"watch pace of zero", []string{"--watch-every", "0s"}, "--watch-every"},
+		{"watch pace of a minute", []string{"--watch-every", "1m"}, "--watch-every"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			db := t.TempDir() + "/fluxroom.db"

@@ -34,12 +34,18 @@ type uiRig struct {
 
 func newUIRig(t testing.TB, labels ...string) *uiRig {
 	t.Helper()
+	return newUIRigServing(t, nil, labels...)
+}
+
+// newUIRigServing is newUIRig with extra serve flags.
+func newUIRigServing(t testing.TB, serveFlags []string, labels ...string) *uiRig {
+	t.Helper()
 	if testing.Short() {
 		t.Skip("browser test skipped in -short mode")
 	}
 	chrome := chromium(t)
 	r := &uiRig{web: builtDashboard(t), dbPath: filepath.Join(t.TempDir(), "fluxroom.db"), ids: map[string]uint64{}}
-	r.p = startProgram(t, r.web, r.dbPath, "127.0.0.1:0")
+	r.p = startProgram(t, r.web, r.dbPath, "127.0.0.1:0", serveFlags...)
 	t.Cleanup(func() {
 		if r.p != nil {
 			r.p.stop(t)
@@ -315,6 +321,51 @@ func BenchmarkDashboardRender(b *testing.B) {
 	b.ReportMetric(ms[len(ms)/2], "ms-median-event-to-frame")
 	b.ReportMetric(ms[len(ms)*9/10], "ms-p90-event-to-frame")
 	b.ReportMetric(float64(len(ms)), "renders")
+}
+
+// BenchmarkBusyRoom: a room of 30 benches taking 100 readings a second,
+// as a dashboard tab sees it with the server's pace (serve --watch-every,
+// 50 ms by default) and with a pace of 1 ms, which sends each change as it
+// comes: the tab's renders and main-thread work per second of the room.
+func BenchmarkBusyRoom(b *testing.B) {
+	for _, every := range []string{"50ms", "1ms"} {
+		b.Run("watch-every="+every, func(b *testing.B) {
+			var labels []string
+			for i := 0; i < 30; i++ {
+				labels = append(labels, fmt.Sprintf("%c%d", 'A'+i/5, i%5+1))
+			}
+			r := newUIRigServing(b, []string{"--watch-every", every, "--station-rate", "1000", "--station-burst", "1000"}, labels...)
+			if err := chromedp.Do(r.tab, chromedp.Navigate(r.url("/")), chromedp.WaitVisible(chromedp.CSS(`#link[data-link="live"]`)),
+				chromedp.WaitVisible(chromedp.CSS(`section[data-bench="F5"]`))); err != nil {
+				b.Fatal(err)
+			}
+			chromedp.Do(r.tab, chromedp.Evaluate[chromedp.Void](`window.fluxroomRenderMs = []`))
+			if _, err := chromedp.Call(r.tab, performance.Enable, performance.EnableParams{TimeDomain: performance.EnableTimeDomainThreadTicks}); err != nil {
+				b.Fatal(err)
+			}
+			before := mainThread(b, r.tab)
+			start := time.Now()
+			b.ResetTimer()
+			// One reading every 10 ms, round the room: 100 changes a second.
+			tick := time.NewTicker(10 * time.Millisecond)
+			defer tick.Stop()
+			for i := 0; i < b.N*300; i++ {
+				<-tick.C
+				label := labels[i%30]
+				r.submit(b, label, fmt.Sprintf("r-%d", i), float64(i/30%5), 0.48*float64(i/30%5)+0.001*float64(i%3))
+			}
+			b.StopTimer()
+			time.Sleep(300 * time.Millisecond)
+			secs := time.Since(start).Seconds()
+			after := mainThread(b, r.tab)
+			ms, err := chromedp.Run(r.tab, chromedp.Evaluate[[]float64](`window.fluxroomRenderMs || []`))
+			if err != nil {
+				b.Fatal(err)
+			}
+			b.ReportMetric(float64(len(ms))/secs, "renders/s")
+			b.ReportMetric(1000*(after["TaskDuration"]-before["TaskDuration"])/secs, "ms-main-thread/s")
+		})
+	}
 }
 
 func mainThread(b *testing.B, tab context.Context) map[string]float64 {
