@@ -11,9 +11,9 @@ import (
 // change in between (see watcher.push), so a room waits as at most one
 // event per bench, and a change to the whole room (its tolerance, its
 // policy) queues every bench at once: the bound is far above any room a
-// lab sets up (8–30 benches; the grid has 20 × 20 places). Past it the watcher is
-// cut off, reconnects and starts from a fresh snapshot, so it never shows a
-// stale room without knowing.
+// lab sets up (8–30 benches; the grid has 20 × 20 places). Past it the
+// watcher is cut off, reconnects and starts from a fresh snapshot, so it
+// never shows a stale room without knowing.
 const watcherBuffer = 4096
 
 // hub fans bench changes out to the watchers of each session's room.

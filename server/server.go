@@ -171,7 +171,8 @@ func New(cfg Config) (*Server, error) {
 	// A browser redraws the room in 3–8 ms of its main thread (go test
 	// -bench DashboardRender ./cmd/fluxroom/): a tab sent every change of a
 	// busy room would spend it all on redraws, and the server a write per
-	// change per tab. Twenty messages a second are more than an eye follows.
+	// change per tab. Twenty updates a second are more than an eye follows
+	// on a room of tiles // common practice.
 	s.watchEvery = cfg.WatchEvery
 	if s.watchEvery == 0 {
 		s.watchEvery = 50 * time.Millisecond
