@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/maxence-charriere/go-app/v9/pkg/app"
+	"google.golang.org/protobuf/proto"
 
 	"example.com/fluxroom/domain"
 	"example.com/fluxroom/internal/svgplot"
@@ -206,7 +207,7 @@ func (f *MembersForm) Render() app.UI {
 	return app.Form().Class("members-form").ID("members-form").OnSubmit(f.submit).Body(
 		app.Label().For("members-input").Text("Group members"),
 		app.Input().ID("members-input").Type("text").Value(f.text).MaxLength(200).
-			OnInput(func(ctx app.Context, e app.Event) { f.text = ctx.JSSrc().Get("value").String() }),
+			OnInput(textInto(&f.text)),
 		app.Button().Type("submit").Text("Save names"),
 		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
 	)
@@ -214,17 +215,27 @@ func (f *MembersForm) Render() app.UI {
 
 func (f *MembersForm) submit(ctx app.Context, e app.Event) {
 	e.PreventDefault()
-	text, sid, bid := f.text, f.SessionID, f.BenchID
-	c := newAPI(baseURL()).withToken(storedKey(ctx))
-	ctx.Async(func() {
-		_, err := unary[pb.SetGroupMembersResponse](ctx, c, ProcSetGroupMembers, &pb.SetGroupMembersRequest{SessionId: sid, BenchId: bid, Members: text})
-		ctx.Dispatch(func(app.Context) {
+	text := f.text
+	save(ctx, ProcSetGroupMembers, &pb.SetGroupMembersRequest{SessionId: f.SessionID, BenchId: f.BenchID, Members: text},
+		func(_ *pb.SetGroupMembersResponse, err error) {
 			if err != nil {
 				f.status = saveFailed(err, "members")
 				return
 			}
 			f.editing, f.Members, f.status = false, text, ""
 		})
+}
+
+// save sends a bench form's call with the page's key off the UI goroutine,
+// and hands its answer to done on it.
+func save[T any, PT interface {
+	*T
+	proto.Message
+}](ctx app.Context, proc string, req proto.Message, done func(*T, error)) {
+	c := newAPI(baseURL()).withToken(storedKey(ctx))
+	ctx.Async(func() {
+		res, err := unary[T, PT](ctx, c, proc, req)
+		ctx.Dispatch(func(app.Context) { done(res, err) })
 	})
 }
 
@@ -250,7 +261,7 @@ func (f *NoteForm) Render() app.UI {
 	return app.Form().Class("note-form").OnSubmit(f.submit).Body(
 		app.Label().For("note-text").Text("Add a note"),
 		app.Input().ID("note-text").Type("text").Value(f.text).MaxLength(1000).
-			OnInput(func(ctx app.Context, e app.Event) { f.text = ctx.JSSrc().Get("value").String() }),
+			OnInput(textInto(&f.text)),
 		app.Button().Type("submit").Text("Save note"),
 		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
 	)
@@ -258,18 +269,14 @@ func (f *NoteForm) Render() app.UI {
 
 func (f *NoteForm) submit(ctx app.Context, e app.Event) {
 	e.PreventDefault()
-	text, sid, bid := f.text, f.SessionID, f.BenchID
-	c := newAPI(baseURL()).withToken(storedKey(ctx))
-	ctx.Async(func() {
-		_, err := unary[pb.AddNoteResponse](ctx, c, ProcAddNote, &pb.AddNoteRequest{SessionId: sid, BenchId: bid, Text: text})
-		ctx.Dispatch(func(app.Context) {
+	save(ctx, ProcAddNote, &pb.AddNoteRequest{SessionId: f.SessionID, BenchId: f.BenchID, Text: f.text},
+		func(_ *pb.AddNoteResponse, err error) {
 			if err != nil {
 				f.status = saveFailed(err, "text")
 				return
 			}
 			f.text, f.status = "", "saved"
 		})
-	})
 }
 
 // baseURL is the origin that served the page.
@@ -293,9 +300,9 @@ func (f *OverrideForm) Render() app.UI {
 	return app.Form().Class("override-form").OnSubmit(f.submit).Body(
 		app.H3().Text("Override the grade"),
 		app.Input().ID("override-points").Attr("inputmode", "decimal").Size(5).Placeholder("points").Value(f.points).
-			OnInput(func(ctx app.Context, e app.Event) { f.points = ctx.JSSrc().Get("value").String() }),
+			OnInput(textInto(&f.points)),
 		app.Input().ID("override-reason").Placeholder("reason (kept in the audit log)").Value(f.reason).
-			OnInput(func(ctx app.Context, e app.Event) { f.reason = ctx.JSSrc().Get("value").String() }),
+			OnInput(textInto(&f.reason)),
 		app.Button().Type("submit").Text("Set points"),
 		app.If(f.status != "", app.Span().Class("status").Text(f.status)),
 	)
@@ -308,11 +315,8 @@ func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
 		f.status = "points must be a number"
 		return
 	}
-	req := &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason}
-	c := newAPI(baseURL()).withToken(storedKey(ctx))
-	ctx.Async(func() {
-		res, err := unary[pb.OverrideGradeResponse](ctx, c, ProcOverrideGrade, req)
-		ctx.Dispatch(func(app.Context) {
+	save(ctx, ProcOverrideGrade, &pb.OverrideGradeRequest{SessionId: f.SessionID, BenchId: f.BenchID, Points: p, Reason: f.reason},
+		func(res *pb.OverrideGradeResponse, err error) {
 			if err != nil {
 				msgs := fieldMessages(err)
 				f.status = strings.TrimSpace(msgs["points"] + " " + msgs["reason"])
@@ -324,5 +328,4 @@ func (f *OverrideForm) submit(ctx app.Context, e app.Event) {
 			f.status = fmt.Sprintf("set to %g (was %g)", res.Note.Points, res.Note.PreviousPoints)
 			f.points, f.reason = "", ""
 		})
-	})
 }

@@ -43,7 +43,7 @@ func (p *KeyPrompt) Render() app.UI {
 	}).Body(
 		app.Label().For("staff-key").Text("Your staff key (from your instructor or the server's administrator), or the administrator's key"),
 		app.Input().ID("staff-key").Type("password").AutoComplete(false).
-			OnInput(func(ctx app.Context, e app.Event) { p.key = ctx.JSSrc().Get("value").String() }),
+			OnInput(textInto(&p.key)),
 		app.Button().Type("submit").Text("Use this key"),
 	)
 }

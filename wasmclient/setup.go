@@ -272,7 +272,7 @@ func (s *Setup) Render() app.UI {
 		app.Form().ID("session-form").OnSubmit(s.saveSession).Body(
 			s.renderCourse(),
 			field("title", "title", "Section", s.errs["title"], app.Input().ID("title").Value(s.title).
-				OnInput(func(ctx app.Context, e app.Event) { s.title = ctx.JSSrc().Get("value").String() })),
+				OnInput(textInto(&s.title))),
 			app.FieldSet().Body(
 				app.Legend().Text("Tolerance profile (empty or 0: the defaults 2, 3, 5 %, 10 %)"),
 				s.numField("tolerance.z_consistent", "consistent when |z| ≤", &s.zc),
@@ -290,7 +290,7 @@ func (s *Setup) Render() app.UI {
 			app.H2().Text("Grading policy"),
 			app.P().Class("hint").Text("JSON, as documented in the README (Grading policy). Empty uses the default: 10 points per experiment."),
 			app.Textarea().ID("policy").Rows(8).Cols(70).Text(s.policy).
-				OnInput(func(ctx app.Context, e app.Event) { s.policy = ctx.JSSrc().Get("value").String() }),
+				OnInput(textInto(&s.policy)),
 			app.Range(policyErrors(s.errs)).Slice(func(i int) app.UI {
 				return app.P().Class("field-error").Text(policyErrors(s.errs)[i])
 			}),
@@ -358,7 +358,7 @@ func (s *Setup) sessionID() uint64 {
 
 func (s *Setup) numField(name, label string, v *string) app.UI {
 	return field(name, name, label, s.errs[name], app.Input().ID(name).Attr("inputmode", "decimal").Size(5).Value(*v).
-		OnInput(func(ctx app.Context, e app.Event) { *v = ctx.JSSrc().Get("value").String() }))
+		OnInput(textInto(v)))
 }
 
 func (s *Setup) renderGrid() app.UI {

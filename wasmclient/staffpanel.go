@@ -181,7 +181,7 @@ func (p *StaffPanel) Render() app.UI {
 		)),
 		app.Form().ID("staff-form").OnSubmit(p.add).Body(
 			field("staff-name", "name", "Name", p.errs["name"], app.Input().ID("staff-name").Value(p.name).
-				OnInput(func(ctx app.Context, e app.Event) { p.name = ctx.JSSrc().Get("value").String() })),
+				OnInput(textInto(&p.name))),
 			field("staff-course", "roles[0].course", "Course", p.errs["roles[0].course"], course),
 			app.If(p.Who != nil && p.Who.admin, app.Select().ID("staff-role").OnChange(func(ctx app.Context, e app.Event) {
 				p.role = pb.StaffRole_STAFF_ROLE_ASSISTANT

@@ -322,13 +322,13 @@ func (s *Station) Render() app.UI {
 			app.Form().ID("join-form").OnSubmit(s.join).Body(
 				field("join_code", "join_code", "Join code (on the instructor's screen)", s.fieldErrs["join_code"],
 					app.Input().ID("join_code").Value(s.code).AutoComplete(false).
-						OnInput(func(ctx app.Context, e app.Event) { s.code = ctx.JSSrc().Get("value").String() })),
+						OnInput(textInto(&s.code))),
 				field("bench_label", "bench_label", "Bench label (on the bench)", s.fieldErrs["bench_label"],
 					app.Input().ID("bench_label").Value(s.label).
-						OnInput(func(ctx app.Context, e app.Event) { s.label = ctx.JSSrc().Get("value").String() })),
+						OnInput(textInto(&s.label))),
 				field("group_members", "group_members", "Your names (optional, for the gradebook)", s.fieldErrs["group_members"],
 					app.Input().ID("group_members").Value(s.members).MaxLength(200).
-						OnInput(func(ctx app.Context, e app.Event) { s.members = ctx.JSSrc().Get("value").String() })),
+						OnInput(textInto(&s.members))),
 				app.Button().Type("submit").ID("join").Text("Join"),
 			),
 			app.P().Class("status").ID("status").Text(s.status),
@@ -467,7 +467,7 @@ func (s *Station) correctionChoice() app.UI {
 			Text(fmt.Sprintf("a correction of reading #%d", i+1)))
 	}
 	return field("v-supersedes", "supersedes", "This is", s.fieldErrs["supersedes"], app.Select().ID("v-supersedes").Body(opts...).
-		OnChange(func(ctx app.Context, e app.Event) { s.correcting = ctx.JSSrc().Get("value").String() }))
+		OnChange(textInto(&s.correcting)))
 }
 
 func (s *Station) statusLine() string {
@@ -475,6 +475,11 @@ func (s *Station) statusLine() string {
 		return fmt.Sprintf("%s · %d waiting to send", s.status, s.queued)
 	}
 	return s.status
+}
+
+// textInto keeps an input's or a select's text in *v as it changes.
+func textInto(v *string) app.EventHandler {
+	return func(ctx app.Context, e app.Event) { *v = ctx.JSSrc().Get("value").String() }
 }
 
 // field is a labelled input with its validation message beside it: name

@@ -107,11 +107,9 @@ func (w *who) courseInput(id string, value *string) (ui app.UI, typed bool) {
 	mine := w.instructedCourses()
 	if w == nil || w.admin || len(mine) == 0 {
 		return app.Input().ID(id).Value(*value).
-			OnInput(func(ctx app.Context, e app.Event) { *value = ctx.JSSrc().Get("value").String() }), true
+			OnInput(textInto(value)), true
 	}
-	return app.Select().ID(id).OnChange(func(ctx app.Context, e app.Event) {
-		*value = ctx.JSSrc().Get("value").String()
-	}).Body(app.Range(mine).Slice(func(i int) app.UI {
+	return app.Select().ID(id).OnChange(textInto(value)).Body(app.Range(mine).Slice(func(i int) app.UI {
 		return app.Option().Value(mine[i]).Selected(mine[i] == *value).Text(mine[i])
 	})), false
 }
