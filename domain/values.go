@@ -45,10 +45,43 @@ type QuantityMessage interface {
 func ValuesFrom[Q QuantityMessage](m map[string]Q) Values {
 	v := make(Values, 0, len(m))
 	for name, q := range m {
-		v = append(v, NamedQuantity{name, Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}})
+		v = append(v, NamedQuantity{name, quantityOf(q)})
 	}
 	SortValues(v)
 	return v
+}
+
+// QuantitiesFrom makes a map of quantities (a bench's constants) from a map
+// of quantity messages.
+func QuantitiesFrom[Q QuantityMessage](m map[string]Q) map[string]Quantity {
+	out := make(map[string]Quantity, len(m))
+	for name, q := range m {
+		out[name] = quantityOf(q)
+	}
+	return out
+}
+
+func quantityOf[Q QuantityMessage](q Q) Quantity {
+	return Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
+}
+
+// QuantitiesTo is a map of quantities as a map of what to makes of each:
+// the wire's or the stored record's quantity message.
+func QuantitiesTo[Q any](m map[string]Quantity, to func(Quantity) Q) map[string]Q {
+	out := make(map[string]Q, len(m))
+	for name, q := range m {
+		out[name] = to(q)
+	}
+	return out
+}
+
+// ValuesTo is QuantitiesTo for a reading's values.
+func ValuesTo[Q any](v Values, to func(Quantity) Q) map[string]Q {
+	out := make(map[string]Q, len(v))
+	for _, nq := range v {
+		out[nq.Name] = to(nq.Quantity)
+	}
+	return out
 }
 
 // Get returns the value of the given name.
@@ -63,11 +96,7 @@ func (v Values) Get(name string) (Quantity, bool) {
 
 // Map returns the values as a new map.
 func (v Values) Map() map[string]Quantity {
-	m := make(map[string]Quantity, len(v))
-	for _, nq := range v {
-		m[nq.Name] = nq.Quantity
-	}
-	return m
+	return ValuesTo(v, func(q Quantity) Quantity { return q })
 }
 
 // Equal reports whether both hold the same names with the same values.

@@ -25,19 +25,15 @@ func fromUnixNano(n int64) time.Time {
 }
 
 func quantitiesRecord(m map[string]domain.Quantity) map[string]*recordpb.Quantity {
-	out := make(map[string]*recordpb.Quantity, len(m))
-	for k, q := range m {
-		out[k] = &recordpb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
-	}
-	return out
+	return domain.QuantitiesTo(m, quantityRecord)
 }
 
 func quantitiesFromRecord(m map[string]*recordpb.Quantity) map[string]domain.Quantity {
-	out := make(map[string]domain.Quantity, len(m))
-	for k, q := range m {
-		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
-	}
-	return out
+	return domain.QuantitiesFrom(m)
+}
+
+func quantityRecord(q domain.Quantity) *recordpb.Quantity {
+	return &recordpb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
 }
 
 func sessionRecord(s domain.Session) *recordpb.Session {
@@ -65,11 +61,7 @@ func noteFromRecord(r *recordpb.Event) domain.Note {
 }
 
 func valuesRecord(v domain.Values) map[string]*recordpb.Quantity {
-	out := make(map[string]*recordpb.Quantity, len(v))
-	for _, nq := range v {
-		out[nq.Name] = &recordpb.Quantity{Value: nq.Value, Unit: nq.Unit, Uncertainty: nq.Uncertainty}
-	}
-	return out
+	return domain.ValuesTo(v, quantityRecord)
 }
 
 func valuesFromRecord(m map[string]*recordpb.Quantity) domain.Values { return domain.ValuesFrom(m) }

@@ -10,52 +10,49 @@ import (
 
 // QuantitiesToPB converts a map of quantities for the wire.
 func QuantitiesToPB(m map[string]domain.Quantity) map[string]*pb.Quantity {
-	out := make(map[string]*pb.Quantity, len(m))
-	for k, q := range m {
-		out[k] = &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
-	}
-	return out
+	return domain.QuantitiesTo(m, quantityToPB)
 }
 
 // QuantitiesFromPB converts a map of quantities from the wire.
 func QuantitiesFromPB(m map[string]*pb.Quantity) map[string]domain.Quantity {
-	out := make(map[string]domain.Quantity, len(m))
-	for k, q := range m {
-		out[k] = domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
-	}
-	return out
+	return domain.QuantitiesFrom(m)
 }
 
 // ValuesToPB converts a reading's values for the wire.
-func ValuesToPB(v domain.Values) map[string]*pb.Quantity {
-	out := make(map[string]*pb.Quantity, len(v))
-	for _, nq := range v {
-		out[nq.Name] = &pb.Quantity{Value: nq.Value, Unit: nq.Unit, Uncertainty: nq.Uncertainty}
-	}
-	return out
-}
+func ValuesToPB(v domain.Values) map[string]*pb.Quantity { return domain.ValuesTo(v, quantityToPB) }
 
 // ValuesFromPB converts a reading's values from the wire, sorted by name.
 func ValuesFromPB(m map[string]*pb.Quantity) domain.Values { return domain.ValuesFrom(m) }
 
+func quantityToPB(q domain.Quantity) *pb.Quantity {
+	return &pb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+}
+
+// roles pairs each staff role the domain knows with the wire's.
+var roles = [...]struct {
+	pb     pb.StaffRole
+	domain domain.Role
+}{
+	{pb.StaffRole_STAFF_ROLE_INSTRUCTOR, domain.RoleInstructor},
+	{pb.StaffRole_STAFF_ROLE_ASSISTANT, domain.RoleAssistant},
+}
+
 // RoleFromPB is a staff role from the wire; "" for none the domain knows.
 func RoleFromPB(r pb.StaffRole) domain.Role {
-	switch r {
-	case pb.StaffRole_STAFF_ROLE_INSTRUCTOR:
-		return domain.RoleInstructor
-	case pb.StaffRole_STAFF_ROLE_ASSISTANT:
-		return domain.RoleAssistant
+	for _, p := range roles {
+		if p.pb == r {
+			return p.domain
+		}
 	}
 	return ""
 }
 
 // RoleToPB is a staff role for the wire.
 func RoleToPB(r domain.Role) pb.StaffRole {
-	switch r {
-	case domain.RoleInstructor:
-		return pb.StaffRole_STAFF_ROLE_INSTRUCTOR
-	case domain.RoleAssistant:
-		return pb.StaffRole_STAFF_ROLE_ASSISTANT
+	for _, p := range roles {
+		if p.domain == r {
+			return p.pb
+		}
 	}
 	return pb.StaffRole_STAFF_ROLE_UNSPECIFIED
 }
