@@ -24,16 +24,48 @@ func fromUnixNano(n int64) time.Time {
 	return time.Unix(0, n).UTC()
 }
 
-func quantitiesRecord(m map[string]domain.Quantity) map[string]*recordpb.Quantity {
-	return domain.QuantitiesTo(m, quantityRecord)
+// namedRecords is a list of named quantities as records, in one allocation
+// for the records and one for their quantities: a reading's values are
+// written at every append.
+func namedRecords(v domain.Values) []*recordpb.NamedQuantity {
+	named := make([]recordpb.NamedQuantity, len(v))
+	qs := make([]recordpb.Quantity, len(v))
+	out := make([]*recordpb.NamedQuantity, len(v))
+	for i, nq := range v {
+		qs[i].Value, qs[i].Unit, qs[i].Uncertainty = nq.Value, nq.Unit, nq.Uncertainty
+		named[i].Name, named[i].Quantity = nq.Name, &qs[i]
+		out[i] = &named[i]
+	}
+	return out
 }
 
-func quantitiesFromRecord(m map[string]*recordpb.Quantity) map[string]domain.Quantity {
-	return domain.QuantitiesFrom(m)
+// valuesFromRecords reads a list written by namedRecords, or a map field of
+// an older file (whose entries come in any order), sorted by name.
+func valuesFromRecords(l []*recordpb.NamedQuantity) domain.Values {
+	v := make(domain.Values, len(l))
+	sorted := true
+	for i, nq := range l {
+		v[i] = domain.NamedQuantity{Name: nq.GetName(), Quantity: quantityFromRecord(nq.GetQuantity())}
+		sorted = sorted && (i == 0 || v[i-1].Name < v[i].Name)
+	}
+	if !sorted {
+		domain.SortValues(v)
+	}
+	return v
 }
 
-func quantityRecord(q domain.Quantity) *recordpb.Quantity {
-	return &recordpb.Quantity{Value: q.Value, Unit: q.Unit, Uncertainty: q.Uncertainty}
+// constantsFromRecords reads a bench's constants, as namedRecords wrote
+// them or as an older file's map field.
+func constantsFromRecords(l []*recordpb.NamedQuantity) map[string]domain.Quantity {
+	m := make(map[string]domain.Quantity, len(l))
+	for _, nq := range l {
+		m[nq.GetName()] = quantityFromRecord(nq.GetQuantity())
+	}
+	return m
+}
+
+func quantityFromRecord(q *recordpb.Quantity) domain.Quantity {
+	return domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
 }
 
 func sessionRecord(s domain.Session) *recordpb.Session {
@@ -60,29 +92,23 @@ func noteFromRecord(r *recordpb.Event) domain.Note {
 		Points: r.GetPoints(), PreviousPoints: r.GetPreviousPoints(), StaffID: r.GetStaffId()}
 }
 
-func valuesRecord(v domain.Values) map[string]*recordpb.Quantity {
-	return domain.ValuesTo(v, quantityRecord)
-}
-
-func valuesFromRecord(m map[string]*recordpb.Quantity) domain.Values { return domain.ValuesFrom(m) }
-
 func benchRecord(b domain.Bench) *recordpb.Bench {
 	return &recordpb.Bench{BenchId: b.ID, Label: b.Label, Row: int32(b.Row), Column: int32(b.Column),
-		Experiment: b.Experiment, Constants: quantitiesRecord(b.Constants), Members: b.Members}
+		Experiment: b.Experiment, Constants: namedRecords(domain.ValuesOf(b.Constants)), Members: b.Members}
 }
 
 func benchFromRecord(r *recordpb.Bench) domain.Bench {
 	return domain.Bench{ID: r.GetBenchId(), Label: r.GetLabel(), Row: int(r.GetRow()), Column: int(r.GetColumn()),
-		Experiment: r.GetExperiment(), Constants: quantitiesFromRecord(r.GetConstants()), Members: r.GetMembers()}
+		Experiment: r.GetExperiment(), Constants: constantsFromRecords(r.GetConstants()), Members: r.GetMembers()}
 }
 
 func readingRecord(r domain.Reading) *recordpb.Reading {
-	return &recordpb.Reading{ReadingId: r.ID, Values: valuesRecord(r.Values),
+	return &recordpb.Reading{ReadingId: r.ID, Values: namedRecords(r.Values),
 		ReceivedUnixNano: unixNano(r.ReceivedAt), Sequence: r.Sequence, Supersedes: r.Supersedes}
 }
 
 func readingFromRecord(r *recordpb.Reading) domain.Reading {
-	return domain.Reading{ID: r.GetReadingId(), Values: valuesFromRecord(r.GetValues()),
+	return domain.Reading{ID: r.GetReadingId(), Values: valuesFromRecords(r.GetValues()),
 		ReceivedAt: fromUnixNano(r.GetReceivedUnixNano()), Sequence: r.GetSequence(), Supersedes: r.GetSupersedes()}
 }
 

@@ -86,6 +86,63 @@ func (x *Quantity) GetUncertainty() float64 {
 	return 0
 }
 
+// NamedQuantity is one of a bench's constants or of a reading's values. Its
+// field numbers are a protobuf map entry's (key 1, value 2), so a repeated
+// NamedQuantity has the bytes a map<string, Quantity> field has: files
+// written when these fields were maps read the same. Lists are written
+// sorted by name; a name is never repeated.
+type NamedQuantity struct {
+	state         protoimpl.MessageState `protogen:"open.v1"`
+	Name          string                 `protobuf:"bytes,1,opt,name=name,proto3" json:"name,omitempty"`
+	Quantity      *Quantity              `protobuf:"bytes,2,opt,name=quantity,proto3" json:"quantity,omitempty"`
+	unknownFields protoimpl.UnknownFields
+	sizeCache     protoimpl.SizeCache
+}
+
+func (x *NamedQuantity) Reset() {
+	*x = NamedQuantity{}
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[1]
+	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+	ms.StoreMessageInfo(mi)
+}
+
+func (x *NamedQuantity) String() string {
+	return protoimpl.X.MessageStringOf(x)
+}
+
+func (*NamedQuantity) ProtoMessage() {}
+
+func (x *NamedQuantity) ProtoReflect() protoreflect.Message {
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[1]
+	if x != nil {
+		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
+		if ms.LoadMessageInfo() == nil {
+			ms.StoreMessageInfo(mi)
+		}
+		return ms
+	}
+	return mi.MessageOf(x)
+}
+
+// Deprecated: Use NamedQuantity.ProtoReflect.Descriptor instead.
+func (*NamedQuantity) Descriptor() ([]byte, []int) {
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{1}
+}
+
+func (x *NamedQuantity) GetName() string {
+	if x != nil {
+		return x.Name
+	}
+	return ""
+}
+
+func (x *NamedQuantity) GetQuantity() *Quantity {
+	if x != nil {
+		return x.Quantity
+	}
+	return nil
+}
+
 type Session struct {
 	state               protoimpl.MessageState `protogen:"open.v1"`
 	SessionId           uint64                 `protobuf:"varint,1,opt,name=session_id,json=sessionId,proto3" json:"session_id,omitempty"`
@@ -104,7 +161,7 @@ type Session struct {
 
 func (x *Session) Reset() {
 	*x = Session{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[1]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -116,7 +173,7 @@ func (x *Session) String() string {
 func (*Session) ProtoMessage() {}
 
 func (x *Session) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[1]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -129,7 +186,7 @@ func (x *Session) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Session.ProtoReflect.Descriptor instead.
 func (*Session) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{1}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{2}
 }
 
 func (x *Session) GetSessionId() uint64 {
@@ -207,7 +264,7 @@ type Tolerance struct {
 
 func (x *Tolerance) Reset() {
 	*x = Tolerance{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -219,7 +276,7 @@ func (x *Tolerance) String() string {
 func (*Tolerance) ProtoMessage() {}
 
 func (x *Tolerance) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[2]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -232,7 +289,7 @@ func (x *Tolerance) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Tolerance.ProtoReflect.Descriptor instead.
 func (*Tolerance) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{2}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{3}
 }
 
 func (x *Tolerance) GetZConsistent() float64 {
@@ -284,7 +341,7 @@ type Event struct {
 
 func (x *Event) Reset() {
 	*x = Event{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -296,7 +353,7 @@ func (x *Event) String() string {
 func (*Event) ProtoMessage() {}
 
 func (x *Event) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[3]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -309,7 +366,7 @@ func (x *Event) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Event.ProtoReflect.Descriptor instead.
 func (*Event) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{3}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{4}
 }
 
 func (x *Event) GetBenchId() uint64 {
@@ -375,7 +432,7 @@ type Bench struct {
 	Row           int32                  `protobuf:"varint,3,opt,name=row,proto3" json:"row,omitempty"`
 	Column        int32                  `protobuf:"varint,4,opt,name=column,proto3" json:"column,omitempty"`
 	Experiment    string                 `protobuf:"bytes,5,opt,name=experiment,proto3" json:"experiment,omitempty"`
-	Constants     map[string]*Quantity   `protobuf:"bytes,6,rep,name=constants,proto3" json:"constants,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	Constants     []*NamedQuantity       `protobuf:"bytes,6,rep,name=constants,proto3" json:"constants,omitempty"`
 	Members       string                 `protobuf:"bytes,7,opt,name=members,proto3" json:"members,omitempty"`
 	unknownFields protoimpl.UnknownFields
 	sizeCache     protoimpl.SizeCache
@@ -383,7 +440,7 @@ type Bench struct {
 
 func (x *Bench) Reset() {
 	*x = Bench{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -395,7 +452,7 @@ func (x *Bench) String() string {
 func (*Bench) ProtoMessage() {}
 
 func (x *Bench) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[4]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -408,7 +465,7 @@ func (x *Bench) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Bench.ProtoReflect.Descriptor instead.
 func (*Bench) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{4}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{5}
 }
 
 func (x *Bench) GetBenchId() uint64 {
@@ -446,7 +503,7 @@ func (x *Bench) GetExperiment() string {
 	return ""
 }
 
-func (x *Bench) GetConstants() map[string]*Quantity {
+func (x *Bench) GetConstants() []*NamedQuantity {
 	if x != nil {
 		return x.Constants
 	}
@@ -463,7 +520,7 @@ func (x *Bench) GetMembers() string {
 type Reading struct {
 	state            protoimpl.MessageState `protogen:"open.v1"`
 	ReadingId        string                 `protobuf:"bytes,1,opt,name=reading_id,json=readingId,proto3" json:"reading_id,omitempty"`
-	Values           map[string]*Quantity   `protobuf:"bytes,2,rep,name=values,proto3" json:"values,omitempty" protobuf_key:"bytes,1,opt,name=key" protobuf_val:"bytes,2,opt,name=value"`
+	Values           []*NamedQuantity       `protobuf:"bytes,2,rep,name=values,proto3" json:"values,omitempty"`
 	ReceivedUnixNano int64                  `protobuf:"varint,3,opt,name=received_unix_nano,json=receivedUnixNano,proto3" json:"received_unix_nano,omitempty"`
 	Sequence         uint64                 `protobuf:"varint,4,opt,name=sequence,proto3" json:"sequence,omitempty"`
 	Supersedes       string                 `protobuf:"bytes,5,opt,name=supersedes,proto3" json:"supersedes,omitempty"`
@@ -473,7 +530,7 @@ type Reading struct {
 
 func (x *Reading) Reset() {
 	*x = Reading{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -485,7 +542,7 @@ func (x *Reading) String() string {
 func (*Reading) ProtoMessage() {}
 
 func (x *Reading) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[5]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -498,7 +555,7 @@ func (x *Reading) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Reading.ProtoReflect.Descriptor instead.
 func (*Reading) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{5}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{6}
 }
 
 func (x *Reading) GetReadingId() string {
@@ -508,7 +565,7 @@ func (x *Reading) GetReadingId() string {
 	return ""
 }
 
-func (x *Reading) GetValues() map[string]*Quantity {
+func (x *Reading) GetValues() []*NamedQuantity {
 	if x != nil {
 		return x.Values
 	}
@@ -552,7 +609,7 @@ type Staff struct {
 
 func (x *Staff) Reset() {
 	*x = Staff{}
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[7]
 	ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 	ms.StoreMessageInfo(mi)
 }
@@ -564,7 +621,7 @@ func (x *Staff) String() string {
 func (*Staff) ProtoMessage() {}
 
 func (x *Staff) ProtoReflect() protoreflect.Message {
-	mi := &file_fluxroom_record_v1_records_proto_msgTypes[6]
+	mi := &file_fluxroom_record_v1_records_proto_msgTypes[7]
 	if x != nil {
 		ms := protoimpl.X.MessageStateOf(protoimpl.Pointer(x))
 		if ms.LoadMessageInfo() == nil {
@@ -577,7 +634,7 @@ func (x *Staff) ProtoReflect() protoreflect.Message {
 
 // Deprecated: Use Staff.ProtoReflect.Descriptor instead.
 func (*Staff) Descriptor() ([]byte, []int) {
-	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{6}
+	return file_fluxroom_record_v1_records_proto_rawDescGZIP(), []int{7}
 }
 
 func (x *Staff) GetStaffId() uint64 {
@@ -630,7 +687,10 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\bQuantity\x12\x14\n" +
 	"\x05value\x18\x01 \x01(\x01R\x05value\x12\x12\n" +
 	"\x04unit\x18\x02 \x01(\tR\x04unit\x12 \n" +
-	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"\xd8\x02\n" +
+	"\vuncertainty\x18\x03 \x01(\x01R\vuncertainty\"]\n" +
+	"\rNamedQuantity\x12\x12\n" +
+	"\x04name\x18\x01 \x01(\tR\x04name\x128\n" +
+	"\bquantity\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\bquantity\"\xd8\x02\n" +
 	"\aSession\x12\x1d\n" +
 	"\n" +
 	"session_id\x18\x01 \x01(\x04R\tsessionId\x12\x14\n" +
@@ -656,7 +716,7 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"atUnixNano\x12\x16\n" +
 	"\x06points\x18\x06 \x01(\x01R\x06points\x12'\n" +
 	"\x0fprevious_points\x18\a \x01(\x01R\x0epreviousPoints\x12\x19\n" +
-	"\bstaff_id\x18\b \x01(\x04R\astaffId\"\xc0\x02\n" +
+	"\bstaff_id\x18\b \x01(\x04R\astaffId\"\xdd\x01\n" +
 	"\x05Bench\x12\x19\n" +
 	"\bbench_id\x18\x01 \x01(\x04R\abenchId\x12\x14\n" +
 	"\x05label\x18\x02 \x01(\tR\x05label\x12\x10\n" +
@@ -664,24 +724,18 @@ const file_fluxroom_record_v1_records_proto_rawDesc = "" +
 	"\x06column\x18\x04 \x01(\x05R\x06column\x12\x1e\n" +
 	"\n" +
 	"experiment\x18\x05 \x01(\tR\n" +
-	"experiment\x12F\n" +
-	"\tconstants\x18\x06 \x03(\v2(.fluxroom.record.v1.Bench.ConstantsEntryR\tconstants\x12\x18\n" +
-	"\amembers\x18\a \x01(\tR\amembers\x1aZ\n" +
-	"\x0eConstantsEntry\x12\x10\n" +
-	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
-	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\xac\x02\n" +
+	"experiment\x12?\n" +
+	"\tconstants\x18\x06 \x03(\v2!.fluxroom.record.v1.NamedQuantityR\tconstants\x12\x18\n" +
+	"\amembers\x18\a \x01(\tR\amembers\"\xcd\x01\n" +
 	"\aReading\x12\x1d\n" +
 	"\n" +
-	"reading_id\x18\x01 \x01(\tR\treadingId\x12?\n" +
-	"\x06values\x18\x02 \x03(\v2'.fluxroom.record.v1.Reading.ValuesEntryR\x06values\x12,\n" +
+	"reading_id\x18\x01 \x01(\tR\treadingId\x129\n" +
+	"\x06values\x18\x02 \x03(\v2!.fluxroom.record.v1.NamedQuantityR\x06values\x12,\n" +
 	"\x12received_unix_nano\x18\x03 \x01(\x03R\x10receivedUnixNano\x12\x1a\n" +
 	"\bsequence\x18\x04 \x01(\x04R\bsequence\x12\x1e\n" +
 	"\n" +
 	"supersedes\x18\x05 \x01(\tR\n" +
-	"supersedes\x1aW\n" +
-	"\vValuesEntry\x12\x10\n" +
-	"\x03key\x18\x01 \x01(\tR\x03key\x122\n" +
-	"\x05value\x18\x02 \x01(\v2\x1c.fluxroom.record.v1.QuantityR\x05value:\x028\x01\"\x91\x02\n" +
+	"supersedes\"\x91\x02\n" +
 	"\x05Staff\x12\x19\n" +
 	"\bstaff_id\x18\x01 \x01(\x04R\astaffId\x12\x12\n" +
 	"\x04name\x18\x02 \x01(\tR\x04name\x12\x1d\n" +
@@ -707,31 +761,29 @@ func file_fluxroom_record_v1_records_proto_rawDescGZIP() []byte {
 	return file_fluxroom_record_v1_records_proto_rawDescData
 }
 
-var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 10)
+var file_fluxroom_record_v1_records_proto_msgTypes = make([]protoimpl.MessageInfo, 9)
 var file_fluxroom_record_v1_records_proto_goTypes = []any{
-	(*Quantity)(nil),  // 0: fluxroom.record.v1.Quantity
-	(*Session)(nil),   // 1: fluxroom.record.v1.Session
-	(*Tolerance)(nil), // 2: fluxroom.record.v1.Tolerance
-	(*Event)(nil),     // 3: fluxroom.record.v1.Event
-	(*Bench)(nil),     // 4: fluxroom.record.v1.Bench
-	(*Reading)(nil),   // 5: fluxroom.record.v1.Reading
-	(*Staff)(nil),     // 6: fluxroom.record.v1.Staff
-	nil,               // 7: fluxroom.record.v1.Bench.ConstantsEntry
-	nil,               // 8: fluxroom.record.v1.Reading.ValuesEntry
-	nil,               // 9: fluxroom.record.v1.Staff.RolesEntry
+	(*Quantity)(nil),      // 0: fluxroom.record.v1.Quantity
+	(*NamedQuantity)(nil), // 1: fluxroom.record.v1.NamedQuantity
+	(*Session)(nil),       // 2: fluxroom.record.v1.Session
+	(*Tolerance)(nil),     // 3: fluxroom.record.v1.Tolerance
+	(*Event)(nil),         // 4: fluxroom.record.v1.Event
+	(*Bench)(nil),         // 5: fluxroom.record.v1.Bench
+	(*Reading)(nil),       // 6: fluxroom.record.v1.Reading
+	(*Staff)(nil),         // 7: fluxroom.record.v1.Staff
+	nil,                   // 8: fluxroom.record.v1.Staff.RolesEntry
 }
 var file_fluxroom_record_v1_records_proto_depIdxs = []int32{
-	2, // 0: fluxroom.record.v1.Session.tolerance:type_name -> fluxroom.record.v1.Tolerance
-	7, // 1: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.Bench.ConstantsEntry
-	8, // 2: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.Reading.ValuesEntry
-	9, // 3: fluxroom.record.v1.Staff.roles:type_name -> fluxroom.record.v1.Staff.RolesEntry
-	0, // 4: fluxroom.record.v1.Bench.ConstantsEntry.value:type_name -> fluxroom.record.v1.Quantity
-	0, // 5: fluxroom.record.v1.Reading.ValuesEntry.value:type_name -> fluxroom.record.v1.Quantity
-	6, // [6:6] is the sub-list for method output_type
-	6, // [6:6] is the sub-list for method input_type
-	6, // [6:6] is the sub-list for extension type_name
-	6, // [6:6] is the sub-list for extension extendee
-	0, // [0:6] is the sub-list for field type_name
+	0, // 0: fluxroom.record.v1.NamedQuantity.quantity:type_name -> fluxroom.record.v1.Quantity
+	3, // 1: fluxroom.record.v1.Session.tolerance:type_name -> fluxroom.record.v1.Tolerance
+	1, // 2: fluxroom.record.v1.Bench.constants:type_name -> fluxroom.record.v1.NamedQuantity
+	1, // 3: fluxroom.record.v1.Reading.values:type_name -> fluxroom.record.v1.NamedQuantity
+	8, // 4: fluxroom.record.v1.Staff.roles:type_name -> fluxroom.record.v1.Staff.RolesEntry
+	5, // [5:5] is the sub-list for method output_type
+	5, // [5:5] is the sub-list for method input_type
+	5, // [5:5] is the sub-list for extension type_name
+	5, // [5:5] is the sub-list for extension extendee
+	0, // [0:5] is the sub-list for field type_name
 }
 
 func init() { file_fluxroom_record_v1_records_proto_init() }
@@ -745,7 +797,7 @@ func file_fluxroom_record_v1_records_proto_init() {
 			GoPackagePath: reflect.TypeOf(x{}).PkgPath(),
 			RawDescriptor: unsafe.Slice(unsafe.StringData(file_fluxroom_record_v1_records_proto_rawDesc), len(file_fluxroom_record_v1_records_proto_rawDesc)),
 			NumEnums:      0,
-			NumMessages:   10,
+			NumMessages:   9,
 			NumExtensions: 0,
 			NumServices:   0,
 		},
