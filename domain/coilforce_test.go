@@ -192,6 +192,9 @@ func TestFormatMeasurement(t *testing.T) {
 		{2.0, 0, "N", "2 N"},
 		{1.169e-3, 0.02e-3, "T", "0.001169 ± 0.000020 T"},
 		{2.5e-5, 0.1e-5, "T", "(2.50 ± 0.10)e-5 T"},
+		{-0.0123, 0.0042, "N", "-0.012 ± 0.004 N"},
+		{-0.0004, 0.003, "N", "-0.000 ± 0.003 N"}, // as fmt's %.3f wrote a rounded negative zero
+		{-3.2e6, 0.41e6, "", "(-3.2 ± 0.4)e6"},
 	} {
 		if got := FormatMeasurement(tc.v, tc.u, tc.unit); got != tc.want {
 			t.Errorf("FormatMeasurement(%g, %g, %q) = %q, want %q", tc.v, tc.u, tc.unit, got, tc.want)
