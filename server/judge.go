@@ -18,8 +18,11 @@ import (
 // roomJudge is a session's queue of committed readings waiting to be
 // judged.
 type roomJudge struct {
-	mu      sync.Mutex
-	pending map[uint64][]domain.Reading // bench id → readings, in commit order
+	mu sync.Mutex
+	// pending are the readings committed since the last pass, in commit
+	// order: one list, reused pass after pass, instead of a list per bench
+	// grown afresh in a map each pass.
+	pending []pendingReading
 	// since is when the oldest pending reading was committed (zero when
 	// none is pending), for the judge-lag metric.
 	since time.Time
@@ -29,6 +32,11 @@ type roomJudge struct {
 	wake chan struct{}
 }
 
+type pendingReading struct {
+	benchID uint64
+	reading domain.Reading
+}
+
 // judged enqueues a committed reading for its session's judge and returns
 // at once.
 func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
@@ -36,7 +44,7 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 	for {
 		v, ok := s.judges.Load(sessionID)
 		if !ok {
-			fresh := &roomJudge{pending: map[uint64][]domain.Reading{}, wake: make(chan struct{}, 1)}
+			fresh := &roomJudge{wake: make(chan struct{}, 1)}
 			if v, ok = s.judges.LoadOrStore(sessionID, fresh); !ok && !s.goBackground(func() { s.runJudge(sessionID, fresh) }) {
 				// Shutting down: the reading is in the file, and is
 				// judged when its room is next loaded.
@@ -54,7 +62,7 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 	if len(j.pending) == 0 {
 		j.since = time.Now()
 	}
-	j.pending[benchID] = append(j.pending[benchID], r)
+	j.pending = append(j.pending, pendingReading{benchID, r})
 	j.mu.Unlock()
 	select {
 	case j.wake <- struct{}{}:
@@ -67,10 +75,15 @@ func (s *Server) judged(sessionID, benchID uint64, r domain.Reading) {
 // room at once.
 const findingsEvery = 200 * time.Millisecond
 
+// maxSpareBatch is the longest list of pending readings a judge keeps for
+// its next pass.
+const maxSpareBatch = 1024
+
 func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 	var lastFindings time.Time
 	var findingsDue <-chan time.Time
 	findingsOwed := false
+	var spare []pendingReading
 	quiet := time.NewTimer(s.roomIdle)
 	defer quiet.Stop()
 	for {
@@ -94,7 +107,7 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 		quiet.Reset(s.roomIdle)
 		j.mu.Lock()
 		batch, since := j.pending, j.since
-		j.pending, j.since = make(map[uint64][]domain.Reading, len(batch)), time.Time{}
+		j.pending, j.since = spare[:0], time.Time{}
 		j.mu.Unlock()
 		now := time.Now()
 		findingsOwed = findingsOwed || len(batch) > 0
@@ -109,6 +122,12 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 		if withFindings {
 			lastFindings, findingsOwed = now, false
 		}
+		// The next pass fills this one's list; a burst's long list is let go.
+		spare = nil
+		if cap(batch) <= maxSpareBatch {
+			clear(batch)
+			spare = batch
+		}
 		if findingsOwed && findingsDue == nil {
 			findingsDue = time.After(lastFindings.Add(findingsEvery).Sub(now))
 		}
@@ -118,27 +137,31 @@ func (s *Server) runJudge(sessionID uint64, j *roomJudge) {
 // judgePass adds a batch of committed readings to the room, judges each
 // bench that got one and publishes their states, and then, withFindings,
 // the room's findings if they changed.
-func (s *Server) judgePass(sessionID uint64, batch map[uint64][]domain.Reading, withFindings bool) error {
+func (s *Server) judgePass(sessionID uint64, batch []pendingReading, withFindings bool) error {
 	return s.withRoom(sessionID, func(rs *roomState) error {
 		return s.judgeBatch(sessionID, rs, batch, withFindings)
 	})
 }
 
 // judgeBatch is judgePass's work, with the session's publish lock held.
-func (s *Server) judgeBatch(sessionID uint64, rs *roomState, batch map[uint64][]domain.Reading, withFindings bool) error {
+func (s *Server) judgeBatch(sessionID uint64, rs *roomState, batch []pendingReading, withFindings bool) error {
 	now := s.now()
 	var changed []uint64
-	for bid, readings := range batch {
-		if _, known := rs.benches[bid]; !known {
+	seen := make(map[uint64]bool, len(batch))
+	for _, p := range batch {
+		if _, known := rs.benches[p.benchID]; !known {
 			continue
 		}
-		for _, r := range readings {
-			rs.readings[bid] = mergeReading(rs.readings[bid], r)
+		rs.readings[p.benchID] = mergeReading(rs.readings[p.benchID], p.reading)
+		if !seen[p.benchID] {
+			seen[p.benchID] = true
+			changed = append(changed, p.benchID)
 		}
+	}
+	for _, bid := range changed {
 		if err := s.judgeCached(rs, bid, nil); err != nil {
 			return err
 		}
-		changed = append(changed, bid)
 	}
 	// Only the changed benches' stalled flags move here, and the room is
 	// moving because they are: the rule over them alone answers for them.
