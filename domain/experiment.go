@@ -101,17 +101,6 @@ func (v siValues) get(name string) (Measurement, bool) {
 	return Measurement{}, false
 }
 
-// siValuesOf orders converted values as the experiment declares them.
-func siValuesOf(e *Experiment, m map[string]Measurement) siValues {
-	out := make(siValues, 0, len(m))
-	for _, s := range e.Values {
-		if x, ok := m[s.Name]; ok {
-			out = append(out, namedMeasurement{name: s.Name, m: x})
-		}
-	}
-	return out
-}
-
 var experiments = map[string]*Experiment{}
 
 func register(e *Experiment) {
@@ -221,9 +210,11 @@ func siUnit(d Dimension) string {
 	return ""
 }
 
-func (e *Experiment) convertReading(prefix string, values Values) (map[string]Measurement, error) {
+// convertReading checks a reading's values and converts them to SI, in the
+// order the experiment declares them; values that fail are left out.
+func (e *Experiment) convertReading(prefix string, values Values) (siValues, error) {
 	var vs violations
-	out := make(map[string]Measurement, len(e.Values))
+	out := make(siValues, 0, len(e.Values))
 	for _, s := range e.Values {
 		fieldOf := func() string { return fmt.Sprintf("%s[%q]", prefix, s.Name) }
 		q, ok := values.Get(s.Name)
@@ -234,7 +225,7 @@ func (e *Experiment) convertReading(prefix string, values Values) (map[string]Me
 			continue
 		}
 		if m, ok := s.check(fieldOf, q, &vs); ok {
-			out[s.Name] = m
+			out = append(out, namedMeasurement{name: s.Name, m: m})
 		}
 	}
 	if len(out) < len(values) || len(vs) > 0 {

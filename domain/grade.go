@@ -264,7 +264,7 @@ func UnsafeReadings(b Bench, readings []Reading) int {
 		if err != nil {
 			continue
 		}
-		if _, _, unsafe, _ := e.safety(c, []siReading{{values: siValuesOf(e, v)}}); unsafe {
+		if _, _, unsafe, _ := e.safety(c, []siReading{{values: v}}); unsafe {
 			n++
 		}
 	}

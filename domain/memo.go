@@ -79,7 +79,7 @@ type memoReading struct {
 func (m *Memo) convert(e *Experiment, i int, r Reading) (siValues, bool) {
 	if m == nil {
 		v, err := e.convertReading("values", r.Values)
-		return siValuesOf(e, v), err == nil
+		return v, err == nil
 	}
 	m.forExperiment(e)
 	if i < len(m.converted) && m.converted[i].id == r.ID {
@@ -89,7 +89,7 @@ func (m *Memo) convert(e *Experiment, i int, r Reading) (siValues, bool) {
 	// earlier was judged later): the entries from here on are redone.
 	m.converted = m.converted[:min(i, len(m.converted))]
 	v, err := e.convertReading("values", r.Values)
-	c := memoReading{id: r.ID, values: siValuesOf(e, v), ok: err == nil}
+	c := memoReading{id: r.ID, values: v, ok: err == nil}
 	m.converted = append(m.converted, c)
 	return c.values, c.ok
 }
