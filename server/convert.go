@@ -76,19 +76,34 @@ func stateToPB(bench *pb.Bench, a domain.Assessment) *pb.BenchState {
 		Headline:          a.Headline,
 		BreachReadingIds:  a.BreachReadingIDs,
 	}
-	for _, b := range a.Budget {
-		st.Budget = append(st.Budget, &pb.BudgetItem{Input: b.Input, RelativeUncertainty: b.RelU, Share: b.Share})
+	// A bench is judged after every reading: the budget's items, and the
+	// two results, are one allocation each.
+	if len(a.Budget) > 0 {
+		items := make([]pb.BudgetItem, len(a.Budget))
+		st.Budget = make([]*pb.BudgetItem, len(a.Budget))
+		for i, b := range a.Budget {
+			items[i].Input, items[i].RelativeUncertainty, items[i].Share = b.Input, b.RelU, b.Share
+			st.Budget[i] = &items[i]
+		}
 	}
 	if a.ResultUnit != "" {
-		st.Measured = &pb.Quantity{Value: a.Measured.Value, Uncertainty: a.Measured.Uncertainty, Unit: a.ResultUnit}
-		st.Predicted = &pb.Quantity{Value: a.Predicted.Value, Uncertainty: a.Predicted.Uncertainty, Unit: a.ResultUnit}
+		q := make([]pb.Quantity, 2)
+		q[0].Value, q[0].Uncertainty, q[0].Unit = a.Measured.Value, a.Measured.Uncertainty, a.ResultUnit
+		q[1].Value, q[1].Uncertainty, q[1].Unit = a.Predicted.Value, a.Predicted.Uncertainty, a.ResultUnit
+		st.Measured, st.Predicted = &q[0], &q[1]
 	}
 	if !a.LastReadingAt.IsZero() {
 		st.LastReadingAt = timestamppb.New(a.LastReadingAt)
 	}
-	for _, d := range a.Diagnoses {
-		st.Diagnoses = append(st.Diagnoses, &pb.Diagnosis{Code: d.Code, Cause: d.Cause, Evidence: d.Evidence,
-			Action: d.Action, Alternatives: d.Alternatives, Level: domain.LevelOf(d.Code).String(), ReadingId: d.ReadingID, Short: d.Short})
+	if len(a.Diagnoses) > 0 {
+		ds := make([]pb.Diagnosis, len(a.Diagnoses))
+		st.Diagnoses = make([]*pb.Diagnosis, len(a.Diagnoses))
+		for i, d := range a.Diagnoses {
+			x := &ds[i]
+			x.Code, x.Cause, x.Evidence, x.Action, x.Alternatives = d.Code, d.Cause, d.Evidence, d.Action, d.Alternatives
+			x.Level, x.ReadingId, x.Short = domain.LevelOf(d.Code).String(), d.ReadingID, d.Short
+			st.Diagnoses[i] = x
+		}
 	}
 	return st
 }
