@@ -166,12 +166,15 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 	if err != nil {
 		return fmt.Errorf("closed loop: %w", err)
 	}
-	fmt.Fprintf(w, "\nclosed loop, %d callers, each reading durable before its answer and judged after it; a caller sends %d readings to a bench, then takes an unused one (%d lab sections joined; longest run %d):\n",
-		cfg.callers, closedRunLength, closedSections, cl.longestRun)
-	fmt.Fprintf(w, "  over 32 shared connections:   %6.0f readings/s = %.2f × echo, %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (load generator %.0f = %.1f ×)\n",
-		cl.sharedRate, cl.sharedRate/echo, cl.sharedRate/group, cl.sharedCPU.server*1e6, cl.sharedCPU.server/echoCPU.server, cl.sharedCPU.gen*1e6, cl.sharedCPU.gen/echoCPU.gen)
-	fmt.Fprintf(w, "  one connection per station:   %6.0f readings/s = %.2f × echo on one connection each; server CPU %.0f µs/reading = %.1f × echo's per call (load generator %.0f = %.1f ×)\n",
-		cl.ownRate, cl.ownRate/echoOwn, cl.ownCPU.server*1e6, cl.ownCPU.server/echoOwnCPU.server, cl.ownCPU.gen*1e6, cl.ownCPU.gen/echoOwnCPU.gen)
+	fmt.Fprintf(w, "\nclosed loop, %d callers, each reading durable before its answer and judged after it; a caller sends %d readings to a bench, then takes an unused one (%d lab sections joined; longest run %d); %d rounds each between two of the echo over the same connections, ratios of the median round:\n",
+		cfg.callers, closedRunLength, closedSections, cl.longestRun, closedRounds)
+	for _, x := range []struct {
+		name string
+		t    closedTopology
+	}{{"over 32 shared connections:", cl.shared}, {"one connection per station: ", cl.own}} {
+		fmt.Fprintf(w, "  %s %6.0f readings/s = %.2f × echo (%.0f calls/s), %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (%.0f µs; rounds %s); load generator %.0f µs = %.1f ×\n",
+			x.name, x.t.rate, x.t.rateRatio(), x.t.echoRate, x.t.rate/group, x.t.cpu.server*1e6, x.t.cpuRatio(), x.t.echoCPU.server*1e6, ratios(x.t.cpuRatios), x.t.cpu.gen*1e6, x.t.genRatio())
+	}
 
 	var points []sweepPoint
 	for _, ms := range cfg.stations {
@@ -189,7 +192,7 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 			points = append(points, p)
 		}
 	}
-	summarize(w, cfg, shared, own, cl, points, quantile(commits, 0.5))
+	summarize(w, cfg, cl, points, quantile(commits, 0.5))
 	return nil
 }
 
@@ -330,6 +333,15 @@ func (p sweepPoint) print(w io.Writer) {
 		p.growthPerReading, float64(p.heavy.stored)/float64(p.stations), p.usedPerReading, p.diskPerReading)
 }
 
+// ratios prints a list of ratios, "2.6, 2.8, 2.7".
+func ratios(xs []float64) string {
+	parts := make([]string, len(xs))
+	for i, x := range xs {
+		parts[i] = strconv.FormatFloat(x, 'f', 2, 64)
+	}
+	return strings.Join(parts, ", ")
+}
+
 func ms(d time.Duration) float64 { return float64(d.Microseconds()) / 1000 }
 
 // ratio is a / b, or 0 when there is no b to divide by.
@@ -358,14 +370,14 @@ func (t *targetList) add(ok bool, format string, args ...any) {
 // summarize prints the targets, as ratios to the baselines measured in the
 // same run where the machine's speed decides them (#14), and ends with the
 // count met and missed. bareCommitP50 is one bare bbolt commit's p50, ms.
-func summarize(w io.Writer, cfg loadConfig, shared, own echoRates, cl closedResult, points []sweepPoint, bareCommitP50 float64) {
+func summarize(w io.Writer, cfg loadConfig, cl closedResult, points []sweepPoint, bareCommitP50 float64) {
 	fmt.Fprintf(w, "\ntargets\n")
 	t := &targetList{w: w}
-	t.add(cl.sharedCPU.server <= 2.5*shared.echoCPU.server,
-		"server CPU per durable judged reading, closed loop over 32 connections, ≤ 2.5 × the echo's per call: %.1f × (%.0f µs against %.0f)",
-		cl.sharedCPU.server/shared.echoCPU.server, cl.sharedCPU.server*1e6, shared.echoCPU.server*1e6)
-	t.add(cl.sharedRate >= 0.5*shared.echo, "durable judged ingest at %d callers ≥ 0.5 × echo over 32 connections: %.2f", cfg.callers, cl.sharedRate/shared.echo)
-	t.add(cl.ownRate >= 0.6*own.echo, "durable judged ingest at %d callers ≥ 0.6 × echo over one connection each: %.2f", cfg.callers, cl.ownRate/own.echo)
+	t.add(cl.shared.cpuRatio() <= 2.5,
+		"server CPU per durable judged reading, closed loop over 32 connections, ≤ 2.5 × the echo's per call: %.1f × (median of rounds %s; %.0f µs against %.0f over all)",
+		cl.shared.cpuRatio(), ratios(cl.shared.cpuRatios), cl.shared.cpu.server*1e6, cl.shared.echoCPU.server*1e6)
+	t.add(cl.shared.rateRatio() >= 0.5, "durable judged ingest at %d callers ≥ 0.5 × echo over 32 connections: %.2f (rounds %s)", cfg.callers, cl.shared.rateRatio(), ratios(cl.shared.rateRatios))
+	t.add(cl.own.rateRatio() >= 0.6, "durable judged ingest at %d callers ≥ 0.6 × echo over one connection each: %.2f (rounds %s)", cfg.callers, cl.own.rateRatio(), ratios(cl.own.rateRatios))
 	for _, p := range points {
 		if l := p.light; l.offered >= 1000 && p.stations >= 512 && p.watchers == 1 {
 			bound := quantile(p.echoLight.latencies, 0.5) + bareCommitP50 + 0.3

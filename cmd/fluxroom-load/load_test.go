@@ -4,12 +4,14 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"slices"
 	"strings"
 	"testing"
+	"time"
 
 	"google.golang.org/protobuf/proto"
 
@@ -128,5 +130,59 @@ func TestRefusesAMissingProgram(t *testing.T) {
 	var ue usageError
 	if !errors.As(err, &ue) || !strings.Contains(err.Error(), "make build") {
 		t.Errorf("err = %v, want a usage error that says to run make build", err)
+	}
+}
+
+// A machine that slows down through the run slows the echo and fluxroom
+// alike: each fluxroom round set against the echo rounds either side of it
+// keeps the ratio that one early echo would have lost.
+func TestAlternateFollowsTheMachinesDrift(t *testing.T) {
+	var echoRound, fluxRound int
+	echo := func(time.Duration) (float64, closedCPU) {
+		echoRound++ // 10, 20, 30, 40 µs a call: the machine slows down
+		return 1000 / float64(echoRound), closedCPU{server: 10e-6 * float64(echoRound), gen: 5e-6 * float64(echoRound)}
+	}
+	flux := func(time.Duration) (float64, closedCPU) {
+		fluxRound++ // between echo rounds k and k+1: 2.5 × their mean
+		mean := 10e-6 * (float64(fluxRound) + 0.5)
+		return 500 / (float64(fluxRound) + 0.5), closedCPU{server: 2.5 * mean, gen: mean / 2}
+	}
+	got := alternate(3, time.Second, echo, flux)
+	if echoRound != 4 || fluxRound != 3 {
+		t.Fatalf("%d echo and %d fluxroom rounds, want 4 and 3", echoRound, fluxRound)
+	}
+	for i, r := range got.cpuRatios {
+		if math.Abs(r-2.5) > 1e-9 {
+			t.Errorf("round %d: CPU ratio %.3f, want 2.5", i, r)
+		}
+	}
+	if r := got.cpuRatio(); math.Abs(r-2.5) > 1e-9 {
+		t.Errorf("median CPU ratio %.3f, want 2.5", r)
+	}
+	if r := got.genRatio(); math.Abs(r-1) > 1e-9 {
+		t.Errorf("median load-generator ratio %.3f, want 1", r)
+	}
+	// Calls over the mean of the echo's calls either side: the first round
+	// (500 / 1.5) / ((1000 + 500) / 2).
+	if r, want := got.rateRatios[0], 500/1.5/750; math.Abs(r-want) > 1e-9 {
+		t.Errorf("first round's ingest ratio %.4f, want %.4f", r, want)
+	}
+	// Over all rounds: calls over time, CPU over calls.
+	if want := (500/1.5 + 500/2.5 + 500/3.5) / 3; math.Abs(got.rate-want) > 1e-9 {
+		t.Errorf("fluxroom's rate %.2f/s, want %.2f", got.rate, want)
+	}
+	if want := 1e-5 * (1000 + 1000 + 1000 + 1000) / (1000 + 500 + 1000.0/3 + 250); math.Abs(got.echoCPU.server-want) > 1e-12 {
+		t.Errorf("echo's CPU per call %.3g s, want %.3g", got.echoCPU.server, want)
+	}
+}
+
+func TestMedian(t *testing.T) {
+	for _, tc := range []struct {
+		xs   []float64
+		want float64
+	}{{nil, 0}, {[]float64{3}, 3}, {[]float64{3, 1, 2}, 2}, {[]float64{4, 1, 3, 2}, 2.5}} {
+		if got := median(tc.xs); got != tc.want {
+			t.Errorf("median(%v) = %g, want %g", tc.xs, got, tc.want)
+		}
 	}
 }

@@ -164,12 +164,85 @@ func closedRun(callers int, dur time.Duration, c *child, call func(ctx context.C
 	return float64(n.Load()), closedCPU{server: (c.cpu() - cpu0) / calls, gen: (selfCPU() - gen0) / calls}
 }
 
+// closedResult is the closed loop over each topology, each set against
+// the echo's rounds between its own.
 type closedResult struct {
-	sharedRate, ownRate float64
-	sharedCPU, ownCPU   closedCPU
+	shared, own closedTopology
 	// longestRun bounds the readings one bench got in either loop.
 	longestRun int
 }
+
+// closedRounds is how many rounds of fluxroom's closed loop each topology
+// runs, each between two rounds of the echo over the same topology: this
+// machine's speed drifts by 2× within the hour, so a round is divided by
+// the echo either side of it, and the median round's ratios are the
+// figures. Two runs of the program a minute apart differed by more than
+// the changes they were to measure when the echo ran once, at the start.
+const closedRounds = 3
+
+// closedTopology is fluxroom's closed loop over one topology and the echo's
+// rounds beside it.
+type closedTopology struct {
+	rate     float64   // fluxroom's readings/s over all its rounds
+	cpu      closedCPU // per reading, over all its rounds
+	echoRate float64   // the echo's calls/s over all its rounds
+	echoCPU  closedCPU // per call, over all its rounds
+	// Each fluxroom round over the mean of the echo rounds either side:
+	// ingest, and server and load-generator CPU per call.
+	rateRatios, cpuRatios, genRatios []float64
+}
+
+// rateRatio, cpuRatio and genRatio are the median round's.
+func (t closedTopology) rateRatio() float64 { return median(t.rateRatios) }
+func (t closedTopology) cpuRatio() float64  { return median(t.cpuRatios) }
+func (t closedTopology) genRatio() float64  { return median(t.genRatios) }
+
+func median(xs []float64) float64 {
+	if len(xs) == 0 {
+		return 0
+	}
+	s := slices.Clone(xs)
+	slices.Sort(s)
+	if n := len(s); n%2 == 0 {
+		return (s[n/2-1] + s[n/2]) / 2
+	}
+	return s[len(s)/2]
+}
+
+// alternate runs the echo and fluxroom by turns, echo first and last, each
+// round for dur, and sets each fluxroom round against the echo's either
+// side of it.
+func alternate(rounds int, dur time.Duration, echo, flux func(time.Duration) (float64, closedCPU)) closedTopology {
+	var t closedTopology
+	var fluxN, echoN float64
+	var fluxCPU, echoCPU closedCPU
+	en, ec := echo(dur)
+	echoN, echoCPU = en, ec.times(en)
+	for range rounds {
+		n, c := flux(dur)
+		fluxN, fluxCPU = fluxN+n, fluxCPU.plus(c.times(n))
+		en2, ec2 := echo(dur)
+		echoN, echoCPU = echoN+en2, echoCPU.plus(ec2.times(en2))
+		// Rates over equal rounds: calls over the mean of the echo's calls.
+		t.rateRatios = append(t.rateRatios, ratioOf(n, (en+en2)/2))
+		t.cpuRatios = append(t.cpuRatios, ratioOf(c.server, (ec.server+ec2.server)/2))
+		t.genRatios = append(t.genRatios, ratioOf(c.gen, (ec.gen+ec2.gen)/2))
+		en, ec = en2, ec2
+	}
+	t.rate, t.cpu = fluxN/(float64(rounds)*dur.Seconds()), fluxCPU.times(1/max(1, fluxN))
+	t.echoRate, t.echoCPU = echoN/(float64(rounds+1)*dur.Seconds()), echoCPU.times(1/max(1, echoN))
+	return t
+}
+
+func ratioOf(a, b float64) float64 {
+	if b == 0 {
+		return 0
+	}
+	return a / b
+}
+
+func (c closedCPU) times(k float64) closedCPU  { return closedCPU{c.server * k, c.gen * k} }
+func (c closedCPU) plus(d closedCPU) closedCPU { return closedCPU{c.server + d.server, c.gen + d.gen} }
 
 // closedRunLength and closedSections keep the closed loop's benches at a
 // lab's run length: a caller submits closedRunLength readings to a bench,
@@ -206,7 +279,8 @@ func (r *loadRoom) takeSeats(n int) ([]seat, error) {
 // closedLoops measures the durable ingest ceiling: callers submitting as
 // fast as answers come, first over 32 shared connections (each call with
 // its own station's token, as the echo baseline), then each caller on its
-// own station's connection. The rate limit is lifted for it.
+// own station's connection, each by turns with the bare echo over the same
+// connections (alternate). The rate limit is lifted for it.
 func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	var res closedResult
 	args := []string{"--station-rate", "1e9", "--station-burst", "1000000000"}
@@ -219,47 +293,95 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	}
 	defer r.c.stop()
 	defer r.close()
-	var shared []rpcpb.StationServiceClient
-	for i := 0; i < 32; i++ {
-		c, err := grpc.NewClient(r.c.addr, stationDialOptions()...)
-		if err != nil {
-			return res, err
+	e, _, err := startEcho()
+	if err != nil {
+		return res, err
+	}
+	defer e.stop()
+	dial := func(addr string, n int) ([]*grpc.ClientConn, error) {
+		var ccs []*grpc.ClientConn
+		for range n {
+			c, err := grpc.NewClient(addr, stationDialOptions()...)
+			if err != nil {
+				return nil, err
+			}
+			r.conns = append(r.conns, c) // closed with the room
+			ccs = append(ccs, c)
 		}
-		r.conns = append(r.conns, c)
+		return ccs, nil
+	}
+	readings := make([]*pb.SubmitReadingRequest, cfg.callers)
+	for i := range readings {
+		readings[i] = (&loadStation{sid: 1, bid: uint64(i + 1)}).reading()
+	}
+	// echoOver dials n connections to the echo and uses each once, so its
+	// rounds do not pay for connecting, as the stations' did not.
+	echoOver := func(n int) (func(time.Duration) (float64, closedCPU), error) {
+		ccs, err := dial(e.addr, n)
+		if err != nil {
+			return nil, err
+		}
+		err = openEach(n, func(i int) error {
+			return ccs[i].Invoke(context.Background(), echoMethod, readings[i%len(readings)], new(pb.SubmitReadingRequest))
+		})
+		return func(dur time.Duration) (float64, closedCPU) {
+			return closedRun(cfg.callers, dur, e, func(ctx context.Context, i int) error {
+				return ccs[i%len(ccs)].Invoke(ctx, echoMethod, readings[i], new(pb.SubmitReadingRequest))
+			})
+		}, err
+	}
+	sharedConns, err := dial(r.c.addr, 32)
+	if err != nil {
+		return res, err
+	}
+	var shared []rpcpb.StationServiceClient
+	for _, c := range sharedConns {
 		shared = append(shared, rpcpb.NewStationServiceClient(c))
 	}
 	// Caller i is station i: it alone touches the station and sent[i].
-	run := func(seats []seat, client func(i int) rpcpb.StationServiceClient) (float64, closedCPU) {
+	sent := make([]int, len(r.stations))
+	flux := func(seats []seat, client func(i int) rpcpb.StationServiceClient) func(time.Duration) (float64, closedCPU) {
 		var taken atomic.Int64
-		sent := make([]int, len(r.stations))
-		n, cpu := closedRun(cfg.callers, cfg.dur, r.c, func(ctx context.Context, i int) error {
-			s := r.stations[i]
-			if sent[i]%closedRunLength == 0 {
-				st := seats[int(taken.Add(1)-1)%len(seats)]
-				s.sid, s.bid, s.token = st.sid, st.bid, st.token
-			}
-			sent[i]++
-			_, err := client(i).SubmitReading(ctx, s.reading(), s.creds())
-			return err
-		})
-		// Past the last seat, callers went round again: runs grew by a
-		// run length each time.
-		res.longestRun = max(res.longestRun, int((taken.Load()+int64(len(seats))-1)/int64(len(seats)))*closedRunLength)
-		return n, cpu
+		return func(dur time.Duration) (float64, closedCPU) {
+			n, cpu := closedRun(cfg.callers, dur, r.c, func(ctx context.Context, i int) error {
+				s := r.stations[i]
+				if sent[i]%closedRunLength == 0 {
+					st := seats[int(taken.Add(1)-1)%len(seats)]
+					s.sid, s.bid, s.token = st.sid, st.bid, st.token
+				}
+				sent[i]++
+				_, err := client(i).SubmitReading(ctx, s.reading(), s.creds())
+				return err
+			})
+			// Past the last seat, callers went round again: runs grew by
+			// a run length each time.
+			res.longestRun = max(res.longestRun, int((taken.Load()+int64(len(seats))-1)/int64(len(seats)))*closedRunLength)
+			return n, cpu
+		}
+	}
+	round := cfg.dur / 2
+	echoShared, err := echoOver(32)
+	if err != nil {
+		return res, err
 	}
 	seats, err := r.takeSeats(closedSections)
 	if err != nil {
 		return res, err
 	}
-	n, cpu := run(seats, func(i int) rpcpb.StationServiceClient { return shared[i%len(shared)] })
-	res.sharedRate, res.sharedCPU = n/cfg.dur.Seconds(), cpu
+	res.shared = alternate(closedRounds, round, echoShared,
+		flux(seats, func(i int) rpcpb.StationServiceClient { return shared[i%len(shared)] }))
 	if err := r.connectAll(); err != nil {
+		return res, err
+	}
+	echoOwn, err := echoOver(cfg.callers)
+	if err != nil {
 		return res, err
 	}
 	if seats, err = r.takeSeats(closedSections); err != nil {
 		return res, err
 	}
-	n, cpu = run(seats, func(i int) rpcpb.StationServiceClient { return r.stations[i].st })
-	res.ownRate, res.ownCPU = n/cfg.dur.Seconds(), cpu
+	clear(sent)
+	res.own = alternate(closedRounds, round, echoOwn,
+		flux(seats, func(i int) rpcpb.StationServiceClient { return r.stations[i].st }))
 	return res, nil
 }
