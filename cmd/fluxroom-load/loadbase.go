@@ -224,21 +224,14 @@ func alternate(rounds int, dur time.Duration, echo, flux func(time.Duration) (fl
 		en2, ec2 := echo(dur)
 		echoN, echoCPU = echoN+en2, echoCPU.plus(ec2.times(en2))
 		// Rates over equal rounds: calls over the mean of the echo's calls.
-		t.rateRatios = append(t.rateRatios, ratioOf(n, (en+en2)/2))
-		t.cpuRatios = append(t.cpuRatios, ratioOf(c.server, (ec.server+ec2.server)/2))
-		t.genRatios = append(t.genRatios, ratioOf(c.gen, (ec.gen+ec2.gen)/2))
+		t.rateRatios = append(t.rateRatios, ratio(n, (en+en2)/2))
+		t.cpuRatios = append(t.cpuRatios, ratio(c.server, (ec.server+ec2.server)/2))
+		t.genRatios = append(t.genRatios, ratio(c.gen, (ec.gen+ec2.gen)/2))
 		en, ec = en2, ec2
 	}
 	t.rate, t.cpu = fluxN/(float64(rounds)*dur.Seconds()), fluxCPU.times(1/max(1, fluxN))
 	t.echoRate, t.echoCPU = echoN/(float64(rounds+1)*dur.Seconds()), echoCPU.times(1/max(1, echoN))
 	return t
-}
-
-func ratioOf(a, b float64) float64 {
-	if b == 0 {
-		return 0
-	}
-	return a / b
 }
 
 func (c closedCPU) times(k float64) closedCPU  { return closedCPU{c.server * k, c.gen * k} }
