@@ -58,8 +58,8 @@ func run(ctx context.Context, stdout, stderr io.Writer, args []string) error {
 	dur := fs.Duration("duration", 0, "length of each phase (default 1.5 s; 5 s with --full)")
 	callers := fs.Int("callers", 512, "concurrent callers of the closed loop and its echo baseline")
 	flooders := fs.Int("flooders", 4, "concurrent callers of the one flooding station in the fairness phase")
-	memLimit := fs.String("server-memory-limit", "", "run the sweep's servers with serve --memory-limit (e.g. 300MiB, or none)")
-	gcPercent := fs.Int("server-gc-percent", 0, "run the sweep's servers with serve --gc-percent")
+	memLimit := fs.String("server-memory-limit", "", "run the measured servers with serve --memory-limit (e.g. 300MiB, or none)")
+	gcPercent := fs.Int("server-gc-percent", 0, "run the measured servers with serve --gc-percent")
 	profile := fs.String("server-cpuprofile", "", "write each measured server's CPU profile to PREFIX-closed.prof and PREFIX-M-W.prof")
 	genProfile := fs.String("cpuprofile", "", "write the load generator's own CPU profile to this file")
 	if err := parse(fs, args); err != nil {
@@ -196,6 +196,19 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 	return nil
 }
 
+// collectorArgs are the serve flags that set the collector of every server
+// the program measures.
+func (cfg loadConfig) collectorArgs() []string {
+	var args []string
+	if cfg.gcPercent > 0 {
+		args = append(args, "--gc-percent", strconv.Itoa(cfg.gcPercent))
+	}
+	if cfg.memLimit != "" {
+		args = append(args, "--memory-limit", cfg.memLimit)
+	}
+	return args
+}
+
 // capRate is an open-loop rate as n stations can offer it, each sending at
 // most perStation readings a second.
 func (cfg loadConfig) capRate(rate float64, n int) float64 {
@@ -224,13 +237,7 @@ func sweep(dir string, cfg loadConfig, stations, watchers int) (sweepPoint, erro
 	p := sweepPoint{stations: stations, watchers: watchers}
 	// The sections follow one another within seconds here, where a real
 	// room is hours apart: a quiet room leaves memory after a second.
-	args := []string{"--station-rate", loadStationRate, "--station-burst", loadStationBurst, "--room-idle", "1s"}
-	if cfg.gcPercent > 0 {
-		args = append(args, "--gc-percent", strconv.Itoa(cfg.gcPercent))
-	}
-	if cfg.memLimit != "" {
-		args = append(args, "--memory-limit", cfg.memLimit)
-	}
+	args := append([]string{"--station-rate", loadStationRate, "--station-burst", loadStationBurst, "--room-idle", "1s"}, cfg.collectorArgs()...)
 	if cfg.profile != "" {
 		args = append(args, "--cpuprofile", fmt.Sprintf("%s-%d-%d.prof", cfg.profile, stations, watchers))
 	}

@@ -276,7 +276,7 @@ func (r *loadRoom) takeSeats(n int) ([]seat, error) {
 // connections (alternate). The rate limit is lifted for it.
 func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	var res closedResult
-	args := []string{"--station-rate", "1e9", "--station-burst", "1000000000"}
+	args := append([]string{"--station-rate", "1e9", "--station-burst", "1000000000"}, cfg.collectorArgs()...)
 	if cfg.profile != "" {
 		args = append(args, "--cpuprofile", cfg.profile+"-closed.prof")
 	}
