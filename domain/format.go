@@ -31,7 +31,7 @@ func FormatMeasurement(v, u float64, unit string) string {
 	}
 	dec := max(uncertaintyDecimals(u), 0)
 	// Appended, not Sprintf'd: every judging writes a reason with two of
-	// these, and fmt was a tenth of a coil-force judging's time.
+	// these, and fmt was a fifth of a coil-force judging's time.
 	b := make([]byte, 0, 32+len(unit))
 	if exp != 0 {
 		b = append(b, '(')
