@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -46,12 +47,15 @@ func openBolt(path string, opts *bbolt.Options) (*bbolt.DB, error) {
 // DB is the fluxroom database: one bbolt file.
 type DB struct {
 	bolt *bbolt.DB
-	// appends feeds the one writer that commits readings in groups.
-	appends chan appendReq
-	// ids is the writer's index of reading ids (see ids.go).
+	// queueMu guards the readings waiting for a commit and whether one of
+	// their callers is committing (see AppendReading).
+	queueMu    sync.Mutex
+	queue      []appendReq
+	committing bool
+	// ids is the committers' index of reading ids (see ids.go).
 	ids readingIDs
-	wg  sync.WaitGroup
-	// closeMu keeps AppendReading from sending after Close.
+	// closeMu is held for reading by every AppendReading and for writing
+	// by Close, which so waits for the commits under way.
 	closeMu sync.RWMutex
 	closed  bool
 	// onCommit, when set, hears of every group commit of readings.
@@ -74,6 +78,8 @@ type appendRes struct {
 	stored    domain.Reading
 	duplicate bool
 	err       error
+	// lead, instead of a result, hands the committing on to the caller.
+	lead bool
 }
 
 // maxGroup bounds how many readings one commit takes.
@@ -116,13 +122,11 @@ func Open(path string, opts Options) (*DB, error) {
 	if err != nil {
 		return nil, err
 	}
-	db := &DB{bolt: b, appends: make(chan appendReq, maxGroup)}
+	db := &DB{bolt: b}
 	if err := b.Update(db.prepare); err != nil {
 		b.Close()
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	db.wg.Add(1)
-	go db.writer()
 	return db, nil
 }
 
@@ -152,75 +156,79 @@ func openReadOnly(path string, opts Options) (*DB, error) {
 		b.Close()
 		return nil, fmt.Errorf("store: open %s: %w", path, err)
 	}
-	db := &DB{bolt: b, appends: make(chan appendReq), closed: true}
-	close(db.appends)
-	return db, nil
+	return &DB{bolt: b, closed: true}, nil
 }
 
-// writer commits the readings that arrive while the previous commit runs
-// in one transaction: group commit. Each waits for its own result, sent
-// only after bbolt's commit (and its fsync) returned, so nothing is
-// acknowledged before it is on disk, and one fsync serves many stations.
-func (db *DB) writer() {
-	defer db.wg.Done()
-	for first := range db.appends {
-		group := []appendReq{first}
-	drain:
-		for len(group) < maxGroup {
-			select {
-			case req, ok := <-db.appends:
-				if !ok {
-					break drain
-				}
-				group = append(group, req)
-			default:
-				break drain
-			}
-		}
-		results := make([]appendRes, len(group))
-		// Ids taken by this group; taken back if the commit fails.
-		type taken struct {
-			s         *sessionIDs
-			benchID   uint64
-			readingID string
-		}
-		var took []taken
-		now := time.Now()
-		var commitStart time.Time
-		err := db.bolt.Update(func(tx *bbolt.Tx) error {
-			// bbolt commits, and fsyncs, when this returns.
-			defer func() { commitStart = time.Now() }()
-			for i, req := range group {
-				ids, err := db.ids.session(tx, req.sessionID, now)
-				if err != nil {
-					results[i].err = err
-					continue
-				}
-				results[i].stored, results[i].duplicate, results[i].err = appendOne(tx, ids, req.sessionID, req.benchID, req.r)
-				if results[i].err == nil && !results[i].duplicate {
-					took = append(took, taken{ids, req.benchID, req.r.ID})
-				}
-			}
-			return nil
-		})
-		if err != nil {
-			for _, t := range took {
-				t.s.remove(t.benchID, t.readingID)
-			}
-		}
-		// Told before the answers go, so a reading acknowledged is a
-		// reading counted.
-		if fn := db.onCommit.Load(); fn != nil && err == nil {
-			(*fn)(len(group), time.Since(commitStart))
-		}
-		for i, req := range group {
-			if err != nil {
-				results[i] = appendRes{err: err}
-			}
-			req.done <- results[i]
-		}
-		db.ids.sweep(now)
+// commit writes a group of readings in one transaction and sends each
+// its result, only after bbolt's commit (and its fsync) returned, so
+// nothing is acknowledged before it is on disk.
+func (db *DB) commit(group []appendReq) {
+	results := make([]appendRes, len(group))
+	// Ids taken by this group; taken back if the commit fails.
+	type taken struct {
+		s         *sessionIDs
+		benchID   uint64
+		readingID string
 	}
+	var took []taken
+	now := time.Now()
+	var commitStart time.Time
+	err := db.bolt.Update(func(tx *bbolt.Tx) error {
+		// bbolt commits, and fsyncs, when this returns.
+		defer func() { commitStart = time.Now() }()
+		for i, req := range group {
+			ids, err := db.ids.session(tx, req.sessionID, now)
+			if err != nil {
+				results[i].err = err
+				continue
+			}
+			results[i].stored, results[i].duplicate, results[i].err = appendOne(tx, ids, req.sessionID, req.benchID, req.r)
+			if results[i].err == nil && !results[i].duplicate {
+				took = append(took, taken{ids, req.benchID, req.r.ID})
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		for _, t := range took {
+			t.s.remove(t.benchID, t.readingID)
+		}
+	}
+	// Told before the answers go, so a reading acknowledged is a reading
+	// counted.
+	if fn := db.onCommit.Load(); fn != nil && err == nil {
+		(*fn)(len(group), time.Since(commitStart))
+	}
+	for i, req := range group {
+		if err != nil {
+			results[i] = appendRes{err: err}
+		}
+		req.done <- results[i]
+	}
+	db.ids.sweep(now)
+}
+
+// lead commits the readings waiting, its caller's among them, in one
+// group of at most maxGroup, then hands the committing to the first
+// caller still waiting, or ends it when none is.
+func (db *DB) lead() {
+	db.queueMu.Lock()
+	n := min(len(db.queue), maxGroup)
+	group := slices.Clone(db.queue[:n])
+	rest := copy(db.queue, db.queue[n:])
+	clear(db.queue[rest:]) // let the committed readings go
+	db.queue = db.queue[:rest]
+	db.queueMu.Unlock()
+	db.commit(group)
+	db.queueMu.Lock()
+	if len(db.queue) == 0 {
+		db.committing = false
+		db.queueMu.Unlock()
+		return
+	}
+	next := db.queue[0]
+	db.queueMu.Unlock()
+	next.done <- appendRes{lead: true}
 }
 
 func (db *DB) prepare(tx *bbolt.Tx) error {
@@ -309,15 +317,12 @@ func (db *DB) Ping() error {
 	})
 }
 
-// Close stops the writer and closes the file.
+// Close waits for the commits under way and closes the file; appends
+// after it are errors.
 func (db *DB) Close() error {
 	db.closeMu.Lock()
-	if !db.closed {
-		db.closed = true
-		close(db.appends)
-	}
+	db.closed = true
 	db.closeMu.Unlock()
-	db.wg.Wait()
 	return db.bolt.Close()
 }
 
@@ -810,17 +815,37 @@ func eachReading(tx *bbolt.Tx, sessionID, only uint64, fn func(benchID, seq uint
 // AppendReading stores a reading for a bench, in one transaction with its
 // id index; it returns once that transaction is committed. When the bench
 // already has a reading with the same ID, nothing is written and the stored
-// reading is returned with duplicate true. Concurrent calls share commits.
+// reading is returned with duplicate true.
+//
+// Concurrent calls share commits (group commit): the caller that finds no
+// commit under way commits itself, with whatever readings queued by then,
+// and the readings that queue meanwhile go in the next commit, made by the
+// first of their callers. A caller on a quiet server so commits its own
+// reading on its own goroutine, with no hand-off to a writer and back, and
+// one fsync serves many stations on a busy one.
 func (db *DB) AppendReading(sessionID, benchID uint64, r domain.Reading) (stored domain.Reading, duplicate bool, err error) {
-	done := make(chan appendRes, 1)
 	db.closeMu.RLock()
+	defer db.closeMu.RUnlock()
 	if db.closed {
-		db.closeMu.RUnlock()
 		return domain.Reading{}, false, errors.New("store: append reading: the database is closed")
 	}
-	db.appends <- appendReq{sessionID: sessionID, benchID: benchID, r: r, done: done}
-	db.closeMu.RUnlock()
-	res := <-done
+	done := make(chan appendRes, 1)
+	db.queueMu.Lock()
+	db.queue = append(db.queue, appendReq{sessionID: sessionID, benchID: benchID, r: r, done: done})
+	leader := !db.committing
+	db.committing = true
+	db.queueMu.Unlock()
+	if !leader {
+		res := <-done
+		if !res.lead {
+			return res.result()
+		}
+	}
+	db.lead()
+	return (<-done).result()
+}
+
+func (res appendRes) result() (domain.Reading, bool, error) {
 	if res.err != nil {
 		return domain.Reading{}, false, fmt.Errorf("store: append reading: %w", res.err)
 	}
