@@ -11,7 +11,7 @@ import (
 // A station's retry must store nothing new, so every append looks up its
 // bench and reading id. The file keeps no index for that: it would be a
 // random page write per reading (half the cost of an append, and a third
-// of the file). The one writer keeps the index in memory instead, per
+// of the file). The committer keeps the index in memory instead, per
 // session, read from the session's readings the first time the session
 // gets one after the file is opened, and let go when the session has been
 // quiet for idsIdle. The readings are the truth; the index is rebuilt from
@@ -20,8 +20,9 @@ import (
 // idsIdle is how long a quiet session's reading ids stay in memory.
 const idsIdle = 10 * time.Minute
 
-// readingIDs is the writer's index: session → bench → reading id →
-// sequence. Only the writer goroutine touches it.
+// readingIDs is the committers' index: session → bench → reading id →
+// sequence. Only the caller committing touches it, one at a time
+// (DB.AppendReading).
 type readingIDs struct {
 	sessions  map[uint64]*sessionIDs
 	lastSweep time.Time
