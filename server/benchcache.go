@@ -1,7 +1,9 @@
 package server
 
 import (
+	"cmp"
 	"errors"
+	"slices"
 	"sync"
 
 	"example.com/fluxroom/domain"
@@ -9,7 +11,9 @@ import (
 )
 
 // bench loads a bench named by a request, as a field error when it is not
-// there.
+// there: from its session's list in the cache, so that a campus's benches
+// are held once, and a session's first reading after a change of its
+// benches reads them all in one transaction.
 func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
 	if sessionID == 0 {
 		return domain.Bench{}, domain.Invalid("session_id", "is missing")
@@ -17,19 +21,18 @@ func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
 	if benchID == 0 {
 		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
 	}
-	if b, ok := s.benches.get(sessionID, benchID); ok {
-		return b, nil
-	}
-	gen := s.benches.generation(sessionID)
-	b, err := s.db.Bench(sessionID, benchID)
+	bs, err := s.sessionBenches(sessionID)
 	if errors.Is(err, store.ErrNotFound) {
 		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
 	}
 	if err != nil {
 		return domain.Bench{}, err
 	}
-	s.benches.put(sessionID, b, gen)
-	return b, nil
+	i, found := slices.BinarySearchFunc(bs, benchID, func(b domain.Bench, id uint64) int { return cmp.Compare(b.ID, id) })
+	if !found {
+		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
+	}
+	return bs[i], nil
 }
 
 // sessionBenches is a session's benches in id order, as JoinBench looks a
@@ -48,13 +51,12 @@ func (s *Server) sessionBenches(sessionID uint64) ([]domain.Bench, error) {
 	return bs, nil
 }
 
-// benchCache holds benches read from the file, one by one and whole
-// sessions' lists. Every write of a session's benches calls forget, which
-// also bumps the session's generation, so a read that raced with the write
-// is not cached.
+// benchCache holds sessions' lists of benches read from the file. Every
+// write of a session's benches calls forget, which also bumps the
+// session's generation, so a read that raced with the write is not
+// cached.
 type benchCache struct {
 	mu  sync.RWMutex
-	m   map[[2]uint64]domain.Bench
 	all map[uint64][]domain.Bench
 	gen map[uint64]uint64
 }
@@ -79,29 +81,10 @@ func (c *benchCache) putList(sessionID uint64, bs []domain.Bench, gen uint64) {
 	c.all[sessionID] = bs
 }
 
-func (c *benchCache) get(sessionID, benchID uint64) (domain.Bench, bool) {
-	c.mu.RLock()
-	defer c.mu.RUnlock()
-	b, ok := c.m[[2]uint64{sessionID, benchID}]
-	return b, ok
-}
-
 func (c *benchCache) generation(sessionID uint64) uint64 {
 	c.mu.RLock()
 	defer c.mu.RUnlock()
 	return c.gen[sessionID]
-}
-
-func (c *benchCache) put(sessionID uint64, b domain.Bench, gen uint64) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	if c.gen[sessionID] != gen {
-		return
-	}
-	if c.m == nil {
-		c.m = map[[2]uint64]domain.Bench{}
-	}
-	c.m[[2]uint64{sessionID, b.ID}] = b
 }
 
 // forget drops a session's cached benches; call it after writing them.
@@ -113,9 +96,4 @@ func (c *benchCache) forget(sessionID uint64) {
 	}
 	c.gen[sessionID]++
 	delete(c.all, sessionID)
-	for k := range c.m {
-		if k[0] == sessionID {
-			delete(c.m, k)
-		}
-	}
 }
