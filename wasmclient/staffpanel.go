@@ -159,6 +159,7 @@ func (p *StaffPanel) Render() app.UI {
 				if m.Revoked {
 					state = "revoked"
 				}
+				removable := p.removable(m)
 				return app.Tr().Attr("data-staff", m.Name).Body(
 					app.Td().Text(m.Name),
 					app.Td().Text(rolesLine(m.Roles)),
@@ -166,8 +167,8 @@ func (p *StaffPanel) Render() app.UI {
 					app.Td().Body(
 						app.If(p.Who.manages(m, true), app.Button().Class("rotate").Text("New key").OnClick(func(ctx app.Context, e app.Event) { p.rotate(ctx, m) })),
 						app.If(!m.Revoked && p.Who.manages(m, false), app.Button().Class("revoke").Text("Revoke").OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m, "") })),
-						app.Range(p.removable(m)).Slice(func(j int) app.UI {
-							course := p.removable(m)[j]
+						app.Range(removable).Slice(func(j int) app.UI {
+							course := removable[j]
 							return app.Button().Class("remove-role").Text("Remove from " + course).OnClick(func(ctx app.Context, e app.Event) { p.revoke(ctx, m, course) })
 						}),
 					),
