@@ -45,7 +45,7 @@ type QuantityMessage interface {
 func ValuesFrom[Q QuantityMessage](m map[string]Q) Values {
 	v := make(Values, 0, len(m))
 	for name, q := range m {
-		v = append(v, NamedQuantity{name, quantityOf(q)})
+		v = append(v, NamedQuantity{name, QuantityOf(q)})
 	}
 	SortValues(v)
 	return v
@@ -56,12 +56,13 @@ func ValuesFrom[Q QuantityMessage](m map[string]Q) Values {
 func QuantitiesFrom[Q QuantityMessage](m map[string]Q) map[string]Quantity {
 	out := make(map[string]Quantity, len(m))
 	for name, q := range m {
-		out[name] = quantityOf(q)
+		out[name] = QuantityOf(q)
 	}
 	return out
 }
 
-func quantityOf[Q QuantityMessage](q Q) Quantity {
+// QuantityOf is a quantity message's quantity.
+func QuantityOf[Q QuantityMessage](q Q) Quantity {
 	return Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
 }
 

@@ -45,7 +45,7 @@ func valuesFromRecords(l []*recordpb.NamedQuantity) domain.Values {
 	v := make(domain.Values, len(l))
 	sorted := true
 	for i, nq := range l {
-		v[i] = domain.NamedQuantity{Name: nq.GetName(), Quantity: quantityFromRecord(nq.GetQuantity())}
+		v[i] = domain.NamedQuantity{Name: nq.GetName(), Quantity: domain.QuantityOf(nq.GetQuantity())}
 		sorted = sorted && (i == 0 || v[i-1].Name < v[i].Name)
 	}
 	if !sorted {
@@ -59,13 +59,9 @@ func valuesFromRecords(l []*recordpb.NamedQuantity) domain.Values {
 func constantsFromRecords(l []*recordpb.NamedQuantity) map[string]domain.Quantity {
 	m := make(map[string]domain.Quantity, len(l))
 	for _, nq := range l {
-		m[nq.GetName()] = quantityFromRecord(nq.GetQuantity())
+		m[nq.GetName()] = domain.QuantityOf(nq.GetQuantity())
 	}
 	return m
-}
-
-func quantityFromRecord(q *recordpb.Quantity) domain.Quantity {
-	return domain.Quantity{Value: q.GetValue(), Unit: q.GetUnit(), Uncertainty: q.GetUncertainty()}
 }
 
 func sessionRecord(s domain.Session) *recordpb.Session {
