@@ -307,7 +307,7 @@ func (ss staffService) RevokeStaff(ctx context.Context, req *pb.RevokeStaffReque
 		}
 		return &pb.RevokeStaffResponse{Staff: staffToPB(a.Staff)}, nil
 	}
-	a, _, err := ss.change(ctx, req.GetStaffId(), false, "revoked")
+	a, _, err := ss.change(ctx, req.GetStaffId(), false)
 	if err != nil {
 		return nil, err
 	}
@@ -330,7 +330,7 @@ func (ss staffService) removeRole(ctx context.Context, id uint64, course string)
 		return store.StaffAccount{}, err
 	}
 	if len(a.Roles) == 1 {
-		a, _, err := ss.changeLocked(c, a, false, "revoked")
+		a, _, err := ss.changeLocked(c, a, false)
 		return a, err
 	}
 	roles := maps.Clone(a.Roles)
@@ -347,17 +347,17 @@ func (ss staffService) removeRole(ctx context.Context, id uint64, course string)
 // RotateStaffKey gives an account a new key, shown once; the old key stops at once, open streams
 // too. A revoked account comes back with the new key. Anyone may rotate their own key.
 func (ss staffService) RotateStaffKey(ctx context.Context, req *pb.RotateStaffKeyRequest) (*pb.RotateStaffKeyResponse, error) {
-	a, key, err := ss.change(ctx, req.GetStaffId(), true, "replaced")
+	a, key, err := ss.change(ctx, req.GetStaffId(), true)
 	if err != nil {
 		return nil, err
 	}
 	return &pb.RotateStaffKeyResponse{Staff: staffToPB(a.Staff), Key: key}, nil
 }
 
-// change revokes an account ("revoked") or gives it a new key
-// ("replaced", returned), as the caller may, and ends the streams of its
-// old key with the reason.
-func (ss staffService) change(ctx context.Context, id uint64, rotate bool, what string) (store.StaffAccount, string, error) {
+// change revokes an account, or with rotate gives it a new key (returned),
+// as the caller may, and ends the streams of its old key with the reason.
+// Anyone may rotate their own key, not revoke it.
+func (ss staffService) change(ctx context.Context, id uint64, rotate bool) (store.StaffAccount, string, error) {
 	c, err := staffCaller(ctx)
 	if err != nil {
 		return store.StaffAccount{}, "", err
@@ -369,18 +369,17 @@ func (ss staffService) change(ctx context.Context, id uint64, rotate bool, what 
 	if err != nil {
 		return store.StaffAccount{}, "", err
 	}
-	return ss.changeLocked(c, a, rotate, what)
+	return ss.changeLocked(c, a, rotate)
 }
 
 // changeLocked is change on an account already found and checked; call
 // with the staff lock held.
-func (ss staffService) changeLocked(c caller, a store.StaffAccount, rotate bool, what string) (store.StaffAccount, string, error) {
+func (ss staffService) changeLocked(c caller, a store.StaffAccount, rotate bool) (store.StaffAccount, string, error) {
 	k := ss.s.staff
-	var key string
-	var hash []byte
+	what, key, hash := "revoked", "", []byte(nil)
 	if rotate {
 		key = newKey()
-		hash = hashKey(key)
+		what, hash = "replaced", hashKey(key)
 	}
 	a, err := ss.s.db.UpdateStaff(a.ID, !rotate, hash)
 	if err != nil {
