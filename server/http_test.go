@@ -128,7 +128,8 @@ func TestJoinQRCode(t *testing.T) {
 }
 
 // TestJudgeLagMetric: each judge pass records how long its oldest reading
-// waited from its commit to its bench's state being published.
+// waited from its commit to its bench's state being published, and counts
+// the benches it judged.
 func TestJudgeLagMetric(t *testing.T) {
 	r := startRig(t)
 	sess, benches := setupRoom(t, r)
@@ -137,7 +138,7 @@ func TestJudgeLagMetric(t *testing.T) {
 			t.Fatal(err)
 		}
 	}
-	var count, sum float64
+	var count, sum, judgings float64
 	for try := 0; try < 100 && count == 0; try++ {
 		time.Sleep(20 * time.Millisecond)
 		resp, err := http.Get("http://" + r.addr + "/metrics")
@@ -154,11 +155,18 @@ func TestJudgeLagMetric(t *testing.T) {
 					count = f
 				case "fluxroom_judge_lag_seconds_sum":
 					sum = f
+				case "fluxroom_bench_judgings_total":
+					judgings = f
 				}
 			}
 		}
 	}
 	if count < 1 || count > 4 || !(sum > 0) || sum > 5 {
 		t.Errorf("judge lag: %v passes over 4 readings taking %v s; want 1–4 passes and a little time", count, sum)
+	}
+	// One bench: each pass judged it once. A pass counts its judging
+	// before its lag, so a scrape may catch one more judging than lags.
+	if judgings < count || judgings > 4 {
+		t.Errorf("%v benches judged in %v passes over 4 readings of one bench; want one a pass", judgings, count)
 	}
 }

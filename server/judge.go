@@ -163,6 +163,7 @@ func (s *Server) judgeBatch(sessionID uint64, rs *roomState, batch []pendingRead
 			return err
 		}
 	}
+	s.metrics.judgings.Add(int64(len(changed)))
 	// Only the changed benches' stalled flags move here, and the room is
 	// moving because they are: the rule over them alone answers for them.
 	// checkStalls publishes the others'.

@@ -31,6 +31,9 @@ type metrics struct {
 	// its commit to its bench's state being published: how far the room's
 	// dashboards trail the file.
 	judgeLag *histogram
+	// judgings counts benches judged by room judges: over the readings
+	// stored, how much of the judging coalesces.
+	judgings atomic.Int64
 }
 
 // latencyBuckets are the upper bounds, in seconds, of the RPC latency
@@ -133,4 +136,5 @@ func (s *Server) serveMetrics(w http.ResponseWriter, r *http.Request) {
 	counter("fluxroom_committed_readings_total", "Readings in group commits (over fluxroom_commit_seconds_count: readings per commit).", m.committed.Load())
 	fmt.Fprintf(w, "# HELP fluxroom_judge_lag_seconds Per judge pass, its oldest reading's time from commit to its bench's state published.\n# TYPE fluxroom_judge_lag_seconds histogram\n")
 	m.judgeLag.write(w, "fluxroom_judge_lag_seconds", "")
+	counter("fluxroom_bench_judgings_total", "Benches judged for their room after new readings (over fluxroom_readings_stored_total: how much judging coalesces).", m.judgings.Load())
 }

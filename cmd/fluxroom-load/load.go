@@ -323,8 +323,8 @@ func (p sweepPoint) print(w io.Writer) {
 			x.name, ph.offered, rate, ms3(ph.ack), ph.serverP50, ph.serverP99, ms3(ph.watch), len(ph.watch), ph.watchMessages)
 		fmt.Fprintf(w, "        verdicts missing at watchers %d, late (> %s) %d, failed submits %d; server CPU %.0f µs/reading (load generator %.0f); server peak RSS %.0f MB\n",
 			ph.missing, lateAfter, ph.late, ph.failed, ph.serverCPU/float64(max(1, ph.stored))*1e6, ph.genCPU/float64(max(1, ph.stored))*1e6, ph.peakRSS/1e6)
-		fmt.Fprintf(w, "        group commits %.0f/s of %.1f readings each, p50 ≤ %g p99 ≤ %g ms with their fsyncs; judge lag (commit → state published) p99 ≤ %g ms\n",
-			ph.commits/ph.elapsed.Seconds(), ph.committed/max(1, ph.commits), ph.commitP50, ph.commitP99, ph.judgeP99)
+		fmt.Fprintf(w, "        group commits %.0f/s of %.1f readings each, p50 ≤ %g p99 ≤ %g ms with their fsyncs; judge lag (commit → state published) p99 ≤ %g ms, %.2f judgings per reading\n",
+			ph.commits/ph.elapsed.Seconds(), ph.committed/max(1, ph.commits), ph.commitP50, ph.commitP99, ph.judgeP99, ph.judgings/float64(max(1, ph.stored)))
 		e := x.echo.latencies
 		fmt.Fprintf(w, "        baseline: the bare echo at %.0f/s over %d connections %s, server CPU %.0f µs/call; submit→ack p50 %.1f × its p50, p99 %.1f × its p99\n",
 			x.echo.rate, p.stations, ms3(e), x.echo.serverCPU*1e6, ratio(quantile(ph.ack, 0.5), quantile(e, 0.5)), ratio(quantile(ph.ack, 0.99), quantile(e, 0.99)))

@@ -47,6 +47,10 @@ type phase struct {
 	// judgeP99 bounds the judge passes' lag from a reading's commit to its
 	// bench's state published (the server's fluxroom_judge_lag_seconds).
 	judgeP99 float64
+	// judgings is how many benches the room judges judged (each once per
+	// pass however many of its readings came): over stored, how much of
+	// the judging coalesced.
+	judgings float64
 	// ackFlood are the acknowledgements of readings due while the flooding
 	// station was on; ack then holds those due while it was quiet.
 	ackFlood []time.Duration
@@ -237,6 +241,7 @@ func openLoop(r *loadRoom, rate float64, dur time.Duration, watchers, flooders i
 	ph.commitP50, ph.commitP99 = bucketQuantile(commits0, commits1, 0.5), bucketQuantile(commits0, commits1, 0.99)
 	lag0, lag1 := before.histogram("fluxroom_judge_lag_seconds", ""), after.histogram("fluxroom_judge_lag_seconds", "")
 	ph.judgeP99 = bucketQuantile(lag0, lag1, 0.99)
+	ph.judgings = after.value("fluxroom_bench_judgings_total") - before.value("fluxroom_bench_judgings_total")
 	ph.commits = commits1[math.Inf(1)] - commits0[math.Inf(1)]
 	ph.committed = after.value("fluxroom_committed_readings_total") - before.value("fluxroom_committed_readings_total")
 	_, ph.peakRSS = r.c.mem()
