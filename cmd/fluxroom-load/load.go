@@ -172,8 +172,8 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 		name string
 		t    closedTopology
 	}{{"over 32 shared connections:", cl.shared}, {"one connection per station: ", cl.own}} {
-		fmt.Fprintf(w, "  %s %6.0f readings/s = %.2f × echo (%.0f calls/s), %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (%.0f µs; rounds %s); load generator %.0f µs = %.1f ×\n",
-			x.name, x.t.rate, x.t.rateRatio(), x.t.echoRate, x.t.rate/group, x.t.cpu.server*1e6, x.t.cpuRatio(), x.t.echoCPU.server*1e6, ratios(x.t.cpuRatios), x.t.cpu.gen*1e6, x.t.genRatio())
+		fmt.Fprintf(w, "  %s %6.0f readings/s = %.2f × echo (%.0f calls/s), %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (%.0f µs; rounds %s); load generator %.0f µs = %.1f ×; %.2f judge passes and %.2f judgings per reading\n",
+			x.name, x.t.rate, x.t.rateRatio(), x.t.echoRate, x.t.rate/group, x.t.cpu.server*1e6, x.t.cpuRatio(), x.t.echoCPU.server*1e6, ratios(x.t.cpuRatios), x.t.cpu.gen*1e6, x.t.genRatio(), x.t.passes, x.t.judgings)
 	}
 
 	var points []sweepPoint

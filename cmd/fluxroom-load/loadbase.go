@@ -190,6 +190,17 @@ type closedTopology struct {
 	// Each fluxroom round over the mean of the echo rounds either side:
 	// ingest, and server and load-generator CPU per call.
 	rateRatios, cpuRatios, genRatios []float64
+	// passes and judgings are the room judges' passes and the benches they
+	// judged, per reading stored, over all rounds.
+	passes, judgings float64
+}
+
+// judgeWork fills passes and judgings from the server's metrics before
+// and after the rounds.
+func (t *closedTopology) judgeWork(before, after metricsPage) {
+	diff := func(name string) float64 { return after.value(name) - before.value(name) }
+	stored := max(1, diff("fluxroom_readings_stored_total"))
+	t.passes, t.judgings = diff("fluxroom_judge_lag_seconds_count")/stored, diff("fluxroom_bench_judgings_total")/stored
 }
 
 // rateRatio, cpuRatio and genRatio are the median round's.
@@ -361,8 +372,10 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 	if err != nil {
 		return res, err
 	}
+	before := r.c.scrape()
 	res.shared = alternate(closedRounds, round, echoShared,
 		flux(seats, func(i int) rpcpb.StationServiceClient { return shared[i%len(shared)] }))
+	res.shared.judgeWork(before, r.c.scrape())
 	if err := r.connectAll(); err != nil {
 		return res, err
 	}
@@ -374,7 +387,9 @@ func closedLoops(dir string, cfg loadConfig) (closedResult, error) {
 		return res, err
 	}
 	clear(sent)
+	before = r.c.scrape()
 	res.own = alternate(closedRounds, round, echoOwn,
 		flux(seats, func(i int) rpcpb.StationServiceClient { return r.stations[i].st }))
+	res.own.judgeWork(before, r.c.scrape())
 	return res, nil
 }
