@@ -129,6 +129,10 @@ type Poly struct {
 	N          int
 }
 
+// polyStack bounds the working buffer Polynomial keeps on the stack: a
+// quadratic over 60 readings; longer runs allocate.
+const polyStack = 3*60 + 60 + 2*9 + 3
+
 // Polynomial fits a polynomial of the given degree by Householder QR on
 // columns of x scaled to [-1, 1], which keeps NIST StRD Pontius (x up to 3e6,
 // x² up to 1e13) accurate to about 1e-10.
@@ -147,102 +151,93 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 	if scale == 0 {
 		return Poly{}, ErrNoSpread
 	}
-	// The working arrays share one allocation, and their rows one more: a
-	// fit runs after every reading, and the collector's cost goes by the
-	// number of objects as much as by their bytes.
-	buf := make([]float64, p*n+n+2*p*p+p)
-	rows := make([][]float64, 3*p)
-	take := func(k int) []float64 {
-		s := buf[:k:k]
-		buf = buf[k:]
-		return s
+	// The working arrays are one flat buffer, indexed by hand, on the
+	// stack for a lab's run: a fit runs after every reading, and the
+	// collector's cost goes by the bytes and objects made.
+	need := p*n + n + 2*p*p + p
+	var stack [polyStack]float64
+	var buf []float64
+	if need <= len(stack) {
+		buf = stack[:need]
+	} else {
+		buf = make([]float64, need)
 	}
-	// a is n×p, column-major: a[j][i] = (x_i/scale)^j.
-	// Each column is the previous one times x/scale: a multiplication per
-	// element instead of a math.Pow, on a path taken after every reading.
-	a := rows[:p:p]
-	for j := range a {
-		a[j] = take(n)
+	// a is n×p, column-major: a[j*n+i] = (x_i/scale)^j. Each column is the
+	// previous one times x/scale: a multiplication per element instead of a
+	// math.Pow, on a path taken after every reading.
+	a, b, r, c, rinv := buf[:p*n], buf[p*n:p*n+n], buf[p*n+n:p*n+n+p*p], buf[p*n+n+p*p:p*n+n+p*p+p], buf[p*n+n+p*p+p:]
+	for i := range x {
+		a[i] = 1
+	}
+	for j := 1; j < p; j++ {
 		for i := range x {
-			if j == 0 {
-				a[j][i] = 1
-			} else {
-				a[j][i] = a[j-1][i] * (x[i] / scale)
-			}
+			a[j*n+i] = a[(j-1)*n+i] * (x[i] / scale)
 		}
 	}
-	b := take(n)
 	copy(b, y)
-	r := rows[p : 2*p : 2*p] // upper triangle, r[i][j] for j ≥ i
-	for i := range r {
-		r[i] = take(p)
-	}
+	// r is the upper triangle, r[i*p+j] for j ≥ i.
 	for k := 0; k < p; k++ {
+		ak := a[k*n : (k+1)*n]
 		var norm float64
 		for i := k; i < n; i++ {
-			norm += a[k][i] * a[k][i]
+			norm += ak[i] * ak[i]
 		}
 		norm = math.Sqrt(norm)
 		if norm == 0 {
 			return Poly{}, ErrNoSpread
 		}
-		if a[k][k] > 0 {
+		if ak[k] > 0 {
 			norm = -norm
 		}
-		// Householder vector v = a_k - norm·e_k, stored in a[k][k:].
-		a[k][k] -= norm
+		// Householder vector v = a_k - norm·e_k, stored in ak[k:].
+		ak[k] -= norm
 		vv := 0.0
 		for i := k; i < n; i++ {
-			vv += a[k][i] * a[k][i]
+			vv += ak[i] * ak[i]
 		}
 		reflect := func(col []float64) {
 			var dot float64
 			for i := k; i < n; i++ {
-				dot += a[k][i] * col[i]
+				dot += ak[i] * col[i]
 			}
 			f := 2 * dot / vv
 			for i := k; i < n; i++ {
-				col[i] -= f * a[k][i]
+				col[i] -= f * ak[i]
 			}
 		}
 		for j := k + 1; j < p; j++ {
-			reflect(a[j])
+			reflect(a[j*n : (j+1)*n])
 		}
 		reflect(b)
-		r[k][k] = norm
+		r[k*p+k] = norm
 		for j := k + 1; j < p; j++ {
-			r[k][j] = a[j][k]
+			r[k*p+j] = a[j*n+k]
 		}
 	}
-	if math.Abs(r[p-1][p-1]) < 1e-12*math.Abs(r[0][0]) {
+	if math.Abs(r[(p-1)*p+p-1]) < 1e-12*math.Abs(r[0]) {
 		return Poly{}, ErrNoSpread
 	}
 	// Back-substitute R·c = Qᵀy for the scaled coefficients.
-	c := take(p)
 	for i := p - 1; i >= 0; i-- {
 		s := b[i]
 		for j := i + 1; j < p; j++ {
-			s -= r[i][j] * c[j]
+			s -= r[i*p+j] * c[j]
 		}
-		c[i] = s / r[i][i]
+		c[i] = s / r[i*p+i]
 	}
 	var ssr float64
 	for i := p; i < n; i++ {
 		ssr += b[i] * b[i]
 	}
-	// (RᵀR)⁻¹ = R⁻¹R⁻ᵀ; invert the triangle.
-	rinv := rows[2*p:]
-	for i := range rinv {
-		rinv[i] = take(p)
-	}
+	// (RᵀR)⁻¹ = R⁻¹R⁻ᵀ; invert the triangle into rinv[i*p+j].
 	for i := p - 1; i >= 0; i-- {
-		rinv[i][i] = 1 / r[i][i]
+		rinv[i*p+i] = 1 / r[i*p+i]
 		for j := i + 1; j < p; j++ {
 			var s float64
 			for k := i + 1; k <= j; k++ {
-				s += r[i][k] * rinv[k][j]
+				s += r[i*p+k] * rinv[k*p+j]
 			}
-			rinv[i][j] = -s / r[i][i]
+			rinv[i*p+j] = -s / r[i*p+i]
 		}
 	}
 	s2 := ssr / float64(n-p)
@@ -251,7 +246,7 @@ func Polynomial(x, y []float64, degree int) (Poly, error) {
 	for j := 0; j < p; j++ {
 		var v float64
 		for k := j; k < p; k++ {
-			v += rinv[j][k] * rinv[j][k]
+			v += rinv[j*p+k] * rinv[j*p+k]
 		}
 		f := math.Pow(scale, float64(j))
 		out.Coef[j] = c[j] / f
