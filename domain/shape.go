@@ -28,6 +28,10 @@ func without[T any](s []T, i int) []T {
 	return append(append(make([]T, 0, len(s)-1), s[:i]...), s[i+1:]...)
 }
 
+// stackReadings is the longest run whose per-reading working lists the
+// judging keeps on the stack; a longer one allocates them.
+const stackReadings = 64
+
 // lineShape runs the checks on a straight-line fit's residuals: a trend
 // with time, and scatter too small for the instruments. uRes is the
 // standard uncertainty of one y value from the instruments' resolution
@@ -36,13 +40,17 @@ func without[T any](s []T, i int) []T {
 func lineShape(fs *findings, x, y []float64, f fit.Line, uRes, uy float64, yUnit string) {
 	n := len(x)
 	if n >= 6 {
-		res := make([]float64, n)
-		order := make([]float64, n)
+		// On the stack for a lab's run: this runs after every reading.
+		var stack [3 * stackReadings]float64
+		buf := stack[:]
+		if 3*n > len(buf) {
+			buf = make([]float64, 3*n)
+		}
+		res, order, us := buf[:n], buf[n:2*n], buf[2*n:3*n]
 		for i := range x {
 			res[i] = y[i] - (f.Intercept + f.Slope*x[i])
 			order[i] = float64(i)
 		}
-		us := make([]float64, n)
 		for i := range us {
 			us[i] = uy
 		}
@@ -71,7 +79,12 @@ func lineOutlier(x, y []float64, f fit.Line, uy float64) (o outlier, ok bool) {
 	}
 	mx := fit.Mean(x)
 	var ssr float64
-	e := make([]float64, n)
+	var stack [stackReadings]float64
+	e := stack[:]
+	if n > len(e) {
+		e = make([]float64, n)
+	}
+	e = e[:n]
 	for i := range x {
 		e[i] = y[i] - (f.Intercept + f.Slope*x[i])
 		ssr += e[i] * e[i]
