@@ -50,9 +50,11 @@ func fieldConstants() []QuantitySpec {
 // constants (common to every point); fieldUnit is the unit the bench's
 // meter reads the field in, which a unit slip most likely starts from.
 func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what, fieldUnit string, plot bool) (Assessment, findings, fieldRun, bool) {
-	x := make([]float64, len(pts))
-	y := make([]float64, len(pts))
-	u := make([]float64, len(pts))
+	// One allocation for the run's five lists: this runs after every
+	// reading.
+	n := len(pts)
+	lists := make([]float64, 5*n)
+	x, y, u, ratios, relU := lists[:n:n], lists[n:2*n:2*n], lists[2*n:3*n:3*n], lists[3*n:4*n:4*n], lists[4*n:]
 	for i, p := range pts {
 		x[i], y[i] = p.theory, p.measured
 		u[i] = math.Hypot(p.u, math.Abs(p.measured)*p.theoryRelU)
@@ -92,8 +94,6 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 	// Point by point: one reading apart from the rest is named first; the
 	// causes that concern the whole run are then looked for without it, so
 	// that one slipped point is not read as a factor in every reading.
-	ratios := make([]float64, len(pts))
-	relU := make([]float64, len(pts))
 	for i, p := range pts {
 		ratios[i] = p.measured / p.theory
 		relU[i] = u[i] / math.Abs(p.measured)
@@ -127,8 +127,12 @@ func assessFieldPoints(pts []fieldPoint, modelRelU float64, tol Tolerance, what,
 	if n := len(cx); n >= 6 {
 		// A drift must be real (weightedTrend) and matter: more than 5 %
 		// over the run // common practice.
-		order := make([]float64, n)
-		uRatio := make([]float64, n)
+		var stack [2 * stackReadings]float64
+		buf := stack[:]
+		if 2*n > len(buf) {
+			buf = make([]float64, 2*n)
+		}
+		order, uRatio := buf[:n], buf[n:2*n]
 		for i := range order {
 			order[i] = float64(i)
 			uRatio[i] = crelU[i] * math.Abs(cratios[i])
