@@ -4,12 +4,15 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"sync"
 	"sync/atomic"
 	"testing"
+	"time"
 
 	"example.com/fluxroom/domain"
+	"go.etcd.io/bbolt"
 )
 
 // BenchmarkAppendReading measures durable appends from many stations at
@@ -71,6 +74,45 @@ func BenchmarkAppendReading(b *testing.B) {
 			if used, err := db.UsedBytes(); err == nil {
 				b.ReportMetric(float64(used)/float64(n.Load()), "used-B/reading")
 			}
+		})
+	}
+}
+
+// BenchmarkBareCommitAfterPause times a bare bbolt commit (one 100-byte
+// record, as BareBaselines') after a pause of each length: the load
+// program's baseline commits back to back, while at 1 000 readings/s a
+// server's commits come about a millisecond apart, and a disk's sync after
+// a pause is slower. It reports the commits' p50 in µs.
+func BenchmarkBareCommitAfterPause(b *testing.B) {
+	for _, pause := range []time.Duration{0, time.Millisecond, 5 * time.Millisecond} {
+		b.Run(fmt.Sprintf("pause=%v", pause), func(b *testing.B) {
+			db, err := bbolt.Open(filepath.Join(b.TempDir(), "bare.db"), 0o600, nil)
+			if err != nil {
+				b.Fatal(err)
+			}
+			defer db.Close()
+			if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
+				b.Fatal(err)
+			}
+			val := make([]byte, 100)
+			took := make([]time.Duration, 0, b.N)
+			b.ResetTimer()
+			for range b.N {
+				if pause > 0 {
+					time.Sleep(pause)
+				}
+				t0 := time.Now()
+				if err := db.Update(func(tx *bbolt.Tx) error {
+					r := tx.Bucket([]byte("r"))
+					seq, _ := r.NextSequence()
+					return r.Put(baselineKey(seq), val)
+				}); err != nil {
+					b.Fatal(err)
+				}
+				took = append(took, time.Since(t0))
+			}
+			slices.Sort(took)
+			b.ReportMetric(float64(took[len(took)/2].Microseconds()), "p50-µs")
 		})
 	}
 }
