@@ -11,39 +11,52 @@ import (
 	"go.etcd.io/bbolt"
 )
 
-// BareBaselines measures bare bbolt in dir for dur, the baseline the load
-// program compares the store's commits with: 100-byte records appended to a
-// file of their own, one Update each (single, a second, with each commit's
-// time), then one writer committing everything 512 goroutines queued while
-// the previous commit ran (group, a second): the store's scheme, without the
-// store. It lives here because only the store imports bbolt.
-func BareBaselines(dir string, dur time.Duration) (single, group float64, commits []time.Duration, err error) {
-	db, err := bbolt.Open(filepath.Join(dir, "baseline.db"), 0o600, nil)
+// BareBaseline is what BareBaselines measured.
+type BareBaseline struct {
+	// Single is appends a second with one Update each, back to back;
+	// Commits each one's time, sorted.
+	Single  float64
+	Commits []time.Duration
+	// Paused are commits each after a pause (a quiet server's spacing, when
+	// a disk syncs more slowly than back to back), sorted.
+	Paused []time.Duration
+	// Group is appends a second with one writer committing everything 512
+	// goroutines queued while the previous commit ran.
+	Group float64
+}
+
+// BareBaselines measures bare bbolt in dir for about dur, the baseline the
+// load program compares the store's commits with: 100-byte records appended
+// to a file of their own, one Update each (back to back for dur/2, then 200
+// each after pause), then one writer committing everything 512 goroutines
+// queued while the previous commit ran (for dur/2): the store's scheme,
+// without the store. It lives here because only the store imports bbolt.
+func BareBaselines(dir string, dur, pause time.Duration) (BareBaseline, error) {
+	var out BareBaseline
+	db, put, err := openBare(filepath.Join(dir, "baseline.db"))
 	if err != nil {
-		return 0, 0, nil, err
+		return out, err
 	}
 	defer db.Close()
-	if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
-		return 0, 0, nil, err
-	}
-	val := make([]byte, 100)
-	put := func(tx *bbolt.Tx) error {
-		b := tx.Bucket([]byte("r"))
-		seq, _ := b.NextSequence()
-		return b.Put(baselineKey(seq), val)
-	}
 	end := time.Now().Add(dur / 2)
-	n := 0
 	for time.Now().Before(end) {
 		t0 := time.Now()
 		if err := db.Update(put); err != nil {
-			return 0, 0, nil, err
+			return out, err
 		}
-		commits = append(commits, time.Since(t0))
-		n++
+		out.Commits = append(out.Commits, time.Since(t0))
 	}
-	single = float64(n) / (dur / 2).Seconds()
-	slices.Sort(commits)
+	out.Single = float64(len(out.Commits)) / (dur / 2).Seconds()
+	slices.Sort(out.Commits)
+	for range 200 {
+		time.Sleep(pause)
+		t0 := time.Now()
+		if err := db.Update(put); err != nil {
+			return out, err
+		}
+		out.Paused = append(out.Paused, time.Since(t0))
+	}
+	slices.Sort(out.Paused)
 
 	queue := make(chan chan error, 512)
 	go func() {
@@ -90,7 +103,28 @@ func BareBaselines(dir string, dur time.Duration) (single, group float64, commit
 		}()
 	}
 	wg.Wait()
-	return single, float64(m.Load()) / (dur / 2).Seconds(), commits, nil
+	out.Group = float64(m.Load()) / (dur / 2).Seconds()
+	return out, nil
+}
+
+// openBare opens a bare bbolt file with one bucket, and put, the
+// transaction that appends one 100-byte record to it.
+func openBare(path string) (*bbolt.DB, func(*bbolt.Tx) error, error) {
+	db, err := bbolt.Open(path, 0o600, nil)
+	if err != nil {
+		return nil, nil, err
+	}
+	if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
+		db.Close()
+		return nil, nil, err
+	}
+	val := make([]byte, 100)
+	put := func(tx *bbolt.Tx) error {
+		b := tx.Bucket([]byte("r"))
+		seq, _ := b.NextSequence()
+		return b.Put(baselineKey(seq), val)
+	}
+	return db, put, nil
 }
 
 // baselineKey is a record key of the baseline file.

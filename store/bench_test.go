@@ -12,7 +12,6 @@ import (
 	"time"
 
 	"example.com/fluxroom/domain"
-	"go.etcd.io/bbolt"
 )
 
 // BenchmarkAppendReading measures durable appends from many stations at
@@ -86,15 +85,11 @@ func BenchmarkAppendReading(b *testing.B) {
 func BenchmarkBareCommitAfterPause(b *testing.B) {
 	for _, pause := range []time.Duration{0, time.Millisecond, 5 * time.Millisecond} {
 		b.Run(fmt.Sprintf("pause=%v", pause), func(b *testing.B) {
-			db, err := bbolt.Open(filepath.Join(b.TempDir(), "bare.db"), 0o600, nil)
+			db, put, err := openBare(filepath.Join(b.TempDir(), "bare.db"))
 			if err != nil {
 				b.Fatal(err)
 			}
 			defer db.Close()
-			if err := db.Update(func(tx *bbolt.Tx) error { _, err := tx.CreateBucketIfNotExists([]byte("r")); return err }); err != nil {
-				b.Fatal(err)
-			}
-			val := make([]byte, 100)
 			took := make([]time.Duration, 0, b.N)
 			b.ResetTimer()
 			for range b.N {
@@ -102,11 +97,7 @@ func BenchmarkBareCommitAfterPause(b *testing.B) {
 					time.Sleep(pause)
 				}
 				t0 := time.Now()
-				if err := db.Update(func(tx *bbolt.Tx) error {
-					r := tx.Bucket([]byte("r"))
-					seq, _ := r.NextSequence()
-					return r.Put(baselineKey(seq), val)
-				}); err != nil {
+				if err := db.Update(put); err != nil {
 					b.Fatal(err)
 				}
 				took = append(took, time.Since(t0))

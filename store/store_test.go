@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"slices"
 	"sync"
 	"testing"
 	"time"
@@ -282,5 +283,21 @@ func TestGroupCommit(t *testing.T) {
 	}
 	if err := db.Check(); err != nil {
 		t.Error(err)
+	}
+}
+
+// BareBaselines measures all three of its baselines in a directory of its
+// own: commits back to back and after a pause, each timed and sorted, and a
+// group commit's rate.
+func TestBareBaselines(t *testing.T) {
+	b, err := BareBaselines(t.TempDir(), 200*time.Millisecond, time.Millisecond)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if b.Single <= 0 || b.Group <= 0 || len(b.Commits) == 0 || len(b.Paused) != 200 {
+		t.Fatalf("single %v/s in %d commits, group %v/s, %d paused commits; want all measured and 200 paused", b.Single, len(b.Commits), b.Group, len(b.Paused))
+	}
+	if !slices.IsSorted(b.Commits) || !slices.IsSorted(b.Paused) || b.Paused[0] <= 0 {
+		t.Error("commit times are not sorted, or a paused commit took no time")
 	}
 }
