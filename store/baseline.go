@@ -27,8 +27,8 @@ type BareBaseline struct {
 
 // BareBaselines measures bare bbolt in dir for about dur, the baseline the
 // load program compares the store's commits with: 100-byte records appended
-// to a file of their own, one Update each (back to back for dur/2, then 200
-// each after pause), then one writer committing everything 512 goroutines
+// to a file of their own, one Update each (back to back for dur/2, then
+// pausedCommits each after pause), then one writer committing everything 512 goroutines
 // queued while the previous commit ran (for dur/2): the store's scheme,
 // without the store. It lives here because only the store imports bbolt.
 func BareBaselines(dir string, dur, pause time.Duration) (BareBaseline, error) {
@@ -48,7 +48,7 @@ func BareBaselines(dir string, dur, pause time.Duration) (BareBaseline, error) {
 	}
 	out.Single = float64(len(out.Commits)) / (dur / 2).Seconds()
 	slices.Sort(out.Commits)
-	for range 200 {
+	for range pausedCommits(dur, pause) {
 		time.Sleep(pause)
 		t0 := time.Now()
 		if err := db.Update(put); err != nil {
@@ -105,6 +105,12 @@ func BareBaselines(dir string, dur, pause time.Duration) (BareBaseline, error) {
 	wg.Wait()
 	out.Group = float64(m.Load()) / (dur / 2).Seconds()
 	return out, nil
+}
+
+// pausedCommits is how many commits BareBaselines times after a pause: as
+// many as dur/2 holds, from 20 to 200.
+func pausedCommits(dur, pause time.Duration) int {
+	return min(200, max(20, int(dur/2/max(pause, time.Microsecond))))
 }
 
 // openBare opens a bare bbolt file with one bucket, and put, the

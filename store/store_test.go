@@ -294,10 +294,18 @@ func TestBareBaselines(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if b.Single <= 0 || b.Group <= 0 || len(b.Commits) == 0 || len(b.Paused) != 200 {
-		t.Fatalf("single %v/s in %d commits, group %v/s, %d paused commits; want all measured and 200 paused", b.Single, len(b.Commits), b.Group, len(b.Paused))
+	if b.Single <= 0 || b.Group <= 0 || len(b.Commits) == 0 || len(b.Paused) != 100 {
+		t.Fatalf("single %v/s in %d commits, group %v/s, %d paused commits; want all measured and 100 paused (100 ms of 1 ms pauses)", b.Single, len(b.Commits), b.Group, len(b.Paused))
 	}
 	if !slices.IsSorted(b.Commits) || !slices.IsSorted(b.Paused) || b.Paused[0] <= 0 {
 		t.Error("commit times are not sorted, or a paused commit took no time")
+	}
+	for _, tc := range []struct {
+		dur, pause time.Duration
+		want       int
+	}{{5 * time.Second, time.Millisecond, 200}, {400 * time.Millisecond, 5 * time.Millisecond, 40}, {time.Second, time.Second, 20}, {time.Second, 0, 200}} {
+		if got := pausedCommits(tc.dur, tc.pause); got != tc.want {
+			t.Errorf("pausedCommits(%v, %v) = %d, want %d", tc.dur, tc.pause, got, tc.want)
+		}
 	}
 }
