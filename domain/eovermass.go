@@ -348,25 +348,35 @@ func chargeToMassOutlier(fs *findings, rs []siReading, em, uem []float64) int {
 // (slope 2/((e/m)·B²)) and 1/r against I at one voltage (slope
 // k·√((e/m)/2V); its intercept is a background field along the axis).
 func linearForms(rs []siReading, k float64) []string {
-	// Readings grouped by their rounded current (then voltage): sorted
-	// once into one list and walked run by run, instead of a map of lists
-	// grown reading by reading, on a path taken after every reading.
+	// Readings grouped by their rounded current (then voltage): each key
+	// worked out once, the keys sorted with the readings' places, the
+	// readings copied in that order and walked run by run, instead of a
+	// map of lists grown reading by reading, on a path taken after every
+	// reading.
+	type keyed struct {
+		key float64
+		i   int
+	}
+	keys := make([]keyed, 0, len(rs))
 	sorted := make([]siReading, 0, len(rs))
 	x, y := make([]float64, len(rs)), make([]float64, len(rs))
 	groups := func(keep func(siReading) bool, key func(siReading) float64, each func(key float64, g []siReading)) {
-		sorted = sorted[:0]
-		for _, r := range rs {
+		keys, sorted = keys[:0], sorted[:0]
+		for i, r := range rs {
 			if keep(r) {
-				sorted = append(sorted, r)
+				keys = append(keys, keyed{key(r), i})
 			}
 		}
-		slices.SortStableFunc(sorted, func(a, b siReading) int { return cmp.Compare(key(a), key(b)) })
+		slices.SortStableFunc(keys, func(a, b keyed) int { return cmp.Compare(a.key, b.key) })
+		for _, k := range keys {
+			sorted = append(sorted, rs[k.i])
+		}
 		for i := 0; i < len(sorted); {
 			j := i + 1 // at least one: a NaN key equals nothing
-			for j < len(sorted) && key(sorted[j]) == key(sorted[i]) {
+			for j < len(sorted) && keys[j].key == keys[i].key {
 				j++
 			}
-			each(key(sorted[i]), sorted[i:j])
+			each(keys[i].key, sorted[i:j])
 			i = j
 		}
 	}
