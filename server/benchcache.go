@@ -21,11 +21,9 @@ func (s *Server) bench(sessionID, benchID uint64) (domain.Bench, error) {
 	if benchID == 0 {
 		return domain.Bench{}, domain.Invalid("bench_id", "is missing")
 	}
+	// A session that is not there has no benches: the same field error.
 	bs, err := s.sessionBenches(sessionID)
-	if errors.Is(err, store.ErrNotFound) {
-		return domain.Bench{}, domain.Invalid("bench_id", "no bench %d in session %d", benchID, sessionID)
-	}
-	if err != nil {
+	if err != nil && !errors.Is(err, store.ErrNotFound) {
 		return domain.Bench{}, err
 	}
 	i, found := slices.BinarySearchFunc(bs, benchID, func(b domain.Bench, id uint64) int { return cmp.Compare(b.ID, id) })
