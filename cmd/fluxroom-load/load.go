@@ -162,9 +162,8 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 	if err != nil {
 		return fmt.Errorf("bbolt baseline: %w", err)
 	}
-	group := bare.Group
 	fmt.Fprintf(w, "baseline bbolt: 100-byte appends, one Update each %.0f/s (commit with its fsyncs %s; each after a %v pause, as at %.0f/s: p50 %.2f ms); one writer committing what 512 goroutines queued %.0f/s\n",
-		bare.Single, ms3(bare.Commits), pause, cfg.light, quantile(bare.Paused, 0.5), group)
+		bare.Single, ms3(bare.Commits), pause, cfg.light, quantile(bare.Paused, 0.5), bare.Group)
 
 	cl, err := closedLoops(dir, cfg)
 	if err != nil {
@@ -177,7 +176,7 @@ func runLoadtest(w io.Writer, cfg loadConfig) error {
 		t    closedTopology
 	}{{"over 32 shared connections:", cl.shared}, {"one connection per station: ", cl.own}} {
 		fmt.Fprintf(w, "  %s %6.0f readings/s = %.2f × echo (%.0f calls/s), %.2f × bbolt group commit; server CPU %.0f µs/reading = %.1f × echo's per call (%.0f µs; rounds %s); load generator %.0f µs = %.1f ×; %.2f judge passes and %.2f judgings per reading\n",
-			x.name, x.t.rate, x.t.rateRatio(), x.t.echoRate, x.t.rate/group, x.t.cpu.server*1e6, x.t.cpuRatio(), x.t.echoCPU.server*1e6, ratios(x.t.cpuRatios), x.t.cpu.gen*1e6, x.t.genRatio(), x.t.passes, x.t.judgings)
+			x.name, x.t.rate, x.t.rateRatio(), x.t.echoRate, x.t.rate/bare.Group, x.t.cpu.server*1e6, x.t.cpuRatio(), x.t.echoCPU.server*1e6, ratios(x.t.cpuRatios), x.t.cpu.gen*1e6, x.t.genRatio(), x.t.passes, x.t.judgings)
 	}
 
 	var points []sweepPoint
