@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"slices"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -52,6 +51,9 @@ type DB struct {
 	queueMu    sync.Mutex
 	queue      []appendReq
 	committing bool
+	// spare is the leader's list for its group, reused commit after
+	// commit; only the caller committing touches it.
+	spare []appendReq
 	// ids is the committers' index of reading ids (see ids.go).
 	ids readingIDs
 	// closeMu is held for reading by every AppendReading and for writing
@@ -214,13 +216,15 @@ func (db *DB) commit(group []appendReq) {
 func (db *DB) lead() {
 	db.queueMu.Lock()
 	n := min(len(db.queue), maxGroup)
-	group := slices.Clone(db.queue[:n])
+	group := append(db.spare[:0], db.queue[:n]...)
 	rest := copy(db.queue, db.queue[n:])
 	clear(db.queue[rest:]) // let the committed readings go
 	db.queue = db.queue[:rest]
 	db.queueMu.Unlock()
 	db.commit(group)
+	clear(group)
 	db.queueMu.Lock()
+	db.spare = group[:0]
 	if len(db.queue) == 0 {
 		db.committing = false
 		db.queueMu.Unlock()
